@@ -1,0 +1,1 @@
+"""Pure physics: constants and interference-pattern formulas, SI units throughout."""
