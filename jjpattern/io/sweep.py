@@ -8,6 +8,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
+from ..sampling import tidy
 from .units import current_factor, field_factor, split_header
 
 #: A fit needs at least this many usable points per branch.
@@ -195,7 +196,7 @@ def _clean_branch(field_T, values, col, source, where) -> Branch:
     finite = np.isfinite(field_T) & np.isfinite(values)
     if not finite.any():
         raise InputError(f"{source}: {where} {col!r} has no finite values next to a finite field")
-    b, v = field_T[finite], values[finite]
+    v = values[finite]
     if not np.any(v != 0):
         raise InputError(
             f"{source}: {where} {col!r} is zero everywhere; check the column and its unit"
@@ -204,18 +205,13 @@ def _clean_branch(field_T, values, col, source, where) -> Branch:
     sign = np.sign(np.median(v)) or np.sign(v[np.nonzero(v)[0][0]])
     name = hint or ("negative" if sign < 0 else "positive")
     # Negative-branch columns come either as negative values or as magnitudes.
-    ic = v * sign
-    order = np.argsort(b, kind="stable")
-    b, ic = b[order], ic[order]
-    uniq, inverse, counts = np.unique(b, return_inverse=True, return_counts=True)
-    if uniq.size < b.size:
-        ic = np.bincount(inverse, weights=ic) / counts
-    if uniq.size < MIN_POINTS:
+    clean = tidy(field_T, values * sign)
+    if clean.x.size < MIN_POINTS:
         raise InputError(
-            f"{source}: {where} {col!r} has only {uniq.size} usable points; a fit needs at "
+            f"{source}: {where} {col!r} has only {clean.x.size} usable points; a fit needs at "
             f"least {MIN_POINTS}"
         )
     return Branch(
-        name=name, column=col, field_T=uniq, ic_A=ic,
-        points_dropped=int((~finite).sum()), duplicates_merged=int(b.size - uniq.size),
+        name=name, column=col, field_T=clean.x, ic_A=clean.y,
+        points_dropped=clean.dropped, duplicates_merged=clean.merged,
     )

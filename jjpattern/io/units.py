@@ -6,7 +6,6 @@ import re
 
 from ..errors import InputError
 
-
 #: Factor to tesla. Oersted is taken as mu0*H, for which 1 Oe corresponds to 1e-4 T.
 FIELD_UNITS = {
     "t": 1.0, "mt": 1e-3, "ut": 1e-6, "nt": 1e-9,

@@ -49,7 +49,7 @@ def circular_pattern(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor
 
 
 def circular_node_flux(count):
-    """Reduced flux ``u`` of the first ``count`` nodes of the circular pattern (zeros of J1 / pi)."""
+    """Reduced flux ``u`` of the first ``count`` circular-pattern nodes, ``j_{1,k} / pi``."""
     return special.jn_zeros(1, count) / np.pi
 
 

@@ -1,0 +1,1 @@
+"""Diagnostics: flags with plain-language meaning and numeric evidence."""

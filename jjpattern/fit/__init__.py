@@ -1,0 +1,1 @@
+"""Fitting layer: lmfit models, data-driven starting values, the automatic fit."""

@@ -1,0 +1,286 @@
+"""The automatic fit: global scan, local least squares, node floor, robust loss, checks.
+
+Thresholds are in units of the noise, so they mean the same at any current
+scale. Each one is written down here once and reported in the evidence of
+the flag it triggers.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..diagnose.flags import make_flag
+from ..errors import InputError
+from ..io.sweep import MIN_POINTS
+from ..physics.patterns import node_flux
+from ..sampling import tidy
+from .models import MODELS
+from .noise import difference_noise
+from .result import PatternFit
+
+#: Below this drop in chi-square (in noise units) from a flat line to the best
+#: pattern of the scan, the data show no modulation.
+MODULATION_DCHI2 = 50.0
+#: Nodes that must lie inside the window for the period to be identified.
+MIN_NODES = 2
+#: A node floor is kept when it lowers chi-square by more than this (noise units).
+FLOOR_DCHI2 = 10.0
+#: The next-best lobe assignment must be worse by this much (noise units), or
+#: the offset is withheld.
+OFFSET_DCHI2 = 16.0
+#: Reduced chi-square (against the model-free noise) above which the fit is poor.
+POOR_FIT_REDCHI = 4.0
+#: Robust loss scale in units of the model-free noise.
+ROBUST_SCALE = 2.0
+#: A robust weight below this counts as a down-weighted point.
+DOWNWEIGHT_BELOW = 0.5
+
+LOSSES = ("linear", "soft_l1", "huber", "cauchy")
+NODE_FLOOR = ("auto", "on", "off")
+
+
+def robust_weight(z2, loss):
+    """IRLS weight of each point for a scipy loss, ``rho'(z)`` with ``z = (r / f_scale)^2``."""
+    if loss == "soft_l1":
+        return 1.0 / np.sqrt(1.0 + z2)
+    if loss == "huber":
+        return np.where(z2 <= 1.0, 1.0, 1.0 / np.sqrt(np.maximum(z2, 1.0)))
+    if loss == "cauchy":
+        return 1.0 / (1.0 + z2)
+    return np.ones_like(z2)
+
+
+def _run(model, y, x, params, loss, f_scale):
+    if loss == "linear":
+        return model.fit(y, params, field_T=x, method="leastsq")
+    fit_kws = {"loss": loss, "f_scale": f_scale, "x_scale": "jac"}
+    return model.fit(y, params, field_T=x, method="least_squares", fit_kws=fit_kws)
+
+
+def _chisq(result):
+    return float(np.sum(np.square(result.residual)))
+
+
+def _value(result, name):
+    return float(result.params[name].value)
+
+
+def _stderr(result, name):
+    err = result.params[name].stderr
+    return None if err is None or not np.isfinite(err) else float(err)
+
+
+def _uncertainty_text(loss):
+    base = (
+        "standard errors from the fit covariance scaled by the reduced chi-square, i.e. the "
+        "noise is estimated from the fit residuals"
+    )
+    if loss != "linear":
+        base += f"; with the robust {loss} loss they are approximate"
+    return base
+
+
+def fit_pattern(
+    field_T,
+    ic_A,
+    *,
+    geometry: str = "rectangular",
+    node_floor: str = "auto",
+    loss: str = "linear",
+    branch: str = "positive",
+) -> PatternFit:
+    """Fit an Ic(B) pattern with no starting values from the user.
+
+    Parameters
+    ----------
+    field_T, ic_A : array_like
+        Applied field (T) and critical current (A). Negative currents are
+        taken as the magnitude of a negative branch; non-finite pairs are
+        dropped and equal fields averaged.
+    geometry : {'rectangular', 'circular'}
+        Closed-form pattern to fit.
+    node_floor : {'auto', 'on', 'off'}
+        Fit a floor in quadrature for lifted nodes; ``auto`` keeps it only when
+        it improves the fit beyond ``FLOOR_DCHI2``.
+    loss : {'linear', 'soft_l1', 'huber', 'cauchy'}
+        ``linear`` is ordinary least squares (efficient on clean data); the
+        others down-weight points far from the pattern, such as premature
+        switching events.
+    branch : str
+        Label carried into the result and its flags.
+
+    Returns
+    -------
+    PatternFit
+        Headline numbers with standard errors, or ``None`` and a flag where
+        the data cannot tell.
+    """
+    if geometry not in MODELS:
+        raise InputError(f"unknown geometry {geometry!r}; use one of {', '.join(MODELS)}")
+    if loss not in LOSSES:
+        raise InputError(f"unknown loss {loss!r}; use one of {', '.join(LOSSES)}")
+    if node_floor not in NODE_FLOOR:
+        raise InputError(f"unknown node-floor mode {node_floor!r}; use auto, on or off")
+    clean = tidy(field_T, ic_A)
+    x, y = clean.x, clean.y
+    if x.size < MIN_POINTS:
+        raise InputError(f"only {x.size} usable points; a fit needs at least {MIN_POINTS}")
+    if np.median(y) < 0:
+        y = -y
+    model = MODELS[geometry]()
+    noise = difference_noise(x, y)
+    scale = float(np.max(np.abs(y)))
+    noise = max(noise, 1e-9 * scale) if np.isfinite(noise) else 1e-9 * scale
+    out = PatternFit(
+        branch=branch, model=geometry, points_used=int(x.size), noise_A=noise,
+        ic_max_A=float(np.max(y)), field_min_T=float(x[0]), field_max_T=float(x[-1]),
+        loss=loss, uncertainty=_uncertainty_text(loss), field_T=x, ic_A=y,
+    )
+    if scale <= 0:
+        out.flags.append(make_flag("no-modulation", branch, reason="the current is zero"))
+        return out
+
+    scan = model.scan(y, x)
+    best = scan.candidates[0]
+    drop = (scan.flat_chisq_A2 - best.chisq_A2) / noise**2
+    if drop < MODULATION_DCHI2:
+        out.flags.append(make_flag(
+            "no-modulation", branch, chisq_drop_over_noise=round(drop, 2),
+            threshold=MODULATION_DCHI2, noise_A=noise,
+        ))
+        return out
+
+    f_scale = ROBUST_SCALE * noise
+    params = model.make_params(
+        ic0_A=best.amplitude_A + best.background_A,
+        period_T=best.period_T,
+        field_offset_T=best.field_offset_T,
+    )
+    result = _run(model, y, x, params, loss, f_scale)
+    floor_evidence = None
+    if node_floor != "off":
+        with_floor = result.params.copy()
+        ic0 = abs(_value(result, "ic0_A"))
+        with_floor["floor_A"].set(value=max(best.background_A, 0.05 * ic0), vary=True)
+        floored = _run(model, y, x, with_floor, loss, f_scale)
+        gain = (_chisq(result) - _chisq(floored)) / (_chisq(floored) / max(floored.nfree, 1))
+        if node_floor == "on" or gain > FLOOR_DCHI2:
+            result = floored
+            floor_evidence = {"chisq_gain_over_noise": round(float(gain), 2),
+                              "threshold": FLOOR_DCHI2}
+
+    result, offset_ok, offset_evidence = _check_lobe_assignment(
+        model, y, x, result, loss, f_scale, geometry)
+    _fill(out, result, geometry, x, offset_ok)
+    _add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, f_scale)
+    return out
+
+
+def _first_node(geometry):
+    return float(node_flux(geometry, 1)[0])
+
+
+def _check_lobe_assignment(model, y, x, result, loss, f_scale, geometry):
+    """Compare the fit with the main lobe moved by one or two lobes when it is near an edge.
+
+    Returns the better result, whether the offset is trusted, and the evidence.
+    """
+    period = abs(_value(result, "period_T"))
+    offset = _value(result, "field_offset_T")
+    reach = _first_node(geometry) * period
+    inside = x[0] <= offset - reach and offset + reach <= x[-1]
+    if inside:
+        return result, True, None
+    alternatives = []
+    for k in (-2, -1, 1, 2):
+        params = result.params.copy()
+        params["field_offset_T"].set(value=offset + k * period)
+        alt = _run(model, y, x, params, loss, f_scale)
+        if abs(_value(alt, "field_offset_T") - offset) > 0.5 * period:
+            alternatives.append(alt)
+    if not alternatives:
+        return result, True, None
+    ranked = sorted([result, *alternatives], key=_chisq)
+    best, runner_up = ranked[0], ranked[1]
+    sigma2 = _chisq(best) / max(best.nfree, 1)
+    delta = (_chisq(runner_up) - _chisq(best)) / sigma2
+    evidence = {
+        "chisq_margin_over_noise": round(float(delta), 2),
+        "threshold": OFFSET_DCHI2,
+        "best_offset_T": _value(best, "field_offset_T"),
+        "next_offset_T": _value(runner_up, "field_offset_T"),
+    }
+    return best, bool(delta >= OFFSET_DCHI2), evidence
+
+
+def _fill(out, result, geometry, x, offset_ok):
+    """Copy the fitted numbers into ``out``, withholding what the data do not fix."""
+    period = abs(_value(result, "period_T"))
+    offset = _value(result, "field_offset_T")
+    floor = abs(_value(result, "floor_A"))
+    out.best_params = {
+        "ic0_A": abs(_value(result, "ic0_A")), "period_T": period,
+        "field_offset_T": offset, "floor_A": floor,
+    }
+    out.lmfit_result = result
+    resid = result.residual
+    nfree = max(result.nfree, 1)
+    out.residual_rms_A = float(np.sqrt(np.mean(resid**2)))
+    out.reduced_chisq = float(np.sum(resid**2) / nfree / out.noise_A**2)
+
+    u_nodes = node_flux(geometry, int(np.ceil((x[-1] - x[0]) / period)) + 2)
+    margin = 0.1 * period
+    nodes = np.concatenate([offset - u_nodes * period, offset + u_nodes * period])
+    out.nodes_observed = int(np.sum((nodes > x[0] + margin) & (nodes < x[-1] - margin)))
+    centres = np.concatenate([[0.0], 0.5 * (u_nodes[:-1] + u_nodes[1:])])
+    lobes = np.concatenate([offset - centres[1:] * period, offset + centres * period])
+    out.lobes_observed = int(np.sum((lobes >= x[0]) & (lobes <= x[-1])))
+    if out.nodes_observed < MIN_NODES:
+        return
+    out.period_T = period
+    out.period_stderr_T = _stderr(result, "period_T")
+    out.effective_area_m2 = _value(result, "effective_area_m2")
+    out.effective_area_stderr_m2 = _stderr(result, "effective_area_m2")
+    if result.params["floor_A"].vary:
+        out.node_floor_A = floor
+        out.node_floor_stderr_A = _stderr(result, "floor_A")
+    if offset_ok:
+        out.field_offset_T = offset
+        out.field_offset_stderr_T = _stderr(result, "field_offset_T")
+        out.ic0_A = out.best_params["ic0_A"]
+        out.ic0_stderr_A = _stderr(result, "ic0_A")
+
+
+def _add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, f_scale):
+    if out.period_T is None:
+        out.flags.append(make_flag(
+            "few-lobes", branch, nodes_in_window=out.nodes_observed, required=MIN_NODES,
+            trial_period_T=out.best_params["period_T"],
+        ))
+        return
+    offset = out.best_params["field_offset_T"]
+    if not offset_ok:
+        out.flags.append(make_flag("main-lobe-ambiguous", branch, **offset_evidence))
+    elif not out.field_min_T <= offset <= out.field_max_T:
+        evidence = dict(offset_evidence or {})
+        evidence.update(field_offset_T=offset, window_T=[out.field_min_T, out.field_max_T])
+        out.flags.append(make_flag("main-lobe-outside", branch, **evidence))
+    if out.reduced_chisq > POOR_FIT_REDCHI:
+        out.flags.append(make_flag(
+            "poor-fit", branch, reduced_chisq=round(out.reduced_chisq, 3),
+            threshold=POOR_FIT_REDCHI, noise_A=out.noise_A,
+        ))
+    if floor_evidence is not None:
+        out.flags.append(make_flag(
+            "lifted-floor", branch, node_floor_A=out.node_floor_A,
+            floor_over_ic0=round(out.node_floor_A / out.best_params["ic0_A"], 4),
+            **floor_evidence,
+        ))
+    if out.loss != "linear":
+        z2 = (result.residual / f_scale) ** 2
+        out.points_downweighted = int(np.sum(robust_weight(z2, out.loss) < DOWNWEIGHT_BELOW))
+        if out.points_downweighted:
+            out.flags.append(make_flag(
+                "outliers-downweighted", branch, points=out.points_downweighted,
+                loss=out.loss, f_scale_A=f_scale, weight_below=DOWNWEIGHT_BELOW,
+            ))
