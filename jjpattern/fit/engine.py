@@ -51,10 +51,17 @@ def robust_weight(z2, loss):
 
 
 def _run(model, y, x, params, loss, f_scale):
+    """One local fit. A robust fit ends with a weighted least-squares step at the
+    robust weights (the fixed point of iteratively reweighted least squares), so
+    that its covariance and reduced chi-square use the down-weighted residuals."""
     if loss == "linear":
         return model.fit(y, params, field_T=x, method="leastsq")
     fit_kws = {"loss": loss, "f_scale": f_scale, "x_scale": "jac"}
-    return model.fit(y, params, field_T=x, method="least_squares", fit_kws=fit_kws)
+    robust = model.fit(y, params, field_T=x, method="least_squares", fit_kws=fit_kws)
+    weights = robust_weight((robust.residual / f_scale) ** 2, loss)
+    result = model.fit(y, robust.params, field_T=x, weights=np.sqrt(weights), method="leastsq")
+    result.robust_weights = weights
+    return result
 
 
 def _chisq(result):
@@ -76,7 +83,8 @@ def _uncertainty_text(loss):
         "noise is estimated from the fit residuals"
     )
     if loss != "linear":
-        base += f"; with the robust {loss} loss they are approximate"
+        base += (f"; the {loss} robust fit is finished by weighted least squares at its "
+                 "robust weights, whose covariance gives the errors")
     return base
 
 
@@ -223,10 +231,10 @@ def _fill(out, result, geometry, x, offset_ok):
         "field_offset_T": offset, "floor_A": floor,
     }
     out.lmfit_result = result
-    resid = result.residual
     nfree = max(result.nfree, 1)
-    out.residual_rms_A = float(np.sqrt(np.mean(resid**2)))
-    out.reduced_chisq = float(np.sum(resid**2) / nfree / out.noise_A**2)
+    out.residual_rms_A = float(np.sqrt(np.mean((out.ic_A - result.best_fit) ** 2)))
+    # Weighted residuals: for a robust fit the down-weighted points count less.
+    out.reduced_chisq = float(np.sum(result.residual**2) / nfree / out.noise_A**2)
 
     u_nodes = node_flux(geometry, int(np.ceil((x[-1] - x[0]) / period)) + 2)
     margin = 0.1 * period
@@ -277,8 +285,7 @@ def _add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, 
             **floor_evidence,
         ))
     if out.loss != "linear":
-        z2 = (result.residual / f_scale) ** 2
-        out.points_downweighted = int(np.sum(robust_weight(z2, out.loss) < DOWNWEIGHT_BELOW))
+        out.points_downweighted = int(np.sum(result.robust_weights < DOWNWEIGHT_BELOW))
         if out.points_downweighted:
             out.flags.append(make_flag(
                 "outliers-downweighted", branch, points=out.points_downweighted,

@@ -1,0 +1,1 @@
+"""Reporting layer: JSON document, text summary, figures."""

@@ -1,0 +1,43 @@
+"""The JSON document of an analysis (the contract of ``analyze --json``)."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+
+from .. import __version__
+
+
+def _plain(value):
+    """JSON-safe copy: numpy scalars to Python, non-finite floats to null."""
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return [_plain(v) for v in value.tolist()]
+    if isinstance(value, (np.floating, np.integer, np.bool_)):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def build_document(analysis, extra_settings: dict | None = None) -> dict:
+    """``{input, fits, flags, tool, settings}`` for one analysis."""
+    settings = dict(analysis.settings)
+    settings.update(extra_settings or {})
+    return _plain({
+        "input": analysis.sweep.summary(),
+        "fits": [fit.to_dict() for fit in analysis.fits],
+        "flags": [flag.to_dict() for flag in analysis.flags],
+        "tool": {"name": "jjpattern", "version": __version__},
+        "settings": settings,
+    })
+
+
+def dumps(document: dict) -> str:
+    """Stable, readable JSON text (sorted keys are avoided so sections keep their order)."""
+    return json.dumps(document, indent=2, ensure_ascii=False, allow_nan=False)

@@ -1,0 +1,92 @@
+"""The pattern figure: data, fit, residuals, and a flux axis on top."""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+from ..errors import InputError
+from .display import CURRENT_UNITS, FIELD_UNITS, pick_unit
+
+#: Okabe-Ito colours, distinguishable with the common colour-vision deficiencies.
+BRANCH_COLOURS = {"positive": "#0072B2", "negative": "#D55E00"}
+FIT_COLOUR = "#222222"
+FORMATS = {".png", ".pdf", ".svg"}
+
+#: Fixed metadata so that reruns give identical files.
+_METADATA = {
+    ".png": {"Software": None},
+    ".pdf": {"Creator": None, "Producer": None, "CreationDate": None},
+    ".svg": {"Creator": None, "Date": None},
+}
+
+
+def check_plot_path(path: str) -> str:
+    """The lower-case suffix of a figure path, or an :class:`InputError` naming the fix."""
+    suffix = os.path.splitext(path)[1].lower()
+    if suffix not in FORMATS:
+        raise InputError(f"{path}: figures are written as .png, .pdf or .svg; change the suffix")
+    folder = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(folder):
+        raise InputError(f"{path}: the folder {folder} does not exist; create it first")
+    return suffix
+
+
+def pattern_figure(fits, title: str = ""):
+    """A matplotlib figure of every branch: data and fit above, residuals below."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib import pyplot as plt
+
+    periods = [f.period_T for f in fits if f.period_T]
+    span = max(max(abs(f.field_min_T), abs(f.field_max_T)) for f in fits)
+    funit, ffac = pick_unit(periods[0] if periods else span, FIELD_UNITS)
+    cunit, cfac = pick_unit(max(f.ic_max_A for f in fits), CURRENT_UNITS)
+
+    fig, (top, bottom) = plt.subplots(
+        2, 1, sharex=True, figsize=(7.0, 5.2), gridspec_kw={"height_ratios": [3, 1]},
+        layout="constrained",
+    )
+    for fit in fits:
+        colour = BRANCH_COLOURS.get(fit.branch, "#009E73")
+        top.plot(fit.field_T / ffac, fit.ic_A / cfac, ".", ms=3, color=colour,
+                 label=f"{fit.branch} branch")
+        if fit.best_params:
+            dense = np.linspace(fit.field_min_T, fit.field_max_T, 4000)
+            top.plot(dense / ffac, fit.model_A(dense) / cfac, "-", lw=1.0, color=FIT_COLOUR)
+            bottom.plot(fit.field_T / ffac, fit.residual_A() / cfac, ".", ms=2, color=colour)
+    top.plot([], [], "-", color=FIT_COLOUR, lw=1.0, label=f"fit ({fits[0].model})")
+    bottom.axhline(0.0, color="#888888", lw=0.8)
+    top.set_ylabel(f"critical current ({cunit})")
+    bottom.set_ylabel(f"residual ({cunit})")
+    bottom.set_xlabel(f"applied field ({funit})")
+    top.set_ylim(bottom=0)
+    top.legend(frameon=False, fontsize=8)
+    for ax in (top, bottom):
+        ax.grid(alpha=0.25, lw=0.5)
+    ref = next((f for f in fits if f.period_T and f.field_offset_T is not None), None)
+    if ref is not None:
+        b0, p = ref.field_offset_T / ffac, ref.period_T / ffac
+        flux = top.secondary_xaxis("top", functions=(lambda b: (b - b0) / p,
+                                                     lambda u: u * p + b0))
+        flux.set_xlabel(f"flux Φ/Φ0 ({ref.branch} branch)")
+    if title:
+        fig.suptitle(title, fontsize=10)
+    return fig
+
+
+def save_figure(fig, path: str) -> None:
+    """Write ``fig`` atomically with fixed metadata (temporary file, then rename)."""
+    from matplotlib import pyplot as plt
+
+    suffix = os.path.splitext(path)[1].lower()
+    tmp = f"{path}.tmp{os.getpid()}{suffix}"
+    try:
+        fig.savefig(tmp, dpi=200, metadata=_METADATA[suffix])
+        os.replace(tmp, path)
+    finally:
+        plt.close(fig)
+        if os.path.exists(tmp):
+            os.remove(tmp)

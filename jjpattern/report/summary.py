@@ -1,0 +1,61 @@
+"""The readable text summary printed by ``jjpattern analyze`` without ``--json``."""
+
+from __future__ import annotations
+
+from .. import __version__
+from .display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
+
+
+def _fit_lines(fit) -> list[str]:
+    scale = fit.period_T or fit.best_params.get("period_T") or abs(fit.field_max_T)
+    field_unit = pick_unit(scale, FIELD_UNITS)
+    current_unit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
+    rows = [
+        ("period", format_measure(fit.period_T, fit.period_stderr_T, FIELD_UNITS, field_unit)),
+        ("effective area", format_measure(fit.effective_area_m2, fit.effective_area_stderr_m2,
+                                          AREA_UNITS)),
+        ("field offset", format_measure(fit.field_offset_T, fit.field_offset_stderr_T,
+                                        FIELD_UNITS, field_unit)),
+        ("Ic0", format_measure(fit.ic0_A, fit.ic0_stderr_A, CURRENT_UNITS, current_unit)),
+    ]
+    if fit.node_floor_A is not None:
+        rows.append(("node floor", format_measure(fit.node_floor_A, fit.node_floor_stderr_A,
+                                                  CURRENT_UNITS, current_unit)))
+    if fit.reduced_chisq is not None:
+        noise = format_measure(fit.noise_A, None, CURRENT_UNITS, current_unit, digits=2)
+        rows.append(("reduced chi-square", f"{fit.reduced_chisq:.2f} (point-to-point noise "
+                                           f"{noise})"))
+    if fit.lobes_observed is not None:
+        rows.append(("in window", f"{fit.lobes_observed} lobes, {fit.nodes_observed} nodes, "
+                                  f"{fit.points_used} points"))
+    if fit.loss != "linear":
+        rows.append(("robust loss", f"{fit.loss}, {fit.points_downweighted} points "
+                                    "down-weighted"))
+    width = max(len(k) for k, _ in rows)
+    head = f"{fit.branch} branch, {fit.model} model"
+    return [head] + [f"  {k.ljust(width)}  {v}" for k, v in rows]
+
+
+def render_summary(analysis) -> str:
+    """Several short blocks: the input, each branch's numbers, then the flags."""
+    info = analysis.sweep.summary()
+    lines = [f"jjpattern {__version__}: {info['path']}"]
+    meta = info["metadata"]
+    if meta:
+        lines.append("  " + "; ".join(f"{k}: {v}" for k, v in meta.items()))
+    lines.append(
+        f"  {info['points_used']} points used, {info['points_dropped']} non-finite dropped, "
+        f"{info['duplicates_merged']} duplicate fields averaged"
+    )
+    for fit in analysis.fits:
+        lines.append("")
+        lines.extend(_fit_lines(fit))
+    flags = analysis.flags
+    lines.append("")
+    if not flags:
+        lines.append("flags: none")
+    else:
+        lines.append("flags:")
+        for flag in flags:
+            lines.append(f"  [{flag.severity}] {flag.code} ({flag.branch}): {flag.message}")
+    return "\n".join(lines)
