@@ -68,18 +68,83 @@ def _uniform(field_T, ic_A, step_T):
     return grid, values, weight
 
 
+class _Surface:
+    """FFT correlations of the resampled data with sliding templates."""
+
+    def __init__(self, x, y, unit_shape, step, extend):
+        self.grid, yg, wg = _uniform(x, y, step)
+        self.unit = float(np.max(np.abs(yg))) or 1.0
+        yg = yg / self.unit
+        self.unit_shape = unit_shape
+        span = x[-1] - x[0]
+        self.k_half = int(np.ceil((1.0 + extend) * span / step))
+        self.d = (np.arange(2 * self.k_half + 1) - self.k_half) * step
+        self.nfft = sfft.next_fast_len(self.d.size, real=True)
+        self.valid = self.d.size - self.grid.size + 1
+        # Offset of correlation lag s: B0 = x0 + (k_half - s) * step.
+        self.offsets = self.grid[0] + (self.k_half - np.arange(self.valid)) * step
+        # Single precision is plenty for ranking candidates and twice as fast;
+        # the local fit that follows works in double precision.
+        self.wy_f = np.conj(sfft.rfft((wg * yg).astype(np.float32), self.nfft))
+        self.w_f = np.conj(sfft.rfft(wg.astype(np.float32), self.nfft))
+        self.n = wg.sum()
+        self.sy = float(np.dot(wg, yg))
+        self.syy = float(np.dot(wg, yg**2))
+        self.flat = (self.syy - self.sy**2 / self.n) * self.unit**2
+
+    def best_offsets(self, periods):
+        """Per period: best chi-square (grid sums) and its offset, amplitude and background."""
+        # The templates are even in the field difference: compute one half, mirror it.
+        half = self.unit_shape(self.d[None, self.k_half:] / periods[:, None]).astype(np.float32)
+        templates = np.concatenate([half[:, :0:-1], half], axis=1)
+        t_f = sfft.rfft(templates, self.nfft, axis=1)
+        t2_f = sfft.rfft(templates * templates, self.nfft, axis=1)
+        cut = slice(0, self.valid)
+        s_yf = sfft.irfft(t_f * self.wy_f, self.nfft, axis=1)[:, cut]
+        s_f = sfft.irfft(t_f * self.w_f, self.nfft, axis=1)[:, cut]
+        s_ff = sfft.irfft(t2_f * self.w_f, self.nfft, axis=1)[:, cut]
+        n, sy, syy = self.n, self.sy, self.syy
+        # Least squares of y = amp * template + bkg at every lag, in closed form;
+        # where that needs amp <= 0 or bkg < 0, the pure pattern (bkg = 0) instead.
+        det = s_ff * n - s_f * s_f
+        amp_det = s_yf * n - s_f * sy
+        bkg_det = s_ff * sy - s_f * s_yf
+        both = (amp_det > 0) & (bkg_det >= 0) & (det > 0)
+        gain = np.where(both, (amp_det * s_yf + bkg_det * sy) / np.where(both, det, 1.0),
+                        np.maximum(s_yf, 0.0) ** 2 / np.maximum(s_ff, 1e-30))
+        best = np.argmax(gain, axis=1)
+        rows = np.arange(periods.size)
+        pick = (rows, best)
+        b_amp = np.where(both[pick], amp_det[pick] / np.where(both[pick], det[pick], 1.0),
+                         s_yf[pick] / np.maximum(s_ff[pick], 1e-30))
+        b_bkg = np.where(both[pick], bkg_det[pick] / np.where(both[pick], det[pick], 1.0), 0.0)
+        u = self.unit
+        return (syy - gain[rows, best]) * u * u, self.offsets[best], b_amp * u, b_bkg * u
+
+
+def _local_minima(profile, keep):
+    is_min = np.r_[True, profile[1:] <= profile[:-1]] & np.r_[profile[:-1] < profile[1:], True]
+    picks = np.flatnonzero(is_min)
+    return picks[np.argsort(profile[picks])][:keep]
+
+
 def scan_pattern(
     field_T,
     ic_A,
     unit_shape,
     *,
-    max_lobes: int = 40,
+    max_lobes: int = 30,
     min_points_per_period: float = 4.0,
     extend: float = 1.0,
     tolerance: float = 0.25,
+    coarse: float = 4.0,
     keep: int = 4,
 ) -> ScanResult:
     """Search periods and offsets of ``unit_shape`` over sorted data.
+
+    A coarse period grid (``coarse`` times the tolerance) is searched first;
+    the neighbourhood of each of its ``keep`` best local minima is then
+    searched at the full ``tolerance``.
 
     Parameters
     ----------
@@ -92,6 +157,9 @@ def scan_pattern(
     extend : float
         Offsets are searched up to ``extend`` windows beyond each end, so a main
         lobe outside the window can still be located from the side lobes.
+    tolerance : float
+        Largest misplacement of the farthest node between period grid points,
+        in periods.
     keep : int
         How many distinct local minima of the period profile to return.
     """
@@ -101,61 +169,31 @@ def scan_pattern(
     median_step = float(np.median(np.diff(x)))
     p_min = max(span / (2 * max_lobes), min_points_per_period * median_step)
     p_max = 2.0 * span
-    periods = period_grid(span, p_min, p_max, tolerance)
+    surface = _Surface(x, y, unit_shape, max(p_min / 4.0, span / (_MAX_GRID - 1)), extend)
 
-    step = max(p_min / 6.0, span / (_MAX_GRID - 1))
-    grid, yg, wg = _uniform(x, y, step)
-    n_w = grid.size
-    k_half = int(np.ceil((1.0 + extend) * span / step))
-    d = (np.arange(2 * k_half + 1) - k_half) * step
-    templates = unit_shape(d[None, :] / periods[:, None])
-    n_t = d.size
-    nfft = sfft.next_fast_len(n_t, real=True)
-
-    t_f = sfft.rfft(templates, nfft, axis=1)
-    t2_f = sfft.rfft(templates**2, nfft, axis=1)
-    wy_f = np.conj(sfft.rfft(wg * yg, nfft))
-    w_f = np.conj(sfft.rfft(wg, nfft))
-    valid = n_t - n_w + 1
-    s_yf = sfft.irfft(t_f * wy_f, nfft, axis=1)[:, :valid]
-    s_f = sfft.irfft(t_f * w_f, nfft, axis=1)[:, :valid]
-    s_ff = sfft.irfft(t2_f * w_f, nfft, axis=1)[:, :valid]
-    # Offset of correlation lag s: B0 = x0 + (k_half - s) * step.
-    offsets = grid[0] + (k_half - np.arange(valid)) * step
-
-    n = wg.sum()
-    sy = np.dot(wg, yg)
-    syy = np.dot(wg, yg**2)
-    flat = syy - sy**2 / n
-    det = s_ff * n - s_f**2
-    safe = np.where(det > 0, det, np.inf)
-    amp = (s_yf * n - s_f * sy) / safe
-    bkg = (s_ff * sy - s_f * s_yf) / safe
-    chisq = syy - amp * s_yf - bkg * sy
-    # A negative background is not physical: fall back to the pure pattern there.
-    amp0 = s_yf / np.where(s_ff > 0, s_ff, np.inf)
-    neg = bkg < 0
-    chisq = np.where(neg, syy - amp0 * s_yf, chisq)
-    amp = np.where(neg, amp0, amp)
-    bkg = np.where(neg, 0.0, bkg)
-    chisq = np.where(amp > 0, chisq, flat)
-
-    best_s = np.argmin(chisq, axis=1)
-    rows = np.arange(periods.size)
-    profile = chisq[rows, best_s]
-    # Local minima of the period profile, best first.
-    is_min = np.r_[True, profile[1:] <= profile[:-1]] & np.r_[profile[:-1] < profile[1:], True]
-    picks = np.flatnonzero(is_min)
-    picks = picks[np.argsort(profile[picks])][:keep]
-    scale = x.size / n  # grid sums to data-point sums
+    rough = period_grid(span, p_min, p_max, coarse * tolerance)
+    rough_result = surface.best_offsets(rough)
+    fine = np.unique(np.concatenate([
+        period_grid(span, rough[max(i - 1, 0)], rough[min(i + 1, rough.size - 1)], tolerance)
+        for i in _local_minima(rough_result[0], keep)
+    ]))
+    fine = fine[~np.isin(fine, rough)]
+    periods = np.concatenate([rough, fine])
+    order = np.argsort(periods)
+    periods = periods[order]
+    chi, offsets, amps, bkgs = (
+        np.concatenate([a, b])[order] for a, b in zip(rough_result, surface.best_offsets(fine),
+                                                       strict=True)
+    )
+    scale = x.size / surface.n  # grid sums to data-point sums
     candidates = tuple(
         Candidate(
             period_T=float(periods[i]),
-            field_offset_T=float(offsets[best_s[i]]),
-            amplitude_A=float(amp[i, best_s[i]]),
-            background_A=float(bkg[i, best_s[i]]),
-            chisq_A2=float(profile[i] * scale),
+            field_offset_T=float(offsets[i]),
+            amplitude_A=float(amps[i]),
+            background_A=float(bkgs[i]),
+            chisq_A2=float(chi[i] * scale),
         )
-        for i in picks
+        for i in _local_minima(chi, keep)
     )
-    return ScanResult(candidates, float(flat * scale), periods, profile * scale)
+    return ScanResult(candidates, float(surface.flat * scale), periods, chi * scale)
