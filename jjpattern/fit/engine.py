@@ -14,6 +14,7 @@ from ..errors import InputError
 from ..io.sweep import MIN_POINTS
 from ..physics.patterns import node_flux
 from ..sampling import tidy
+from .far import far_lobe_start
 from .models import MODELS
 from .noise import difference_noise
 from .result import PatternFit
@@ -28,6 +29,8 @@ FLOOR_DCHI2 = 10.0
 #: The next-best lobe assignment must be worse by this much (noise units), or
 #: the offset is withheld.
 OFFSET_DCHI2 = 16.0
+#: Most lobe-to-lobe steps taken when looking for the main lobe outside the window.
+MAX_LOBE_WALK = 40
 #: Reduced chi-square (against the model-free noise) above which the fit is poor.
 POOR_FIT_REDCHI = 4.0
 #: Robust loss scale in units of the model-free noise.
@@ -165,6 +168,16 @@ def fit_pattern(
         field_offset_T=best.field_offset_T,
     )
     result = _run(model, y, x, params, loss, f_scale)
+    offset = _value(result, "field_offset_T")
+    if not x[0] <= offset <= x[-1] or _nodes_in_window(
+            geometry, x, abs(_value(result, "period_T")), offset) < MIN_NODES:
+        far = far_lobe_start(x, y, model.unit_shape)
+        if far is not None:
+            start = model.make_params(ic0_A=far.amplitude_A, period_T=far.period_T,
+                                      field_offset_T=far.field_offset_T)
+            alt = _run(model, y, x, start, loss, f_scale)
+            if _chisq(alt) < _chisq(result):
+                result = alt
     floor_evidence = None
     if node_floor != "off":
         with_floor = result.params.copy()
@@ -184,41 +197,76 @@ def fit_pattern(
     return out
 
 
+def _node_list(geometry, x, period, offset):
+    """Reduced flux of every node that could fall between the window's ends."""
+    reach = max(abs(x[0] - offset), abs(x[-1] - offset)) / period
+    return node_flux(geometry, int(np.ceil(reach)) + 2)
+
+
+def _nodes_in_window(geometry, x, period, offset):
+    """Nodes inside the window with data on both sides (a tenth of a period)."""
+    u_nodes = _node_list(geometry, x, period, offset)
+    nodes = np.concatenate([offset - u_nodes * period, offset + u_nodes * period])
+    margin = 0.1 * period
+    return int(np.sum((nodes > x[0] + margin) & (nodes < x[-1] - margin)))
+
+
 def _first_node(geometry):
     return float(node_flux(geometry, 1)[0])
 
 
 def _check_lobe_assignment(model, y, x, result, loss, f_scale, geometry):
-    """Compare the fit with the main lobe moved by one or two lobes when it is near an edge.
+    """When the main lobe is near or beyond an edge, test which lobe is the main one.
 
-    Returns the better result, whether the offset is trusted, and the evidence.
+    Refits with the offset started one lobe over walk downhill in chi-square
+    until no neighbour is better; the margin to the next-best assignment then
+    decides whether the offset can be trusted. Returns the best result, that
+    verdict and its evidence.
     """
     period = abs(_value(result, "period_T"))
-    offset = _value(result, "field_offset_T")
+    origin = _value(result, "field_offset_T")
     reach = _first_node(geometry) * period
-    inside = x[0] <= offset - reach and offset + reach <= x[-1]
-    if inside:
+    if x[0] <= origin - reach and origin + reach <= x[-1]:
         return result, True, None
-    alternatives = []
-    for k in (-2, -1, 1, 2):
-        params = result.params.copy()
-        params["field_offset_T"].set(value=offset + k * period)
+    fits = {0: result}  # by lobe index of the fitted offset
+    tried = {0}
+
+    def lobe(fit):
+        return int(round((_value(fit, "field_offset_T") - origin) / period))
+
+    def explore(k):
+        if k in tried:
+            return
+        tried.add(k)
+        params = fits[current].params.copy()
+        params["field_offset_T"].set(value=origin + k * period)
         alt = _run(model, y, x, params, loss, f_scale)
-        if abs(_value(alt, "field_offset_T") - offset) > 0.5 * period:
-            alternatives.append(alt)
-    if not alternatives:
-        return result, True, None
-    ranked = sorted([result, *alternatives], key=_chisq)
-    best, runner_up = ranked[0], ranked[1]
-    sigma2 = _chisq(best) / max(best.nfree, 1)
-    delta = (_chisq(runner_up) - _chisq(best)) / sigma2
+        j = lobe(alt)
+        if j not in fits or _chisq(alt) < _chisq(fits[j]):
+            fits[j] = alt
+
+    current = 0
+    for _ in range(MAX_LOBE_WALK):
+        for k in (current - 2, current - 1, current + 1, current + 2):
+            explore(k)
+        best = min(fits, key=lambda j: _chisq(fits[j]))
+        if best == current:
+            break
+        current = best
+    ranked = sorted(fits, key=lambda j: _chisq(fits[j]))
+    best_fit = fits[ranked[0]]
+    if len(ranked) < 2:
+        return best_fit, True, None
+    runner_up = fits[ranked[1]]
+    sigma2 = _chisq(best_fit) / max(best_fit.nfree, 1)
+    delta = (_chisq(runner_up) - _chisq(best_fit)) / sigma2
     evidence = {
         "chisq_margin_over_noise": round(float(delta), 2),
         "threshold": OFFSET_DCHI2,
-        "best_offset_T": _value(best, "field_offset_T"),
+        "best_offset_T": _value(best_fit, "field_offset_T"),
         "next_offset_T": _value(runner_up, "field_offset_T"),
     }
-    return best, bool(delta >= OFFSET_DCHI2), evidence
+    return best_fit, bool(delta >= OFFSET_DCHI2), evidence
 
 
 def _fill(out, result, geometry, x, offset_ok):
@@ -236,10 +284,8 @@ def _fill(out, result, geometry, x, offset_ok):
     # Weighted residuals: for a robust fit the down-weighted points count less.
     out.reduced_chisq = float(np.sum(result.residual**2) / nfree / out.noise_A**2)
 
-    u_nodes = node_flux(geometry, int(np.ceil((x[-1] - x[0]) / period)) + 2)
-    margin = 0.1 * period
-    nodes = np.concatenate([offset - u_nodes * period, offset + u_nodes * period])
-    out.nodes_observed = int(np.sum((nodes > x[0] + margin) & (nodes < x[-1] - margin)))
+    out.nodes_observed = _nodes_in_window(geometry, x, period, offset)
+    u_nodes = _node_list(geometry, x, period, offset)
     centres = np.concatenate([[0.0], 0.5 * (u_nodes[:-1] + u_nodes[1:])])
     lobes = np.concatenate([offset - centres[1:] * period, offset + centres * period])
     out.lobes_observed = int(np.sum((lobes >= x[0]) & (lobes <= x[-1])))
