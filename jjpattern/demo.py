@@ -7,7 +7,7 @@ from importlib import resources
 
 #: Demo file and the options a user would pick for it.
 DEMO_RUNS = (
-    ("kt14_j03.csv", {"loss": "soft_l1"}),
+    ("kt14_j03.csv", {"loss": "cauchy"}),
     ("kt14_j05.h5", {"geometry": "circular"}),
     ("kt14_j11.tsv", {}),
 )

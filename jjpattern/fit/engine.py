@@ -19,9 +19,9 @@ from .models import MODELS
 from .noise import difference_noise
 from .result import PatternFit
 
-#: Below this drop in chi-square (in noise units) from a flat line to the best
-#: pattern of the scan, the data show no modulation.
-MODULATION_DCHI2 = 50.0
+#: Below this drop in chi-square (in noise units) from a flat line to the fitted
+#: pattern, the data show no modulation.
+MODULATION_DCHI2 = 30.0
 #: Nodes that must lie inside the window for the period to be identified.
 MIN_NODES = 2
 #: A node floor is kept when it lowers chi-square by more than this (noise units).
@@ -151,16 +151,7 @@ def fit_pattern(
         out.flags.append(make_flag("no-modulation", branch, reason="the current is zero"))
         return out
 
-    scan = model.scan(y, x)
-    best = scan.candidates[0]
-    drop = (scan.flat_chisq_A2 - best.chisq_A2) / noise**2
-    if drop < MODULATION_DCHI2:
-        out.flags.append(make_flag(
-            "no-modulation", branch, chisq_drop_over_noise=round(drop, 2),
-            threshold=MODULATION_DCHI2, noise_A=noise,
-        ))
-        return out
-
+    best = model.scan(y, x).candidates[0]
     f_scale = ROBUST_SCALE * noise
     params = model.make_params(
         ic0_A=best.amplitude_A + best.background_A,
@@ -190,6 +181,13 @@ def fit_pattern(
             floor_evidence = {"chisq_gain_over_noise": round(float(gain), 2),
                               "threshold": FLOOR_DCHI2}
 
+    drop = (float(np.sum((y - y.mean()) ** 2)) - _chisq(result)) / noise**2
+    if drop < MODULATION_DCHI2:
+        out.flags.append(make_flag(
+            "no-modulation", branch, chisq_drop_over_noise=round(drop, 2),
+            threshold=MODULATION_DCHI2, noise_A=noise,
+        ))
+        return out
     result, offset_ok, offset_evidence = _check_lobe_assignment(
         model, y, x, result, loss, f_scale, geometry)
     _fill(out, result, geometry, x, offset_ok)
