@@ -5,6 +5,8 @@ import json
 import h5py
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from jjpattern.errors import InputError
 from jjpattern.io import load
@@ -129,3 +131,33 @@ def test_npz_without_pickle(tmp_path):
     sweep = load(path)
     assert sweep.metadata == {"junction": "N1"}
     assert sweep.branches[0].ic_A.max() == pytest.approx(10e-6)
+
+
+@settings(max_examples=150, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(text=st.text(alphabet=st.characters(codec="utf-8"), max_size=400))
+def test_any_text_file_loads_or_gives_input_error(tmp_path, text):
+    # Property: whatever a user feeds in, the loader answers with a Sweep or an InputError.
+    path = tmp_path / "fuzz.csv"
+    path.write_text(text, encoding="utf-8")
+    try:
+        load(path)
+    except InputError as exc:
+        assert str(exc).startswith(str(path))
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(rows=st.lists(st.tuples(st.floats(allow_nan=True, allow_infinity=True, width=32),
+                               st.floats(allow_nan=True, allow_infinity=True, width=32)),
+                     max_size=60))
+def test_any_numeric_table_loads_or_gives_input_error(tmp_path, rows):
+    path = tmp_path / "nums.csv"
+    path.write_text("B (mT),Ic (uA)\n" + "".join(f"{a},{b}\n" for a, b in rows))
+    try:
+        sweep = load(path)
+    except InputError:
+        return
+    for branch in sweep.branches:
+        assert np.all(np.isfinite(branch.field_T)) and np.all(np.diff(branch.field_T) > 0)
+        assert branch.points_used >= 10
