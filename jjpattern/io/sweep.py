@@ -18,6 +18,10 @@ _FIELD_NAMES = {
     "b", "h", "bz", "hz", "b_z", "h_z", "field", "bfield", "b_field", "hfield", "h_field",
     "mu0h", "mu0_h", "applied_field", "magnetic_field", "field_applied", "b_applied",
 }
+_COIL_NAMES = {
+    "coil", "i_coil", "icoil", "coil_current", "magnet", "i_magnet", "magnet_current",
+    "i_field", "field_current",
+}
 _IC_NAME = re.compile(
     r"^(?:ic|i_c|isw|i_sw|ic_sw|icrit|i_crit|iswitch|i_switch)"
     r"(?:[_ ]?(?P<branch>\+|-|pos|neg|plus|minus|p|n|positive|negative))?$"
@@ -94,8 +98,25 @@ def ic_branch_hint(name: str) -> str | None:
     return "negative" if hint in _NEGATIVE else "positive"
 
 
-def is_field_name(name: str) -> bool:
-    return role_key(name) in _FIELD_NAMES
+def is_field_name(name: str, coil: bool = False) -> bool:
+    """A field column name; with ``coil`` also a magnet-current name (``I_coil``)."""
+    key = role_key(name)
+    return key in _FIELD_NAMES or (coil and key in _COIL_NAMES)
+
+
+def numeric(columns: dict, name: str, where: str) -> np.ndarray:
+    """The column as floats, or the loader's message about its first non-number."""
+    values = columns[name]
+    if isinstance(values, str):
+        raise InputError(values)
+    return np.asarray(values, dtype=float)
+
+
+def field_values_T(raw, unit, where, coil_T_per_A=None) -> np.ndarray:
+    """Field in tesla from a field column, or from a magnet current times the coil constant."""
+    if coil_T_per_A is None:
+        return raw * field_factor(unit, where)
+    return raw * current_factor(unit, where) * coil_T_per_A
 
 
 def _find(columns, wanted, source, what):
@@ -120,6 +141,7 @@ def build_sweep(
     current_unit: str | None = None,
     sha256: str | None = None,
     where: str = "column",
+    coil_T_per_A: float | None = None,
 ) -> Sweep:
     """Pick the field and Ic columns, convert to SI and clean each branch.
 
@@ -138,11 +160,12 @@ def build_sweep(
     if field_col is not None:
         fcol = _find(names, field_col, source, "field")
     else:
-        found = [c for c in names if is_field_name(split_header(c)[0])]
+        found = [c for c in names if is_field_name(split_header(c)[0], coil_T_per_A is not None)]
         if not found:
             raise InputError(
                 f"{source}: no field column recognised among "
-                f"{', '.join(repr(c) for c in names)}; name it like 'B (mT)' or pass --field-col"
+                f"{', '.join(repr(c) for c in names)}; name it like 'B (mT)' or pass "
+                "--field-col (for a magnet current, also --coil-constant)"
             )
         if len(found) > 1:
             raise InputError(
@@ -160,17 +183,17 @@ def build_sweep(
                 f"{', '.join(repr(c) for c in names)}; name it like 'Ic (uA)' or pass --ic-col"
             )
 
-    field_raw = np.asarray(columns[fcol], dtype=float)
+    field_raw = numeric(columns, fcol, where)
     f_unit = field_unit or units.get(fcol) or split_header(fcol)[1]
     if not f_unit:
         raise InputError(
             f"{source}: {where} {fcol!r} has no unit; write it as 'B (mT)' or pass --field-unit"
         )
-    field_T = field_raw * field_factor(f_unit, f"{source}: {where} {fcol!r}")
+    field_T = field_values_T(field_raw, f_unit, f"{source}: {where} {fcol!r}", coil_T_per_A)
 
     branches = {}
     for col in icols:
-        raw = np.asarray(columns[col], dtype=float)
+        raw = numeric(columns, col, where)
         c_unit = current_unit or units.get(col) or split_header(col)[1]
         if not c_unit:
             raise InputError(

@@ -57,7 +57,8 @@ def parse_table(text: str, source: str) -> tuple[dict, dict[str, np.ndarray], li
     metadata : dict
         ``# key: value`` lines before the header.
     columns : dict
-        Header name to float array (missing cells are NaN).
+        Header name to float array (missing cells are NaN), or to the message
+        naming the first cell that is not a number.
     line_numbers : list of int
         The file line of each data row, for messages.
     """
@@ -114,26 +115,37 @@ def parse_table(text: str, source: str) -> tuple[dict, dict[str, np.ndarray], li
         numbers.append(i + 1)
     if not rows:
         raise InputError(f"{source}: the file has a header but no data rows")
-    data = _to_float(rows, names, numbers, source)
-    return metadata, {n: data[:, k] for k, n in enumerate(names)}, numbers
+    columns = _columns(rows, names, numbers, source)
+    if all(isinstance(v, str) for v in columns.values()):
+        raise InputError(next(iter(columns.values())))  # prose, not a table of numbers
+    return metadata, columns, numbers
 
 
-def _to_float(rows, names, numbers, source) -> np.ndarray:
+def _columns(rows, names, numbers, source) -> dict:
+    """Float array per column; a column with a non-number holds the message instead.
+
+    Only the columns a sweep uses must be numeric (a status column may hold words).
+    """
     try:
-        return np.array(rows, dtype=float)
+        data = np.array(rows, dtype=float)
+        return {n: data[:, k] for k, n in enumerate(names)}
     except ValueError:
         pass
-    out = np.empty((len(rows), len(names)))
-    for r, cells in enumerate(rows):
-        for c, cell in enumerate(cells):
+    out = {}
+    for c, name in enumerate(names):
+        values = np.empty(len(rows))
+        for r, cells in enumerate(rows):
+            cell = cells[c]
             try:
-                out[r, c] = float(cell)
+                values[r] = float(cell)
             except ValueError:
                 if cell.strip().strip('"').lower() in _MISSING:
-                    out[r, c] = np.nan
+                    values[r] = np.nan
                     continue
-                raise InputError(
-                    f"{source}: line {numbers[r]}, column {names[c]!r}: {cell!r} is not a "
-                    "number; expected a header row followed by rows of numbers"
-                ) from None
+                values = (
+                    f"{source}: line {numbers[r]}, column {name!r}: {cell!r} is not a number; "
+                    "expected a header row followed by rows of numbers"
+                )
+                break
+        out[name] = values
     return out

@@ -14,12 +14,22 @@ FIELD_UNITS = {
 #: Factor to ampere.
 CURRENT_UNITS = {"a": 1.0, "ma": 1e-3, "ua": 1e-6, "na": 1e-9, "pa": 1e-12}
 
+#: Factor to volt.
+VOLTAGE_UNITS = {"v": 1.0, "mv": 1e-3, "uv": 1e-6, "nv": 1e-9}
+#: Factor to ohm (differential resistance dV/dI).
+RESISTANCE_UNITS = {"ohm": 1.0, "\u03c9": 1.0, "kohm": 1e3, "k\u03c9": 1e3, "mohm": 1e-3,
+                    "m\u03c9": 1e-3, "v/a": 1.0}
+
 FIELD_UNIT_HELP = "T, mT, uT, nT, G or Oe"
 CURRENT_UNIT_HELP = "A, mA, uA, nA or pA"
+VOLTAGE_UNIT_HELP = "V, mV, uV or nV"
+RESISTANCE_UNIT_HELP = "Ohm, kOhm or mOhm"
 
 _MICRO = str.maketrans({"\u00b5": "u", "\u03bc": "u"})
 _BRACKETED = re.compile(r"^(?P<name>.*?)\s*[\(\[](?P<unit>[^\)\]]*)[\)\]]\s*$")
-_SUFFIX = re.compile(r"^(?P<name>.+?)[_ ](?P<unit>[A-Za-z\u00b5\u03bc]{1,3})$")
+_SUFFIX = re.compile(r"^(?P<name>.+?)[_ ](?P<unit>[A-Za-z\u00b5\u03bc\u03a9]{1,4})$")
+_COIL = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?P<field>[A-Za-z\u00b5\u03bc]+)\s*/\s*"
+                   r"(?P<current>[A-Za-z\u00b5\u03bc]+)\s*$")
 
 
 def normalise_unit(text: str) -> str:
@@ -38,7 +48,8 @@ def split_header(header: str, known_units=None) -> tuple[str, str | None]:
     if match and match.group("name"):
         return match.group("name").strip(), match.group("unit").strip()
     match = _SUFFIX.match(text)
-    known = known_units if known_units is not None else {**FIELD_UNITS, **CURRENT_UNITS}
+    known = known_units if known_units is not None else {
+        **FIELD_UNITS, **CURRENT_UNITS, **VOLTAGE_UNITS, **RESISTANCE_UNITS}
     if match and normalise_unit(match.group("unit")) in known:
         return match.group("name").strip(), match.group("unit")
     return text, None
@@ -62,3 +73,32 @@ def field_factor(unit: str, where: str) -> float:
 def current_factor(unit: str, where: str) -> float:
     """Factor that converts a current in ``unit`` to ampere."""
     return factor(unit, CURRENT_UNITS, "current", where, CURRENT_UNIT_HELP, "--current-unit")
+
+
+def voltage_factor(unit: str, where: str) -> float:
+    """Factor that converts a voltage in ``unit`` to volt."""
+    return factor(unit, VOLTAGE_UNITS, "voltage", where, VOLTAGE_UNIT_HELP, "--signal-unit")
+
+
+def resistance_factor(unit: str, where: str) -> float:
+    """Factor that converts a differential resistance in ``unit`` to ohm."""
+    return factor(unit, RESISTANCE_UNITS, "resistance", where, RESISTANCE_UNIT_HELP,
+                  "--signal-unit")
+
+
+def coil_constant_T_per_A(text: str) -> float:
+    """Parse a magnet coil constant such as ``'2.5mT/A'``, ``'25 G/A'`` or ``'0.1 T/mA'``."""
+    match = _COIL.match(text or "")
+    where = f"--coil-constant {text!r}"
+    if not match:
+        raise InputError(f"{where}: write it as a number, a field unit, '/' and a current "
+                         "unit, e.g. 2.5mT/A")
+    try:
+        value = float(match.group("value"))
+    except ValueError:
+        raise InputError(f"{where}: {match.group('value')!r} is not a number") from None
+    per = field_factor(match.group("field"), where) / current_factor(match.group("current"),
+                                                                    where)
+    if not value > 0:
+        raise InputError(f"{where}: the coil constant must be positive")
+    return value * per
