@@ -26,6 +26,37 @@ def _add_input_options(parser: argparse.ArgumentParser) -> None:
                        help="unit of the current columns: A, mA, uA, nA or pA")
 
 
+def _add_map_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("raw V(I, B) maps")
+    group.add_argument("--bias-col", metavar="NAME", help="bias-current column or dataset")
+    group.add_argument("--signal-col", metavar="NAME",
+                       help="voltage or dV/dI column or dataset")
+    group.add_argument("--signal-unit", metavar="UNIT",
+                       help="unit of the signal: V, mV, uV, nV, or Ohm for dV/dI")
+    group.add_argument("--transpose", action="store_true",
+                       help="the HDF5 map is stored as (n_bias, n_field)")
+    group.add_argument("--field-from-name", metavar="REGEX",
+                       help="folder of I-V files: read the field from each file name with "
+                            "this pattern (a group named field, or the first group)")
+    group.add_argument("--coil-constant", metavar="K",
+                       help="the field axis is a magnet current; field per current, e.g. "
+                            "2.5mT/A")
+    group.add_argument("--criterion", default="auto",
+                       choices=("auto", "voltage", "dvdi-peak", "dvdi-threshold",
+                                "resistance"),
+                       help="how Ic is read from each I-V (default: voltage for voltage "
+                            "maps, dvdi-peak for dV/dI maps)")
+    group.add_argument("--threshold", metavar="VALUE",
+                       help="criterion level: a voltage (2uV), a dV/dI (5Ohm) or a fraction "
+                            "of Rn (0.05); default chosen from the noise and Rn")
+    group.add_argument("--gap-meV", type=float, metavar="MEV",
+                       help="superconducting gap, for the Ambegaokar-Baratoff IcRn")
+    group.add_argument("--tc-K", type=float, metavar="K",
+                       help="critical temperature, for a BCS gap when no gap is given")
+    group.add_argument("--temperature-K", type=float, metavar="K",
+                       help="measurement temperature (else metadata temperature_K)")
+
+
 def _add_fit_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("fitting")
     group.add_argument("--geometry", choices=("rectangular", "circular"),
@@ -55,8 +86,21 @@ def build_parser() -> argparse.ArgumentParser:
                          help="print one JSON document instead of the summary")
     analyze.add_argument("--plot", metavar="FILE",
                          help="write the pattern figure (.png, .pdf or .svg)")
+    analyze.add_argument("--map-plot", metavar="FILE",
+                         help="raw maps: write the map with the extracted branches")
     _add_input_options(analyze)
+    _add_map_options(analyze)
     _add_fit_options(analyze)
+
+    extract = sub.add_parser("extract", help="read Ic+ and Ic- from a raw V(I, B) map",
+                             description="Extract the critical-current branches of a raw map "
+                                         "(HDF5, long text table, or a folder of I-V files).")
+    extract.add_argument("path", help="the map file or folder")
+    extract.add_argument("--out", metavar="FILE.csv", required=True,
+                         help="where to write the extracted Ic(B) table")
+    extract.add_argument("--plot", metavar="FILE", help="write the map figure")
+    _add_input_options(extract)
+    _add_map_options(extract)
 
     demo = sub.add_parser("demo", help="analyse the bundled demo sweeps",
                           description="Run the whole analysis on the bundled demo chip.")
@@ -76,29 +120,105 @@ def _fit_options(args) -> dict:
     return {"geometry": args.geometry, "node_floor": args.node_floor, "loss": args.loss}
 
 
+def _map_options(args):
+    from .io.maps import MapOptions
+    from .io.units import coil_constant_T_per_A
+
+    return MapOptions(
+        field_col=args.field_col, bias_col=args.bias_col, signal_col=args.signal_col,
+        field_unit=args.field_unit, current_unit=args.current_unit,
+        signal_unit=args.signal_unit, transpose=args.transpose,
+        field_from_name=args.field_from_name,
+        coil_T_per_A=coil_constant_T_per_A(args.coil_constant) if args.coil_constant else None,
+    )
+
+
+def _extraction_options(args) -> dict:
+    from .io.units import parse_threshold
+
+    return {"criterion": args.criterion,
+            "threshold": parse_threshold(args.threshold, args.criterion)}
+
+
+def _sweep_options(args) -> dict:
+    from .io.units import coil_constant_T_per_A
+
+    options = _input_options(args)
+    if args.coil_constant:
+        options["coil_T_per_A"] = coil_constant_T_per_A(args.coil_constant)
+    return options
+
+
+def _check_plots(*paths):
+    from .report.plot import check_plot_path
+
+    for path in paths:
+        if path:
+            check_plot_path(path)
+
+
 def run_analyze(args) -> int:
-    from .analysis import analyze_sweep
-    from .io import load
+    from .analysis import analyze_map, analyze_sweep
+    from .io import open_input
+    from .io.maps import IVMap
     from .report.jsondoc import build_document, dumps
     from .report.summary import render_summary
 
-    if args.plot:
-        from .report.plot import check_plot_path
-
-        check_plot_path(args.plot)
-    sweep = load(args.path, **_input_options(args))
-    analysis = analyze_sweep(sweep, **_fit_options(args))
+    _check_plots(args.plot, args.map_plot)
+    data = open_input(args.path, sweep_options=_sweep_options(args),
+                      map_options=_map_options(args))
+    if isinstance(data, IVMap):
+        gap_J = args.gap_meV * 1.602176634e-22 if args.gap_meV is not None else None
+        analysis = analyze_map(data, **_extraction_options(args), gap_J=gap_J,
+                               tc_K=args.tc_K, temperature_K=args.temperature_K,
+                               **_fit_options(args))
+    else:
+        analysis = analyze_sweep(data, **_fit_options(args))
+    written = []
     if args.plot:
         from .report.plot import pattern_figure, save_figure
 
         save_figure(pattern_figure(analysis.fits, os.path.basename(args.path)), args.plot)
+        written.append(args.plot)
+    if args.map_plot and analysis.extraction is not None:
+        from .report.plot import map_figure, save_figure
+
+        save_figure(map_figure(analysis.extraction), args.map_plot)
+        written.append(args.map_plot)
     if args.json:
-        extra = {"input_options": _input_options(args), "plot": args.plot}
+        extra = {"input_options": _input_options(args), "plot": args.plot,
+                 "map_plot": args.map_plot, "coil_constant": args.coil_constant}
         print(dumps(build_document(analysis, extra)))
     else:
         print(render_summary(analysis))
-        if args.plot:
-            print(f"\nfigure written to {args.plot}")
+        for path in written:
+            print(f"\nfigure written to {path}")
+    return EXIT_OK
+
+
+def run_extract(args) -> int:
+    from .extract.engine import extract
+    from .io import load_map
+
+    _check_plots(args.plot)
+    extraction = extract(load_map(args.path, _map_options(args)), **_extraction_options(args))
+    from .report.files import write_text
+
+    write_text(args.out, extraction.table_csv())
+    for b in extraction.branches:
+        counts = ", ".join(f"{v} {k}" for k, v in sorted(b.counts().items()))
+        print(f"{b.name} branch ({b.source}): {counts}")
+    level = extraction.threshold.get("value")
+    shown = "none" if level is None else f"{level:.4g} {extraction.threshold['unit']}"
+    rn = "not fitted" if extraction.rn_ohm is None else f"{extraction.rn_ohm:.4g} Ohm"
+    print(f"criterion {extraction.criterion}, level {shown} "
+          f"({extraction.threshold.get('chosen')}), Rn {rn}")
+    print(f"table written to {args.out}")
+    if args.plot:
+        from .report.plot import map_figure, save_figure
+
+        save_figure(map_figure(extraction), args.plot)
+        print(f"figure written to {args.plot}")
     return EXIT_OK
 
 
@@ -117,7 +237,7 @@ def main(argv=None) -> int:
         return EXIT_INPUT
     from .errors import InputError
 
-    handlers = {"analyze": run_analyze, "demo": run_demo}
+    handlers = {"analyze": run_analyze, "extract": run_extract, "demo": run_demo}
     try:
         return handlers[args.command](args)
     except InputError as exc:

@@ -26,6 +26,7 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
     """
     from .analysis import analyze_sweep
     from .io import load
+    from .report.files import write_text
     from .report.jsondoc import build_document, dumps
     from .report.plot import pattern_figure, save_figure
     from .report.summary import render_summary
@@ -41,7 +42,7 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
         fig_path = os.path.join(out_dir, f"{stem}.png")
         doc = build_document(analysis, {"input_options": {}, "plot": fig_path})
         doc["input"]["path"] = f"demo:{name}"
-        _write_text(json_path, dumps(doc) + "\n")
+        write_text(json_path, dumps(doc) + "\n")
         save_figure(pattern_figure(analysis.fits, f"{sweep.metadata.get('junction', stem)}"),
                     fig_path)
         written += [json_path, fig_path]
@@ -49,10 +50,3 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
         echo(f"  wrote {json_path} and {fig_path}\n")
     echo(f"demo results are in {os.path.abspath(out_dir)}")
     return written
-
-
-def _write_text(path: str, text: str) -> None:
-    tmp = f"{path}.tmp{os.getpid()}"
-    with open(tmp, "w", encoding="utf-8") as handle:
-        handle.write(text)
-    os.replace(tmp, path)

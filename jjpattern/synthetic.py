@@ -72,3 +72,34 @@ def random_case(rng, *, geometry="rectangular", period_T=None, lobes=None, n_poi
     field = make_field(rng, half, n, uneven)
     ic = ideal(field, geometry, ic0, period, offset) + rng.normal(0.0, frac * ic0, field.size)
     return SyntheticCase(field, ic, period, offset, ic0, frac * ic0, geometry, n_lobes)
+
+
+def bias_sweep(i_max_A, n_points, mode="up"):
+    """Bias in acquisition order: ``up`` (-Imax to +Imax) or ``out-and-back``
+    (0, +Imax, 0, -Imax, 0)."""
+    if mode == "up":
+        return np.linspace(-i_max_A, i_max_A, n_points)
+    quarter = np.linspace(0.0, i_max_A, n_points // 4 + 1)
+    return np.concatenate([quarter, quarter[-2::-1], -quarter[1:], -quarter[-2::-1]])
+
+
+def rsj_map(rng, field_T, ic_pos_A, ic_neg_A, rn_ohm, bias_A, noise_V, offset_V=0.0,
+            retrap_fraction=None):
+    """Voltage map ``(n_field, n_bias)`` for a junction measured along ``bias_A``.
+
+    Without ``retrap_fraction``: the overdamped RSJ curve V = Rn sqrt(I^2 - Ic^2)
+    (Stewart 1968, McCumber 1968, beta_c -> 0). With it: a hysteretic junction
+    that switches at Ic going away from zero, and on the way back stays on the
+    ohmic branch V = Rn I until it retraps at ``retrap_fraction * Ic``.
+    """
+    bias = np.asarray(bias_A, dtype=float)[None, :]
+    ic = np.where(bias >= 0, np.asarray(ic_pos_A)[:, None], np.asarray(ic_neg_A)[:, None])
+    if retrap_fraction is None:
+        v = np.sign(bias) * rn_ohm * np.sqrt(np.clip(bias**2 - ic**2, 0.0, None))
+    else:
+        mag = np.abs(bias)
+        step = np.diff(mag, axis=1)
+        outbound = np.concatenate([step[:, :1], step], axis=1) > 0
+        resistive = np.where(outbound, mag > ic, mag > retrap_fraction * ic)
+        v = np.where(resistive, rn_ohm * bias, 0.0)
+    return v + offset_V + rng.normal(0.0, noise_V, (np.size(field_T), bias.shape[1]))

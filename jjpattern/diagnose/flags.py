@@ -46,6 +46,25 @@ CATALOGUE = {
         "the period is not biased. A floor well above the noise usually means non-uniform "
         "current, a field not perpendicular to the barrier, or a parallel leakage path.",
     ),
+    "censored-rows": (
+        "info",
+        "Some field rows gave no critical current: either the junction never switched inside "
+        "the bias window (Ic above the largest bias) or it was resistive from the first bias "
+        "step (Ic below the step). They are left out of the fit; widen or refine the bias "
+        "sweep to measure them.",
+    ),
+    "hysteretic": (
+        "info",
+        "The junction retraps at a clearly lower current than it switches: it is "
+        "underdamped (hysteretic). Only the switching current is fitted as Ic.",
+    ),
+    "return-sweep-branch": (
+        "warning",
+        "On this polarity the bias only swept towards zero, which measures the retrapping "
+        "current. It equals Ic only for a non-hysteretic junction; it is left out of the "
+        "fit when hysteresis is seen on the other polarity. Sweep away from zero on both "
+        "polarities to measure switching.",
+    ),
     "outliers-downweighted": (
         "info",
         "The robust loss down-weighted points that sit far from the pattern (often premature "

@@ -26,16 +26,20 @@ def _plain(value):
 
 
 def build_document(analysis, extra_settings: dict | None = None) -> dict:
-    """``{input, fits, flags, tool, settings}`` for one analysis."""
+    """``{input, fits, flags, tool, settings}`` (plus ``extraction``, ``icrn`` for maps)."""
     settings = dict(analysis.settings)
     settings.update(extra_settings or {})
-    return _plain({
+    doc = {
         "input": analysis.sweep.summary(),
         "fits": [fit.to_dict() for fit in analysis.fits],
         "flags": [flag.to_dict() for flag in analysis.flags],
         "tool": {"name": "jjpattern", "version": __version__},
         "settings": settings,
-    })
+    }
+    if analysis.extraction is not None:
+        doc["extraction"] = analysis.extraction.settings()
+        doc["icrn"] = analysis.icrn
+    return _plain(doc)
 
 
 def dumps(document: dict) -> str:

@@ -90,3 +90,45 @@ def save_figure(fig, path: str) -> None:
         plt.close(fig)
         if os.path.exists(tmp):
             os.remove(tmp)
+
+
+def map_figure(extraction, title: str = ""):
+    """The raw map (|V| or dV/dI against field and bias) with the extracted branches on top."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib import pyplot as plt
+
+    ivmap = extraction.ivmap
+    # Plot at most about 600 x 600 cells; the extraction itself used every point.
+    rs = max(1, ivmap.shape[0] // 600)
+    cs = max(1, ivmap.shape[1] // 600)
+    field = ivmap.field_T[::rs]
+    bias = np.broadcast_to(ivmap.bias_A, ivmap.shape)[::rs, ::cs]
+    values = np.abs(ivmap.signal[::rs, ::cs]) if ivmap.kind == "voltage" else ivmap.signal[
+        ::rs, ::cs]
+    span = float(np.nanmax(np.abs(ivmap.field_T)))
+    funit, ffac = pick_unit(span, FIELD_UNITS)
+    cunit, cfac = pick_unit(float(np.nanmax(np.abs(bias))), CURRENT_UNITS)
+    order = np.argsort(bias, axis=1, kind="stable")
+    bias_sorted = np.take_along_axis(bias, order, axis=1)
+    values_sorted = np.take_along_axis(values, order, axis=1)
+
+    fig, ax = plt.subplots(figsize=(7.0, 5.0), layout="constrained")
+    mesh = ax.pcolormesh(np.broadcast_to(field[:, None], bias_sorted.shape) / ffac,
+                         bias_sorted / cfac, values_sorted, shading="nearest", cmap="cividis",
+                         rasterized=True)
+    fig.colorbar(mesh, ax=ax, label="|V| (V)" if ivmap.kind == "voltage" else "dV/dI (Ω)")
+    for b in extraction.branches:
+        sign = 1.0 if b.name == "positive" else -1.0
+        colour = BRANCH_COLOURS[b.name]
+        ax.plot(extraction.field_T / ffac, sign * b.ic_A / cfac, ".", ms=2.5, color=colour,
+                label=f"Ic {b.name} ({b.source})")
+        if np.isfinite(b.retrap_A).any() and b.source == "switching":
+            ax.plot(extraction.field_T / ffac, sign * b.retrap_A / cfac, "x", ms=2.5,
+                    mew=0.6, color="#CC79A7", label=f"retrapping {b.name}")
+    ax.set_xlabel(f"applied field ({funit})")
+    ax.set_ylabel(f"bias current ({cunit})")
+    ax.legend(frameon=True, fontsize=7, loc="upper right")
+    ax.set_title(title or f"extraction: {extraction.criterion} criterion", fontsize=10)
+    return fig

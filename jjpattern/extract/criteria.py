@@ -1,0 +1,256 @@
+"""Vectorised pieces of critical-current extraction; every function works on whole maps.
+
+Arrays are (n_field, n_bias) with the bias in acquisition order along axis 1.
+Invalid points are NaN and never satisfy a comparison.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import signal as sps
+
+_MAD = 1.482602218505602
+
+
+@dataclass(frozen=True)
+class Segment:
+    """Part of every row (a sweep polarity and direction, or a bias range).
+
+    With one bias row shared by the whole map the part is a set of columns, so
+    only that part of the map is touched; with a bias per row it is a mask.
+    """
+
+    cols: np.ndarray | None = None
+    mask: np.ndarray | None = None
+    all_finite: bool = False
+
+    def take(self, a):
+        """``(sub-array, valid)`` of a map-shaped array; a view where the columns are a run."""
+        if self.cols is not None:
+            c = self.cols
+            run = c.size > 0 and c[-1] - c[0] == c.size - 1
+            sub = a[:, c[0]:c[-1] + 1] if run else a[:, c]
+            if self.all_finite:
+                return sub, np.broadcast_to(np.True_, sub.shape)
+            return sub, np.isfinite(sub)
+        return a, self.mask & np.isfinite(a)
+
+    def rows(self, step):
+        """The same segment on every ``step``-th row (for estimates that need few rows)."""
+        if self.cols is not None or step == 1:
+            return self
+        return Segment(mask=self.mask[::step], all_finite=self.all_finite)
+
+    def bias(self, bias_A):
+        """The bias over the segment, shaped like :meth:`take`'s sub-array."""
+        if self.cols is not None:
+            return np.broadcast_to(bias_A[0, self.cols], (bias_A.shape[0], self.cols.size))
+        return bias_A
+
+
+def shared(bias_A) -> bool:
+    """True when every row uses the same bias values (a broadcast row)."""
+    return bias_A.ndim == 2 and bias_A.strides[0] == 0
+
+
+def select(bias_A, predicate, all_finite=False) -> Segment:
+    """Segment where ``predicate(bias rows)`` holds (it gets a 2-D array of rows).
+
+    ``all_finite`` promises that the map holds no NaN, which saves a pass.
+    """
+    if shared(bias_A):
+        return Segment(cols=np.flatnonzero(predicate(bias_A[:1])[0]), all_finite=all_finite)
+    with np.errstate(invalid="ignore"):
+        return Segment(mask=predicate(bias_A), all_finite=all_finite)
+
+
+def sample_rows(n_rows, at_most=128) -> int:
+    """Row step that keeps at most ``at_most`` rows for a map-wide estimate."""
+    return max(1, int(np.ceil(n_rows / at_most)))
+
+
+def directions(b):
+    """Masks (outbound, inbound) of rows ``b``: |I| growing (switching) or shrinking.
+
+    Each point takes the direction of the step that reached it; the first point
+    takes that of the step leaving it.
+    """
+    mag = np.abs(b)
+    step = np.diff(mag, axis=1)
+    arriving = np.concatenate([step[:, :1], step], axis=1)
+    return arriving > 0, arriving < 0
+
+
+def near_zero(fraction):
+    """Predicate: |I| within ``fraction`` of the row's largest |I|."""
+    def predicate(b):
+        return np.abs(b) <= fraction * np.nanmax(np.abs(b), axis=1, keepdims=True)
+    return predicate
+
+
+def _row_median(a, valid):
+    if valid.all():
+        return np.median(a, axis=1)
+    with np.errstate(all="ignore"):
+        return np.nanmedian(np.where(valid, a, np.nan), axis=1)
+
+
+def row_offset(signal, bias_A):
+    """Amplifier offset per row: median voltage near zero bias (the supercurrent branch).
+
+    On a resistive row (at a node) the points near zero are symmetric in bias,
+    so their median is still the offset.
+    """
+    sub, valid = select(bias_A, near_zero(0.1)).take(signal)
+    return _row_median(sub, valid)
+
+
+def zero_branch_noise(signal, bias_A):
+    """Noise near zero bias: MAD of detrended point-to-point steps, median over rows.
+
+    On a resistive row the steps are the constant slope plus noise, so removing
+    each row's median step makes every row usable.
+    """
+    step = sample_rows(signal.shape[0])
+    signal, bias_A = signal[::step], bias_A[::step]
+    sub, valid = select(bias_A, near_zero(0.2)).take(signal)
+    steps = np.diff(np.where(valid, sub, np.nan), axis=1)
+    ok = np.isfinite(steps)
+    if not ok.any():
+        return float("nan")
+    detrended = np.abs(steps - _row_median(steps, ok)[:, None])
+    per_row = _MAD * _row_median(detrended, ok & np.isfinite(detrended)) / np.sqrt(2.0)
+    per_row = per_row[np.isfinite(per_row)]
+    return float(np.median(per_row)) if per_row.size else float("nan")
+
+
+def normal_resistance(signal, bias_A, kind, fraction=0.7):
+    """Rn from the high-bias part, per sampled row: the slope of V(I), or the median dV/dI."""
+    step = sample_rows(signal.shape[0])
+    signal, bias_A = signal[::step], bias_A[::step]
+    seg = select(bias_A, lambda b: ~near_zero(fraction)(b))
+    sub, valid = seg.take(signal)
+    if kind == "dvdi":
+        return _row_median(sub, valid)
+    b = seg.bias(bias_A)
+    with np.errstate(all="ignore"):
+        n = valid.sum(axis=1)
+        bb, vv = np.where(valid, b, 0.0), np.where(valid, sub, 0.0)
+        mb, mv = bb.sum(1) / n, vv.sum(1) / n
+        cov = np.where(valid, (b - mb[:, None]) * (sub - mv[:, None]), 0.0).sum(1)
+        var = np.where(valid, (b - mb[:, None]) ** 2, 0.0).sum(1)
+        return cov / var
+
+
+def differential(signal, bias_A, window=7):
+    """dV/dI along each row with a Savitzky-Golay derivative (quadratic, ``window`` points).
+
+    Points within half a window of a turn of the sweep (where the bias reverses
+    and the derivative means nothing) are NaN.
+    """
+    window = max(5, window | 1)
+    if signal.shape[1] < window:
+        return np.gradient(signal, axis=1) / np.gradient(bias_A, axis=1)
+    finite = np.isfinite(signal)
+    dense = bool(finite.all())
+    dv = sps.savgol_filter(signal if dense else _fill_nan(signal), window, 2, deriv=1, axis=1)
+    one_row = shared(bias_A)
+    b = bias_A[:1] if one_row else _fill_nan(bias_A)
+    db = sps.savgol_filter(b, window, 2, deriv=1, axis=1)
+    step = np.sign(np.diff(b, axis=1))
+    turn = np.zeros(b.shape, dtype=bool)
+    turn[:, 1:-1] = step[:, 1:] != step[:, :-1]
+    near_turn = np.convolve(turn.ravel(), np.ones(window), mode="same").reshape(b.shape) > 0
+    with np.errstate(all="ignore"):
+        out = np.divide(dv, db, out=dv)
+    if one_row:
+        out[:, near_turn[0]] = np.nan
+    else:
+        out[near_turn] = np.nan
+    if not dense:
+        out[~finite] = np.nan
+    return out
+
+
+def _fill_nan(a):
+    """Carry the last finite value forward along rows (NaN padding of ragged rows)."""
+    a = np.asarray(a, dtype=float)
+    bad = ~np.isfinite(a)
+    if not bad.any():
+        return a
+    idx = np.where(~bad, np.arange(a.shape[1]), 0)
+    np.maximum.accumulate(idx, axis=1, out=idx)
+    filled = a[np.arange(a.shape[0])[:, None], idx]
+    return np.where(np.isfinite(filled), filled, 0.0)
+
+
+def first_true(mask):
+    """Index of the first True per row and whether there is one."""
+    return np.argmax(mask, axis=1), mask.any(axis=1)
+
+
+def _nothing(n_rows):
+    none = np.zeros(n_rows, dtype=bool)
+    return np.full(n_rows, np.nan), none, none
+
+
+def crossing(level, quantity, bias_A, candidates, upward=True):
+    """|I| where ``quantity`` crosses ``level`` among ``candidates``, interpolated linearly.
+
+    ``upward`` (switching, |I| growing): the first candidate above the level,
+    interpolated with the candidate before it. Otherwise (retrapping, |I|
+    shrinking): the last candidate above the level, interpolated with the one
+    after it, so that noise dips on the resistive branch do not end it early.
+    Returns ``(current_A, found, unbracketed)``; ``unbracketed`` marks rows where
+    no candidate lies on the other side of the crossing (resistive from the first
+    step when switching).
+    """
+    if quantity.shape[1] == 0:
+        return _nothing(quantity.shape[0])
+    rows = np.arange(quantity.shape[0])
+    level = np.broadcast_to(np.asarray(level, dtype=float), rows.shape)[:, None]
+    above = candidates & (quantity > level)
+    n = quantity.shape[1]
+    if upward:
+        k, found = first_true(above)
+        other = k - 1
+    else:
+        last, found = first_true(above[:, ::-1])
+        k = n - 1 - last
+        other = k + 1
+    inside = (other >= 0) & (other < n)
+    other = np.clip(other, 0, n - 1)
+    bracketed = found & inside & candidates[rows, other] & ~above[rows, other]
+    q0, q1 = quantity[rows, other], quantity[rows, k]
+    b0, b1 = np.abs(bias_A[rows, other]), np.abs(bias_A[rows, k])
+    with np.errstate(all="ignore"):
+        t = np.clip((level[:, 0] - q0) / (q1 - q0), 0.0, 1.0)
+    current = np.where(bracketed, b0 + t * (b1 - b0), np.where(found, b1, np.nan))
+    return current, found, found & ~bracketed
+
+
+def peak(quantity, bias_A, candidates):
+    """|I| at the largest ``quantity`` among candidates, refined by a parabola through 3 points.
+
+    Returns ``(current_A, found, at_edge)``; ``at_edge`` marks a peak on the first
+    or last candidate, where no maximum was bracketed.
+    """
+    if quantity.shape[1] == 0:
+        return _nothing(quantity.shape[0])
+    rows = np.arange(quantity.shape[0])
+    masked = np.where(candidates & np.isfinite(quantity), quantity, -np.inf)
+    k = np.argmax(masked, axis=1)
+    found = np.isfinite(masked[rows, k])
+    n = quantity.shape[1]
+    lo, hi = np.clip(k - 1, 0, n - 1), np.clip(k + 1, 0, n - 1)
+    inner = (k > 0) & (k < n - 1) & candidates[rows, lo] & candidates[rows, hi]
+    y0, y1, y2 = masked[rows, lo], masked[rows, k], masked[rows, hi]
+    with np.errstate(all="ignore"):
+        denom = y0 - 2 * y1 + y2
+        shift = np.where(inner & (denom < 0), 0.5 * (y0 - y2) / denom, 0.0)
+    b = np.abs(bias_A)
+    step = np.where(shift >= 0, b[rows, hi] - b[rows, k], b[rows, k] - b[rows, lo])
+    current = np.where(found, b[rows, k] + np.clip(shift, -1, 1) * step, np.nan)
+    return current, found, found & ~inner
