@@ -102,3 +102,42 @@ def test_forward_model_keeps_shape_of_field_argument():
     x = np.linspace(-0.5, 0.5, 101)
     assert isinstance(pt.profile_pattern(0.3, x, np.ones_like(x)), float)
     assert pt.profile_pattern(np.zeros((2, 3)), x, np.ones_like(x)).shape == (2, 3)
+
+
+def test_bcs_ratio_and_gap_near_tc():
+    from jjpattern.physics.junction import BCS_RATIO, bcs_gap_J
+
+    # Weak-coupling BCS: Delta(0) = 1.764 k_B Tc (Bardeen, Cooper & Schrieffer 1957).
+    assert BCS_RATIO == pytest.approx(1.764, abs=5e-4)
+    tc = 9.2
+    assert bcs_gap_J(tc) == pytest.approx(1.764 * constants.k * tc, rel=5e-4)
+    # Near Tc, Delta = 3.06 k_B Tc sqrt(1 - T/Tc) (BCS; e.g. Tinkham, Introduction to
+    # Superconductivity, 2nd ed., eq. 3.54 with 1.74 * 1.764 = 3.07).
+    for t in (0.995, 0.999):
+        ratio = bcs_gap_J(tc, t * tc) / (constants.k * tc * np.sqrt(1 - t))
+        assert ratio == pytest.approx(3.06, rel=0.01)
+    # Far below Tc: 1 - Delta/Delta0 = sqrt(2 pi k T / Delta0) exp(-Delta0 / k T), the
+    # low-temperature expansion of the gap equation (from memory; leading order only).
+    expected = np.sqrt(2 * np.pi * 0.2 / 1.764) * np.exp(-1.764 / 0.2)
+    assert 1 - bcs_gap_J(tc, 0.2 * tc) / bcs_gap_J(tc) == pytest.approx(expected, rel=0.3)
+    assert bcs_gap_J(tc, tc) == 0.0
+
+
+def test_ambegaokar_baratoff():
+    from jjpattern.physics.junction import ambegaokar_baratoff_V
+
+    # Phys. Rev. Lett. 10, 486 (1963): IcRn = pi Delta / (2e) tanh(Delta / 2 k_B T).
+    gap = 1.4e-3 * constants.e
+    assert ambegaokar_baratoff_V(gap) == pytest.approx(np.pi / 2 * 1.4e-3, rel=1e-12)
+    t = 4.2
+    expected = np.pi / 2 * 1.4e-3 * np.tanh(gap / (2 * constants.k * t))
+    assert ambegaokar_baratoff_V(gap, t) == pytest.approx(expected, rel=1e-12)
+
+
+def test_rsj_voltage():
+    from jjpattern.physics.junction import rsj_voltage
+
+    # Overdamped RSJ (Stewart 1968, McCumber 1968): V = Rn sqrt(I^2 - Ic^2) above Ic.
+    i = np.array([-3.0, -1.0, 0.0, 0.5, 2.0])
+    assert np.allclose(rsj_voltage(i, 1.0, 10.0),
+                       [-10 * np.sqrt(8), 0.0, 0.0, 0.0, 10 * np.sqrt(3)])

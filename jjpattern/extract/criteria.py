@@ -9,6 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import ndimage
 from scipy import signal as sps
 
 _MAD = 1.482602218505602
@@ -75,12 +76,16 @@ def directions(b):
     """Masks (outbound, inbound) of rows ``b``: |I| growing (switching) or shrinking.
 
     Each point takes the direction of the step that reached it; the first point
-    takes that of the step leaving it.
+    takes that of the step leaving it. A jump much larger than the usual step (the
+    source reset to the start of a sweep) belongs to neither direction.
     """
     mag = np.abs(b)
     step = np.diff(mag, axis=1)
     arriving = np.concatenate([step[:, :1], step], axis=1)
-    return arriving > 0, arriving < 0
+    with np.errstate(invalid="ignore"):
+        usual = np.nanmedian(np.abs(step), axis=1, keepdims=True)
+        jump = np.abs(arriving) > 5.0 * usual
+    return (arriving > 0) & ~jump, (arriving < 0) & ~jump
 
 
 def near_zero(fraction):
@@ -144,24 +149,30 @@ def normal_resistance(signal, bias_A, kind, fraction=0.7):
         return cov / var
 
 
-def differential(signal, bias_A, window=7):
+def differential(signal, bias_A, window=7, overwrite=False):
     """dV/dI along each row with a Savitzky-Golay derivative (quadratic, ``window`` points).
 
-    Points within half a window of a turn of the sweep (where the bias reverses
-    and the derivative means nothing) are NaN.
+    Points within half a window of a turn or an end of the sweep (where the bias
+    reverses and the derivative means nothing) are NaN. With ``overwrite`` the
+    result replaces ``signal`` in place, which keeps the peak memory at one map.
     """
     window = max(5, window | 1)
     if signal.shape[1] < window:
         return np.gradient(signal, axis=1) / np.gradient(bias_A, axis=1)
     finite = np.isfinite(signal)
     dense = bool(finite.all())
-    dv = sps.savgol_filter(signal if dense else _fill_nan(signal), window, 2, deriv=1, axis=1)
+    coeffs = sps.savgol_coeffs(window, 2, deriv=1, use="conv")
+    source = signal if dense else _fill_nan(signal)
+    # ndimage filters a line at a time through a buffer, so writing in place is safe.
+    dv = ndimage.convolve1d(source, coeffs, axis=1, mode="nearest",
+                            output=signal if overwrite and dense else None)
     one_row = shared(bias_A)
     b = bias_A[:1] if one_row else _fill_nan(bias_A)
-    db = sps.savgol_filter(b, window, 2, deriv=1, axis=1)
+    db = ndimage.convolve1d(b, coeffs, axis=1, mode="nearest")
     step = np.sign(np.diff(b, axis=1))
     turn = np.zeros(b.shape, dtype=bool)
     turn[:, 1:-1] = step[:, 1:] != step[:, :-1]
+    turn[:, 0] = turn[:, -1] = True
     near_turn = np.convolve(turn.ravel(), np.ones(window), mode="same").reshape(b.shape) > 0
     with np.errstate(all="ignore"):
         out = np.divide(dv, db, out=dv)
@@ -240,7 +251,7 @@ def peak(quantity, bias_A, candidates):
     if quantity.shape[1] == 0:
         return _nothing(quantity.shape[0])
     rows = np.arange(quantity.shape[0])
-    masked = np.where(candidates & np.isfinite(quantity), quantity, -np.inf)
+    masked = np.where(candidates, quantity, -np.inf)  # candidates are finite points
     k = np.argmax(masked, axis=1)
     found = np.isfinite(masked[rows, k])
     n = quantity.shape[1]

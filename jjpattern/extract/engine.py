@@ -169,6 +169,8 @@ def extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None = 
     rn = float(np.nanmedian(rn_rows)) if np.isfinite(rn_rows).any() else None
 
     quantity, level, info = _quantity(criterion, threshold, ivmap, sig, bias, noise, rn)
+    # A dV/dI computed here is NaN near the turns of the sweep, even on a dense map.
+    dense = dense and not (criterion.startswith("dvdi") and ivmap.kind == "voltage")
     branches = []
     for name, sign in (("positive", 1.0), ("negative", -1.0)):
         def part(b, sign=sign, out=True):
@@ -202,12 +204,15 @@ def _quantity(criterion, threshold, ivmap, sig, bias, noise, rn):
         frac = RESISTANCE_FRACTION if threshold is None else float(threshold)
         # V/I is pure noise near zero bias: only voltages above the noise count.
         floor = VOLTAGE_SIGMAS * noise
+        quiet = (sig <= floor) & (sig >= -floor)
         with np.errstate(all="ignore"):
-            ratio = np.where(np.abs(sig) > floor, sig / bias, 0.0)
+            ratio = np.divide(sig, bias, out=sig)  # sig is already this function's copy
+        ratio[quiet] = 0.0
         return ratio, frac * rn, {"value": frac * rn, "unit": "ohm", "fraction_of_rn": frac,
                                   "voltage_floor_V": floor,
                                   "chosen": "given" if threshold is not None else "default"}
-    dvdi = sig if ivmap.kind == "dvdi" else cr.differential(sig, bias)
+    # On a voltage map ``sig`` is already this function's own copy: overwrite it.
+    dvdi = sig if ivmap.kind == "dvdi" else cr.differential(sig, bias, overwrite=True)
     dvdi_noise = cr.zero_branch_noise(dvdi, bias)
     if criterion == "dvdi-peak":
         return dvdi, None, {"value": None, "unit": "ohm", "chosen": "largest dV/dI",
@@ -227,7 +232,7 @@ def _branch(name, criterion, q, level, bias, out_seg, in_seg) -> BranchExtractio
     q_out, out = out_seg.take(q)
     q_in, inb = in_seg.take(q)
     b_out, b_in = out_seg.bias(bias), in_seg.bias(bias)
-    has_out = out.any(axis=1)
+    has_out = np.count_nonzero(out, axis=1) >= 3
     if criterion == "dvdi-peak":
         ic, found, first = _peak_status(q_out, b_out, out)
         ret, r_found, _ = _peak_status(q_in, b_in, inb)
