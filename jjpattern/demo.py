@@ -10,7 +10,10 @@ DEMO_RUNS = (
     ("kt14_j03.csv", {"loss": "cauchy"}),
     ("kt14_j05.h5", {"geometry": "circular"}),
     ("kt14_j11.tsv", {}),
+    ("kt14_j07_map.h5", {"tc_K": 9.2}),
 )
+#: Options that belong to the extraction of raw maps, not to the fit.
+_MAP_OPTIONS = ("criterion", "threshold", "gap_J", "tc_K", "temperature_K")
 
 
 def demo_files() -> dict:
@@ -24,19 +27,25 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
 
     Returns the paths written.
     """
-    from .analysis import analyze_sweep
-    from .io import load
+    from .analysis import analyze_map, analyze_sweep
+    from .io import open_input
+    from .io.maps import IVMap
     from .report.files import write_text
     from .report.jsondoc import build_document, dumps
-    from .report.plot import pattern_figure, save_figure
+    from .report.plot import map_figure, pattern_figure, save_figure
     from .report.summary import render_summary
 
     os.makedirs(out_dir, exist_ok=True)
     files = demo_files()
     written = []
     for name, options in DEMO_RUNS:
-        sweep = load(files[name])
-        analysis = analyze_sweep(sweep, **options)
+        data = open_input(files[name], sweep_options={}, map_options=None)
+        if isinstance(data, IVMap):
+            analysis = analyze_map(data, **options)
+        else:
+            analysis = analyze_sweep(data, **{k: v for k, v in options.items()
+                                              if k not in _MAP_OPTIONS})
+        sweep = analysis.sweep
         stem = os.path.splitext(name)[0]
         json_path = os.path.join(out_dir, f"{stem}.json")
         fig_path = os.path.join(out_dir, f"{stem}.png")
@@ -47,6 +56,13 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
                     fig_path)
         written += [json_path, fig_path]
         echo(render_summary(analysis).replace(files[name], f"demo:{name}"))
-        echo(f"  wrote {json_path} and {fig_path}\n")
+        echo(f"  wrote {json_path} and {fig_path}")
+        if analysis.extraction is not None:
+            map_path = os.path.join(out_dir, f"{stem}_extraction.png")
+            save_figure(map_figure(analysis.extraction, f"{sweep.metadata.get('junction')}: "
+                                   "raw map and extracted branches"), map_path)
+            written.append(map_path)
+            echo(f"  wrote {map_path}")
+        echo("")
     echo(f"demo results are in {os.path.abspath(out_dir)}")
     return written

@@ -73,6 +73,29 @@ def j05(rng, path: pathlib.Path) -> None:
         f.create_dataset("ic", data=np.round(ic_uA, 4), track_times=False).attrs["units"] = "uA"
 
 
+def j07(rng, path: pathlib.Path) -> None:
+    """Raw voltage map of a hysteretic junction, bias swept 0 -> +Imax -> 0 -> -Imax -> 0."""
+    b_mT = np.linspace(-2.4, 2.4, 161)
+    quarter = np.linspace(0.0, 30.0, 201)  # uA
+    bias = np.concatenate([quarter, quarter[-2::-1], -quarter[1:], -quarter[-2::-1]])
+    ic_pos = rectangular(b_mT, 21.5, 0.58, 0.07)
+    ic_neg = rectangular(b_mT, 21.1, 0.58, 0.09)
+    ic = np.where(bias[None, :] >= 0, ic_pos[:, None], ic_neg[:, None])
+    mag = np.abs(bias)
+    outbound = np.concatenate([[True], np.diff(mag) > 0])[None, :]
+    resistive = np.where(outbound, mag[None, :] > ic, mag[None, :] > 0.42 * ic)
+    v_uV = np.where(resistive, 8.5 * bias[None, :], 0.0)  # Rn = 8.5 ohm: uA * ohm = uV
+    v_uV = v_uV + 1.3 + rng.normal(0.0, 0.25, v_uV.shape)
+    with h5py.File(path, "w", track_order=False) as f:
+        meta = {**COMMON, "junction": "KT14-J07", "shape": "rectangular, 14 um x 14 um"}
+        for k, v in meta.items():
+            f.attrs[k] = v
+        f.create_dataset("field", data=b_mT, track_times=False).attrs["units"] = "mT"
+        f.create_dataset("bias", data=bias, track_times=False).attrs["units"] = "uA"
+        f.create_dataset("voltage", data=v_uV.astype(np.float32), track_times=False,
+                         compression="gzip", compression_opts=6).attrs["units"] = "uV"
+
+
 def main() -> None:
     for target in TARGETS:
         target.mkdir(parents=True, exist_ok=True)
@@ -80,6 +103,7 @@ def main() -> None:
         (target / "kt14_j03.csv").write_text(j03(rng), encoding="utf-8")
         (target / "kt14_j11.tsv").write_text(j11(rng), encoding="utf-8")
         j05(rng, target / "kt14_j05.h5")
+        j07(rng, target / "kt14_j07_map.h5")
         print(f"wrote {target}")
 
 

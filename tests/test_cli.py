@@ -67,10 +67,16 @@ def test_demo_writes_results_and_says_where(tmp_path, capsys):
     assert main(["demo", "--out", str(tmp_path / "d")]) == 0
     out = capsys.readouterr().out
     files = sorted(os.listdir(tmp_path / "d"))
-    assert files == sorted(f"kt14_j{n}.{s}" for n in ("03", "05", "11") for s in ("json", "png"))
+    expected = [f"kt14_j{n}.{s}" for n in ("03", "05", "11", "07_map") for s in ("json", "png")]
+    assert files == sorted(expected + ["kt14_j07_map_extraction.png"])
     assert str(tmp_path / "d") in out
     doc = json.loads((tmp_path / "d" / "kt14_j05.json").read_text())
     assert doc["fits"][0]["model"] == "circular"
+    raw = json.loads((tmp_path / "d" / "kt14_j07_map.json").read_text())
+    # The demo map was made with a retrapping current of 0.42 Ic and Rn = 8.5 ohm.
+    for branch in raw["extraction"]["branches"]:
+        assert abs(branch["retrapping_over_switching"] - 0.42) < 0.02
+    assert abs(raw["extraction"]["normal_resistance_ohm"] - 8.5) < 0.1
 
 
 def test_help_imports_no_heavy_module():

@@ -6,6 +6,7 @@ import math
 
 FIELD_UNITS = (("T", 1.0), ("mT", 1e-3), ("µT", 1e-6), ("nT", 1e-9))
 CURRENT_UNITS = (("A", 1.0), ("mA", 1e-3), ("µA", 1e-6), ("nA", 1e-9), ("pA", 1e-12))
+VOLTAGE_UNITS = (("V", 1.0), ("mV", 1e-3), ("µV", 1e-6), ("nV", 1e-9))
 AREA_UNITS = (("m²", 1.0), ("mm²", 1e-6), ("µm²", 1e-12), ("nm²", 1e-18))
 
 

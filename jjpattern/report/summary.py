@@ -3,7 +3,14 @@
 from __future__ import annotations
 
 from .. import __version__
-from .display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
+from .display import (
+    AREA_UNITS,
+    CURRENT_UNITS,
+    FIELD_UNITS,
+    VOLTAGE_UNITS,
+    format_measure,
+    pick_unit,
+)
 
 
 def _fit_lines(fit) -> list[str]:
@@ -36,6 +43,35 @@ def _fit_lines(fit) -> list[str]:
     return [head] + [f"  {k.ljust(width)}  {v}" for k, v in rows]
 
 
+def _extraction_lines(analysis) -> list[str]:
+    ex = analysis.extraction
+    level = ex.threshold.get("value")
+    if level is None:
+        shown = ex.threshold.get("chosen", "")
+    elif ex.threshold["unit"] == "V":
+        shown = f"{format_measure(level, None, VOLTAGE_UNITS, digits=3)} ({ex.threshold['chosen']})"
+    else:
+        shown = f"{level:.3g} Ω ({ex.threshold['chosen']})"
+    lines = [f"  extracted from a {ex.ivmap.shape[0]} x {ex.ivmap.shape[1]} {ex.ivmap.kind} map: "
+             f"{ex.criterion} criterion, level {shown}"]
+    if ex.rn_ohm is not None:
+        lines.append(f"  normal resistance {ex.rn_ohm:.4g} Ω")
+    for b in ex.branches:
+        counts = ", ".join(f"{v} {k}" for k, v in sorted(b.counts().items()))
+        ratio = ("" if b.retrapping_ratio is None
+                 else f", retrapping/switching {b.retrapping_ratio:.3f}")
+        lines.append(f"  {b.name}: {b.source}, {counts}{ratio}")
+    icrn = analysis.icrn
+    if icrn:
+        volts = lambda v: format_measure(v, None, VOLTAGE_UNITS, digits=4)  # noqa: E731
+        text = f"  IcRn {volts(icrn['icrn_V'])}"
+        if "ambegaokar_baratoff_V" in icrn:
+            text += (f"; Ambegaokar-Baratoff {volts(icrn['ambegaokar_baratoff_V'])}, "
+                     f"ratio {icrn['icrn_over_ab']:.3f}")
+        lines.append(text)
+    return lines
+
+
 def render_summary(analysis) -> str:
     """Several short blocks: the input, each branch's numbers, then the flags."""
     info = analysis.sweep.summary()
@@ -47,6 +83,8 @@ def render_summary(analysis) -> str:
         f"  {info['points_used']} points used, {info['points_dropped']} non-finite dropped, "
         f"{info['duplicates_merged']} duplicate fields averaged"
     )
+    if analysis.extraction is not None:
+        lines.extend(_extraction_lines(analysis))
     for fit in analysis.fits:
         lines.append("")
         lines.extend(_fit_lines(fit))
