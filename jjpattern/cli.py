@@ -88,9 +88,20 @@ def build_parser() -> argparse.ArgumentParser:
                          help="write the pattern figure (.png, .pdf or .svg)")
     analyze.add_argument("--map-plot", metavar="FILE",
                          help="raw maps: write the map with the extracted branches")
+    analyze.add_argument("--report", metavar="DIR",
+                         help="also write a full report (HTML, JSON, methods text, figures)")
     _add_input_options(analyze)
     _add_map_options(analyze)
     _add_fit_options(analyze)
+
+    report = sub.add_parser("report", help="write a self-contained report folder",
+                            description="Analyse a sweep or raw map and write report.html, "
+                                        "result.json, methods.txt, CSV tables and figures.")
+    report.add_argument("path", help="the sweep or map")
+    report.add_argument("--out", metavar="DIR", required=True, help="the report folder")
+    _add_input_options(report)
+    _add_map_options(report)
+    _add_fit_options(report)
 
     extract = sub.add_parser("extract", help="read Ic+ and Ic- from a raw V(I, B) map",
                              description="Extract the critical-current branches of a raw map "
@@ -157,23 +168,51 @@ def _check_plots(*paths):
             check_plot_path(path)
 
 
-def run_analyze(args) -> int:
+def _analysis(args):
+    """Load the input (sweep or raw map) and analyse it with the options given."""
+    from scipy.constants import e
+
     from .analysis import analyze_map, analyze_sweep
     from .io import open_input
     from .io.maps import IVMap
+
+    data = open_input(args.path, sweep_options=_sweep_options(args),
+                      map_options=_map_options(args))
+    if isinstance(data, IVMap):
+        gap_J = args.gap_meV * 1e-3 * e if args.gap_meV is not None else None
+        return analyze_map(data, **_extraction_options(args), gap_J=gap_J, tc_K=args.tc_K,
+                           temperature_K=args.temperature_K, **_fit_options(args))
+    return analyze_sweep(data, **_fit_options(args))
+
+
+def _settings(args) -> dict:
+    """Options beyond the fit settings, recorded in the JSON ``settings`` block."""
+    return {"input_options": _input_options(args),
+            "map_options": {k: getattr(args, k) for k in (
+                "bias_col", "signal_col", "signal_unit", "transpose", "field_from_name",
+                "criterion", "threshold", "gap_meV", "tc_K", "temperature_K")},
+            "coil_constant": args.coil_constant}
+
+
+def _write_report(analysis, args, out_dir):
+    from .report.bundle import write_report
+
+    return write_report(analysis, out_dir, args.argv, _settings(args))
+
+
+def run_report(args) -> int:
+    analysis = _analysis(args)
+    paths = _write_report(analysis, args, args.out)
+    print(f"report written to {paths['report.html']}")
+    return EXIT_OK
+
+
+def run_analyze(args) -> int:
     from .report.jsondoc import build_document, dumps
     from .report.summary import render_summary
 
     _check_plots(args.plot, args.map_plot)
-    data = open_input(args.path, sweep_options=_sweep_options(args),
-                      map_options=_map_options(args))
-    if isinstance(data, IVMap):
-        gap_J = args.gap_meV * 1.602176634e-22 if args.gap_meV is not None else None
-        analysis = analyze_map(data, **_extraction_options(args), gap_J=gap_J,
-                               tc_K=args.tc_K, temperature_K=args.temperature_K,
-                               **_fit_options(args))
-    else:
-        analysis = analyze_sweep(data, **_fit_options(args))
+    analysis = _analysis(args)
     written = []
     if args.plot:
         from .report.plot import pattern_figure, save_figure
@@ -185,14 +224,15 @@ def run_analyze(args) -> int:
 
         save_figure(map_figure(analysis.extraction), args.map_plot)
         written.append(args.map_plot)
+    report = _write_report(analysis, args, args.report)["report.html"] if args.report else None
     if args.json:
-        extra = {"input_options": _input_options(args), "plot": args.plot,
-                 "map_plot": args.map_plot, "coil_constant": args.coil_constant}
-        print(dumps(build_document(analysis, extra)))
+        print(dumps(build_document(analysis, _settings(args))))
     else:
         print(render_summary(analysis))
         for path in written:
             print(f"\nfigure written to {path}")
+        if report:
+            print(f"\nreport written to {report}")
     return EXIT_OK
 
 
@@ -231,13 +271,16 @@ def run_demo(args) -> int:
 
 def main(argv=None) -> int:
     parser = build_parser()
+    argv = sys.argv[1:] if argv is None else list(argv)
     args = parser.parse_args(argv)
+    args.argv = argv
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT
     from .errors import InputError
 
-    handlers = {"analyze": run_analyze, "extract": run_extract, "demo": run_demo}
+    handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
+                "demo": run_demo}
     try:
         return handlers[args.command](args)
     except InputError as exc:

@@ -35,8 +35,9 @@ MAX_LOBE_WALK = 40
 POOR_FIT_REDCHI = 4.0
 #: Robust loss scale in units of the model-free noise.
 ROBUST_SCALE = 2.0
-#: A robust weight below this counts as a down-weighted point.
-DOWNWEIGHT_BELOW = 0.5
+#: With a robust loss, points further than this from the fit (in noise units) are
+#: counted as down-weighted outliers.
+OUTLIER_SIGMAS = 4.0
 
 LOSSES = ("linear", "soft_l1", "huber", "cauchy")
 NODE_FLOOR = ("auto", "on", "off")
@@ -329,9 +330,11 @@ def _add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, 
             **floor_evidence,
         ))
     if out.loss != "linear":
-        out.points_downweighted = int(np.sum(result.robust_weights < DOWNWEIGHT_BELOW))
+        far = np.abs(out.ic_A - result.best_fit) > OUTLIER_SIGMAS * out.noise_A
+        out.points_downweighted = int(np.sum(far))
         if out.points_downweighted:
             out.flags.append(make_flag(
                 "outliers-downweighted", branch, points=out.points_downweighted,
-                loss=out.loss, f_scale_A=f_scale, weight_below=DOWNWEIGHT_BELOW,
+                loss=out.loss, f_scale_A=f_scale, beyond_noise_units=OUTLIER_SIGMAS,
+                lowest_weight=round(float(np.min(result.robust_weights)), 4),
             ))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import datetime
 import json
 import math
 
@@ -25,8 +26,15 @@ def _plain(value):
     return value
 
 
+#: The one key whose value changes from run to run.
+TIMESTAMP_KEY = "generated_utc"
+
+
 def build_document(analysis, extra_settings: dict | None = None) -> dict:
-    """``{input, fits, flags, tool, settings}`` (plus ``extraction``, ``icrn`` for maps)."""
+    """``{input, fits, flags, tool, settings}`` (plus ``extraction``, ``icrn`` for maps).
+
+    ``generated_utc`` is the only value that differs between identical runs.
+    """
     settings = dict(analysis.settings)
     settings.update(extra_settings or {})
     doc = {
@@ -35,6 +43,8 @@ def build_document(analysis, extra_settings: dict | None = None) -> dict:
         "flags": [flag.to_dict() for flag in analysis.flags],
         "tool": {"name": "jjpattern", "version": __version__},
         "settings": settings,
+        TIMESTAMP_KEY: datetime.datetime.now(datetime.timezone.utc).strftime(
+            "%Y-%m-%dT%H:%M:%SZ"),
     }
     if analysis.extraction is not None:
         doc["extraction"] = analysis.extraction.settings()

@@ -77,19 +77,28 @@ def pattern_figure(fits, title: str = ""):
     return fig
 
 
-def save_figure(fig, path: str) -> None:
-    """Write ``fig`` atomically with fixed metadata (temporary file, then rename)."""
+def save_figure(fig, *paths: str) -> None:
+    """Write ``fig`` to each path atomically (temporary file, then rename), then close it.
+
+    Metadata are fixed and SVG ids salted with a constant, so reruns give the
+    same bytes.
+    """
+    import matplotlib
     from matplotlib import pyplot as plt
 
-    suffix = os.path.splitext(path)[1].lower()
-    tmp = f"{path}.tmp{os.getpid()}{suffix}"
     try:
-        fig.savefig(tmp, dpi=200, metadata=_METADATA[suffix])
-        os.replace(tmp, path)
+        for path in paths:
+            suffix = os.path.splitext(path)[1].lower()
+            tmp = f"{path}.tmp{os.getpid()}{suffix}"
+            try:
+                with matplotlib.rc_context({"svg.hashsalt": "jjpattern"}):
+                    fig.savefig(tmp, dpi=200, metadata=_METADATA[suffix])
+                os.replace(tmp, path)
+            finally:
+                if os.path.exists(tmp):
+                    os.remove(tmp)
     finally:
         plt.close(fig)
-        if os.path.exists(tmp):
-            os.remove(tmp)
 
 
 def map_figure(extraction, title: str = ""):

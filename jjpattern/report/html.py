@@ -1,0 +1,165 @@
+"""A self-contained HTML report: figures embedded, no scripts, fonts or network.
+
+Every string that comes from a user's file passes through :func:`html.escape`.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+
+from .display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
+
+_CSS = """
+body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; color: #1a1a1a;
+       max-width: 60rem; margin: 2rem auto; padding: 0 1rem; line-height: 1.45; }
+h1 { font-size: 1.5rem; margin-bottom: 0.2rem; }
+h2 { font-size: 1.15rem; border-bottom: 1px solid #ccc; padding-bottom: 0.2rem;
+     margin-top: 2rem; }
+.meta { color: #555; font-size: 0.9rem; }
+table { border-collapse: collapse; margin: 0.5rem 0; font-size: 0.92rem; }
+th, td { border-bottom: 1px solid #e2e2e2; padding: 0.3rem 0.7rem; text-align: left;
+         vertical-align: top; }
+th { background: #f4f4f4; }
+td.num { font-variant-numeric: tabular-nums; white-space: nowrap; }
+figure { margin: 1rem 0; }
+figure img { max-width: 100%; height: auto; border: 1px solid #eee; }
+figcaption { font-size: 0.85rem; color: #555; }
+.flag { border-left: 4px solid #0072B2; padding: 0.4rem 0.8rem; margin: 0.6rem 0;
+        background: #f7f9fb; }
+.flag.warning { border-color: #E69F00; }
+.flag.error { border-color: #D55E00; }
+.flag code { font-weight: 600; }
+.evidence { font-size: 0.85rem; color: #333; }
+pre, code { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, monospace; }
+pre { background: #f4f4f4; padding: 0.6rem; overflow-x: auto; white-space: pre-wrap; }
+.methods { white-space: pre-wrap; }
+@media print { body { margin: 0; max-width: none; } h2 { break-after: avoid; }
+               figure { break-inside: avoid; } }
+"""
+
+
+def esc(value) -> str:
+    """Text from anywhere (a user's file included) made safe for HTML."""
+    return html.escape("" if value is None else str(value), quote=True)
+
+
+def png_data_uri(data: bytes) -> str:
+    return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
+
+
+def _headline_rows(fits) -> str:
+    rows = []
+    for fit in fits:
+        funit = pick_unit(fit.period_T or fit.best_params.get("period_T") or 1e-3, FIELD_UNITS)
+        cunit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
+        cells = [
+            fit.branch, fit.model,
+            format_measure(fit.period_T, fit.period_stderr_T, FIELD_UNITS, funit),
+            format_measure(fit.effective_area_m2, fit.effective_area_stderr_m2, AREA_UNITS),
+            format_measure(fit.field_offset_T, fit.field_offset_stderr_T, FIELD_UNITS, funit),
+            format_measure(fit.ic0_A, fit.ic0_stderr_A, CURRENT_UNITS, cunit),
+            ("none" if fit.node_floor_A is None else
+             format_measure(fit.node_floor_A, fit.node_floor_stderr_A, CURRENT_UNITS, cunit)),
+            "" if fit.reduced_chisq is None else f"{fit.reduced_chisq:.2f}",
+            "" if fit.lobes_observed is None else str(fit.lobes_observed),
+        ]
+        rows.append("<tr>" + "".join(
+            f'<td{" class=num" if i > 1 else ""}>{esc(c)}</td>' for i, c in enumerate(cells))
+            + "</tr>")
+    head = ("branch", "model", "period", "effective area", "field offset", "Ic0",
+            "node floor", "reduced χ²", "lobes")
+    return ("<table><tr>" + "".join(f"<th>{h}</th>" for h in head) + "</tr>"
+            + "".join(rows) + "</table>")
+
+
+def _flags(flags) -> str:
+    if not flags:
+        return "<p>No flags: the pattern is consistent with the model within the noise.</p>"
+    out = []
+    for f in flags:
+        evidence = ", ".join(f"{esc(k)} = {esc(v)}" for k, v in f.evidence.items())
+        out.append(
+            f'<div class="flag {esc(f.severity)}"><code>{esc(f.code)}</code> '
+            f"<span>({esc(f.severity)}, {esc(f.branch)} branch)</span>"
+            f"<p>{esc(f.message)}</p><p class=evidence>Evidence: {evidence}</p></div>")
+    return "".join(out)
+
+
+def _key_values(pairs) -> str:
+    return ("<table>" + "".join(f"<tr><th>{esc(k)}</th><td>{esc(v)}</td></tr>"
+                                for k, v in pairs) + "</table>")
+
+
+def _figure(png: bytes, caption: str, files) -> str:
+    links = ", ".join(f"<code>{esc(f)}</code>" for f in files)
+    return (f'<figure><img alt="{esc(caption)}" src="{png_data_uri(png)}">'
+            f"<figcaption>{esc(caption)} Also as {links}.</figcaption></figure>")
+
+
+def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes | None,
+                methods: str, provenance: dict, files: dict, extra_sections=()) -> str:
+    """The whole report page.
+
+    ``files`` maps each figure's name to its file names; ``extra_sections`` is a
+    sequence of ``(id, title, html)`` that later stages (reconstruction,
+    geometry) add after the figures.
+    """
+    meta = analysis.sweep.metadata
+    title = meta.get("junction") or document["input"]["path"]
+    meta_line = " · ".join(f"{esc(k)}: {esc(v)}" for k, v in meta.items())
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>jjpattern report: {esc(title)}</title><style>{_CSS}</style></head><body>",
+        f"<h1>Interference pattern of {esc(title)}</h1>",
+        f'<p class="meta">{meta_line}</p>',
+        f'<p class="meta">Input <code>{esc(document["input"]["path"])}</code>, '
+        f'{esc(document["input"]["points_used"])} points used. '
+        f'Generated {esc(document.get("generated_utc"))} by jjpattern '
+        f'{esc(document["tool"]["version"])}.</p>',
+        '<section id="headline"><h2>Headline numbers</h2>',
+        _headline_rows(analysis.fits),
+        "<p class=meta>Uncertainties are one standard error. Effective area = Φ0 / period. "
+        "Reduced χ² is against the point-to-point noise of the data.</p></section>",
+        '<section id="flags"><h2>Diagnostic flags</h2>', _flags(analysis.flags), "</section>",
+        '<section id="pattern"><h2>Pattern, fit and residuals</h2>',
+        _figure(pattern_png, "Critical current against applied field (bottom axis) and "
+                "flux Φ/Φ0 (top axis), with the fit and its residuals.", files["pattern"]),
+        "</section>",
+    ]
+    if map_png is not None:
+        ex = analysis.extraction
+        parts += [
+            '<section id="map"><h2>Raw map and extraction</h2>',
+            _figure(map_png, "The measured map with the extracted switching (dots) and "
+                    "retrapping (crosses) currents.", files["map"]),
+            _key_values([("criterion", ex.criterion),
+                         ("level", f'{ex.threshold.get("value")} {ex.threshold.get("unit")} '
+                                   f'({ex.threshold.get("chosen")})'),
+                         ("normal resistance (ohm)", ex.rn_ohm),
+                         ("amplifier offset (V)", ex.offset_V),
+                         ("rows skipped", ex.rows_skipped)]
+                        + [(f"{b.name} branch", f"{b.source}; {b.counts()}; retrapping/"
+                            f"switching {b.retrapping_ratio}") for b in ex.branches]),
+            "</section>",
+        ]
+    for sid, heading, body in extra_sections:
+        parts += [f'<section id="{esc(sid)}"><h2>{esc(heading)}</h2>', body, "</section>"]
+    parts += [
+        '<section id="methods"><h2>Methods</h2>',
+        f'<p class="methods">{esc(methods)}</p></section>',
+        '<section id="provenance"><h2>Provenance</h2>',
+        _key_values([("command", provenance["command"]),
+                     ("input", provenance["input_path"]),
+                     ("input SHA-256", provenance["input_sha256"])]
+                    + [(name, v) for name, v in provenance["versions"].items()]),
+        f"<pre>{esc(provenance['settings_json'])}</pre></section>",
+        '<section id="files"><h2>Files written with this report</h2><ul>',
+        "".join(f"<li><code>{esc(f)}</code></li>" for f in files["all"]),
+        "</ul></section>",
+        "<footer class=meta><p>jjpattern analyses data only; it controls no instrument.</p>"
+        "</footer></body></html>",
+    ]
+    return "\n".join(parts) + "\n"

@@ -1,0 +1,167 @@
+"""A methods paragraph written from the actual run, and the references it cites."""
+
+from __future__ import annotations
+
+from .display import (
+    AREA_UNITS,
+    CURRENT_UNITS,
+    FIELD_UNITS,
+    VOLTAGE_UNITS,
+    format_measure,
+    pick_unit,
+)
+
+MODEL_TEXT = {
+    "rectangular": ("the Fraunhofer pattern of a rectangular junction with uniform current "
+                    "density, Ic(B) = Ic0 |sin(pi Phi/Phi0) / (pi Phi/Phi0)|"),
+    "circular": ("the Airy pattern of a circular junction with uniform current density, "
+                 "Ic(B) = Ic0 |2 J1(pi Phi/Phi0) / (pi Phi/Phi0)|"),
+}
+
+REFERENCES = {
+    "lm": "K. Levenberg, Q. Appl. Math. 2, 164 (1944); D. W. Marquardt, J. Soc. Ind. Appl. "
+          "Math. 11, 431 (1963).",
+    "lmfit": "M. Newville et al., LMFIT: Non-Linear Least-Squares Minimization and "
+             "Curve-Fitting for Python, Zenodo (2014).",
+    "codata": "E. Tiesinga et al., CODATA Recommended Values of the Fundamental Physical "
+              "Constants: 2018, Rev. Mod. Phys. 93, 025010 (2021).",
+    "sg": "A. Savitzky and M. J. E. Golay, Anal. Chem. 36, 1627 (1964).",
+    "ab": "V. Ambegaokar and A. Baratoff, Phys. Rev. Lett. 10, 486 (1963).",
+    "bcs": "J. Bardeen, L. N. Cooper and J. R. Schrieffer, Phys. Rev. 108, 1175 (1957).",
+}
+
+def _junction(meta: dict) -> str:
+    name = meta.get("junction") or meta.get("device") or "the junction"
+    context = [f"chip {meta['chip']}" if meta.get("chip") else "",
+               f"cooldown {meta['cooldown']}" if meta.get("cooldown") else ""]
+    context = ", ".join(c for c in context if c)
+    return f"{name} ({context})" if context else name
+
+
+def _extraction_text(analysis, cited) -> str:
+    ex = analysis.extraction
+    n_f, n_b = ex.ivmap.shape
+    level = ex.threshold.get("value")
+    what = f"a {n_f} x {n_b} {'voltage' if ex.ivmap.kind == 'voltage' else 'dV/dI'} map"
+    if ex.criterion == "voltage":
+        rule = (f"the first bias current, on sweeps away from zero bias, at which |V - V0| "
+                f"exceeded {format_measure(level, None, VOLTAGE_UNITS, digits=3)} "
+                f"({ex.threshold['chosen']}), interpolated linearly between the two "
+                "straddling points; the amplifier offset V0 was estimated in each field row "
+                "as the median voltage near zero bias and removed")
+    elif ex.criterion == "resistance":
+        rule = (f"the first bias current at which V/I exceeded "
+                f"{ex.threshold['fraction_of_rn']:g} Rn, with Rn from a linear fit of the "
+                "high-bias part of each I-V curve")
+    elif ex.criterion == "dvdi-threshold":
+        rule = f"the first bias current at which dV/dI exceeded {level:.3g} ohm"
+    else:
+        rule = "the bias current of the largest dV/dI, refined by a parabola through 3 points"
+    text = f"Critical currents were extracted from {what} as {rule}."
+    if ex.ivmap.kind == "voltage" and ex.criterion.startswith("dvdi"):
+        text += (" dV/dI was computed with a 7-point quadratic Savitzky-Golay derivative "
+                 "[sg].")
+        cited.append("sg")
+    censored = {}
+    for b in ex.branches:
+        for key in ("above-max", "below-step"):
+            censored[key] = censored.get(key, 0) + b.counts().get(key, 0)
+    if censored.get("above-max") or censored.get("below-step"):
+        text += (f" Field rows in which the junction did not switch within the bias window "
+                 f"({censored.get('above-max', 0)}) or was resistive from the first bias step "
+                 f"({censored.get('below-step', 0)}) were excluded.")
+    ratios = [f"{b.retrapping_ratio:.3f} ({b.name})" for b in ex.branches
+              if b.retrapping_ratio is not None]
+    if ratios:
+        text += (" Switching was read on sweeps away from zero and retrapping on sweeps back; "
+                 f"the median retrapping-to-switching ratio was {', '.join(ratios)}, and only "
+                 "the switching current was fitted.")
+    if ex.rows_skipped:
+        text += f" {ex.rows_skipped} field rows holding mostly missing values were skipped."
+    return text
+
+
+def _fit_numbers(fit) -> str:
+    funit = pick_unit(fit.period_T, FIELD_UNITS)
+    cunit = pick_unit(fit.ic_max_A, CURRENT_UNITS)
+
+    def field(v, e):
+        return format_measure(v, e, FIELD_UNITS, funit)
+
+    def current(v, e):
+        return format_measure(v, e, CURRENT_UNITS, cunit)
+
+    area = format_measure(fit.effective_area_m2, fit.effective_area_stderr_m2, AREA_UNITS)
+    parts = [f"a field period of {field(fit.period_T, fit.period_stderr_T)}",
+             f"an effective magnetic area A_eff = Phi0/period = {area}"]
+    if fit.field_offset_T is not None:
+        parts.append(f"a field offset B0 = {field(fit.field_offset_T, fit.field_offset_stderr_T)}")
+        parts.append(f"Ic0 = {current(fit.ic0_A, fit.ic0_stderr_A)}")
+    if fit.node_floor_A is not None:
+        parts.append(f"a node floor of {current(fit.node_floor_A, fit.node_floor_stderr_A)}")
+    return ", ".join(parts[:-1]) + " and " + parts[-1]
+
+
+def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
+    """Plain prose for a methods section, numbers as in the JSON, references at the end."""
+    sweep = analysis.sweep
+    settings = analysis.settings
+    cited = ["lm", "lmfit", "codata"]
+    out = [f"The critical current of {_junction(sweep.metadata)} was analysed with jjpattern "
+           f"{versions['jjpattern']}."]
+    if analysis.extraction is not None:
+        out.append(_extraction_text(analysis, cited))
+    fits = analysis.fits
+    model = MODEL_TEXT[fits[0].model]
+    branches = " and ".join(f.branch for f in fits)
+    floor = any(f.node_floor_A is not None for f in fits)
+    out.append(
+        f"The {branches} branch{'es were each' if len(fits) > 1 else ' was'} fitted with "
+        f"{model}, where "
+        "Phi = (B - B0) A_eff"
+        + (", combined in quadrature with a constant node floor" if floor else "")
+        + ", by non-linear least squares"
+        + (" (Levenberg-Marquardt [lm], in lmfit "
+           f"{versions['lmfit']} [lmfit]) with equal weights" if settings["loss"] == "linear"
+           else f" with a robust {settings['loss']} loss (scipy least_squares, scale twice the "
+                "point-to-point noise), finished by weighted Levenberg-Marquardt least squares "
+                f"[lm] at the robust weights (lmfit {versions['lmfit']} [lmfit])")
+        + ", starting from a global search over period and offset that needs no "
+          "starting values. Standard errors are from the covariance matrix scaled by the "
+          "reduced chi-square, i.e. the noise was estimated from the fit residuals. The "
+          "flux quantum is the exact SI value Phi0 = h/2e [codata]."
+    )
+    if field_calibration:
+        out.append(field_calibration)
+    for fit in fits:
+        if fit.period_T is None:
+            out.append(f"For the {fit.branch} branch no period could be identified "
+                       f"({', '.join(f.code for f in fit.flags)}).")
+            continue
+        sentence = (f"For the {fit.branch} branch ({fit.points_used} points, "
+                    f"{fit.lobes_observed} lobes in the window) we obtain {_fit_numbers(fit)}")
+        if fit.field_offset_T is None:
+            sentence += ("; the field offset and Ic0 are not given because the main lobe lies "
+                         "outside the measured window and the side lobes do not locate it")
+        out.append(sentence + ".")
+    dropped = sweep.summary()["points_dropped"]
+    outliers = sum(f.points_downweighted for f in fits)
+    if dropped and analysis.extraction is None:
+        out.append(f"{dropped} points with missing values were excluded.")
+    if outliers:
+        out.append(f"{outliers} points lay more than four noise units from the fit and were "
+                   "down-weighted by the robust loss.")
+    if analysis.icrn and "ambegaokar_baratoff_V" in analysis.icrn:
+        icrn = analysis.icrn
+        out.append(f"The IcRn product is {format_measure(icrn['icrn_V'], None, VOLTAGE_UNITS)}"
+                   f", {icrn['icrn_over_ab']:.3f} of the Ambegaokar-Baratoff value [ab] "
+                   f"{format_measure(icrn['ambegaokar_baratoff_V'], None, VOLTAGE_UNITS)}"
+                   + (" for a weak-coupling BCS gap [bcs]" if "BCS" in icrn.get("gap_from", "")
+                      else "") + ".")
+        cited += ["ab"] + (["bcs"] if "BCS" in icrn.get("gap_from", "") else [])
+    text = " ".join(out)
+    numbered = {key: i + 1 for i, key in enumerate(dict.fromkeys(cited))}
+    for key, n in numbered.items():
+        text = text.replace(f"[{key}]", f"[{n}]")
+    refs = "\n".join(f"[{n}] {REFERENCES[key]}" for key, n in numbered.items())
+    return f"{text}\n\nReferences\n{refs}\n"
