@@ -12,6 +12,8 @@ DEMO_RUNS = (
     ("kt14_j11.tsv", {}),
     ("kt14_j07_map.h5", {"tc_K": 9.2}),
 )
+#: The demo run that also gets a full report.
+REPORT_RUN = "kt14_j07_map.h5"
 #: Options that belong to the extraction of raw maps, not to the fit.
 _MAP_OPTIONS = ("criterion", "threshold", "gap_J", "tc_K", "temperature_K")
 
@@ -30,6 +32,7 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
     from .analysis import analyze_map, analyze_sweep
     from .io import open_input
     from .io.maps import IVMap
+    from .report.bundle import write_report
     from .report.files import write_text
     from .report.jsondoc import build_document, dumps
     from .report.plot import map_figure, pattern_figure, save_figure
@@ -38,6 +41,7 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
     os.makedirs(out_dir, exist_ok=True)
     files = demo_files()
     written = []
+    analyses = {}
     for name, options in DEMO_RUNS:
         data = open_input(files[name], sweep_options={}, map_options=None)
         if isinstance(data, IVMap):
@@ -45,6 +49,7 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
         else:
             analysis = analyze_sweep(data, **{k: v for k, v in options.items()
                                               if k not in _MAP_OPTIONS})
+        analyses[name] = analysis
         sweep = analysis.sweep
         stem = os.path.splitext(name)[0]
         json_path = os.path.join(out_dir, f"{stem}.json")
@@ -64,5 +69,10 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
             written.append(map_path)
             echo(f"  wrote {map_path}")
         echo("")
+    report_dir = os.path.join(out_dir, "report_kt14_j07")
+    report = write_report(analyses[REPORT_RUN], report_dir, ["demo", "--out", out_dir],
+                          {"demo_file": REPORT_RUN, **dict(DEMO_RUNS)[REPORT_RUN]})
+    written += list(report.values())
     echo(f"demo results are in {os.path.abspath(out_dir)}")
+    echo(f"report for KT14-J07: {os.path.abspath(report['report.html'])}")
     return written

@@ -17,7 +17,8 @@ h1 { font-size: 1.5rem; margin-bottom: 0.2rem; }
 h2 { font-size: 1.15rem; border-bottom: 1px solid #ccc; padding-bottom: 0.2rem;
      margin-top: 2rem; }
 .meta { color: #555; font-size: 0.9rem; }
-table { border-collapse: collapse; margin: 0.5rem 0; font-size: 0.92rem; }
+table { border-collapse: collapse; margin: 0.5rem 0; font-size: 0.88rem; }
+table.headline { width: 100%; }
 th, td { border-bottom: 1px solid #e2e2e2; padding: 0.3rem 0.7rem; text-align: left;
          vertical-align: top; }
 th { background: #f4f4f4; }
@@ -54,7 +55,7 @@ def _headline_rows(fits) -> str:
         funit = pick_unit(fit.period_T or fit.best_params.get("period_T") or 1e-3, FIELD_UNITS)
         cunit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
         cells = [
-            fit.branch, fit.model,
+            fit.branch,
             format_measure(fit.period_T, fit.period_stderr_T, FIELD_UNITS, funit),
             format_measure(fit.effective_area_m2, fit.effective_area_stderr_m2, AREA_UNITS),
             format_measure(fit.field_offset_T, fit.field_offset_stderr_T, FIELD_UNITS, funit),
@@ -65,11 +66,11 @@ def _headline_rows(fits) -> str:
             "" if fit.lobes_observed is None else str(fit.lobes_observed),
         ]
         rows.append("<tr>" + "".join(
-            f'<td{" class=num" if i > 1 else ""}>{esc(c)}</td>' for i, c in enumerate(cells))
+            f'<td{" class=num" if i else ""}>{esc(c)}</td>' for i, c in enumerate(cells))
             + "</tr>")
-    head = ("branch", "model", "period", "effective area", "field offset", "Ic0",
-            "node floor", "reduced χ²", "lobes")
-    return ("<table><tr>" + "".join(f"<th>{h}</th>" for h in head) + "</tr>"
+    head = ("branch", "period", "effective area", "field offset", "Ic0", "node floor",
+            "reduced χ²", "lobes")
+    return ("<table class=headline><tr>" + "".join(f"<th>{h}</th>" for h in head) + "</tr>"
             + "".join(rows) + "</table>")
 
 
@@ -89,6 +90,26 @@ def _flags(flags) -> str:
 def _key_values(pairs) -> str:
     return ("<table>" + "".join(f"<tr><th>{esc(k)}</th><td>{esc(v)}</td></tr>"
                                 for k, v in pairs) + "</table>")
+
+
+def _number(value, unit="") -> str:
+    return "not determined" if value is None else f"{value:.4g} {unit}".strip()
+
+
+def _extraction_rows(ex) -> list:
+    level = ex.threshold.get("value")
+    rows = [("criterion", ex.criterion),
+            ("level", f"{_number(level, ex.threshold.get('unit', ''))} "
+                      f"({ex.threshold.get('chosen')})"),
+            ("normal resistance", _number(ex.rn_ohm, "Ω")),
+            ("amplifier offset", _number(ex.offset_V, "V")),
+            ("rows skipped (mostly missing)", ex.rows_skipped)]
+    for b in ex.branches:
+        counts = ", ".join(f"{v} {k}" for k, v in sorted(b.counts().items()))
+        ratio = "" if b.retrapping_ratio is None else (
+            f"; retrapping/switching {b.retrapping_ratio:.3f}")
+        rows.append((f"{b.name} branch", f"{b.source}; {counts}{ratio}"))
+    return rows
 
 
 def _figure(png: bytes, caption: str, files) -> str:
@@ -121,7 +142,8 @@ def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes 
         f'{esc(document["tool"]["version"])}.</p>',
         '<section id="headline"><h2>Headline numbers</h2>',
         _headline_rows(analysis.fits),
-        "<p class=meta>Uncertainties are one standard error. Effective area = Φ0 / period. "
+        f"<p class=meta>Model: {esc(analysis.fits[0].model)} junction. "
+        "Uncertainties are one standard error. Effective area = Φ0 / period. "
         "Reduced χ² is against the point-to-point noise of the data.</p></section>",
         '<section id="flags"><h2>Diagnostic flags</h2>', _flags(analysis.flags), "</section>",
         '<section id="pattern"><h2>Pattern, fit and residuals</h2>',
@@ -135,14 +157,7 @@ def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes 
             '<section id="map"><h2>Raw map and extraction</h2>',
             _figure(map_png, "The measured map with the extracted switching (dots) and "
                     "retrapping (crosses) currents.", files["map"]),
-            _key_values([("criterion", ex.criterion),
-                         ("level", f'{ex.threshold.get("value")} {ex.threshold.get("unit")} '
-                                   f'({ex.threshold.get("chosen")})'),
-                         ("normal resistance (ohm)", ex.rn_ohm),
-                         ("amplifier offset (V)", ex.offset_V),
-                         ("rows skipped", ex.rows_skipped)]
-                        + [(f"{b.name} branch", f"{b.source}; {b.counts()}; retrapping/"
-                            f"switching {b.retrapping_ratio}") for b in ex.branches]),
+            _key_values(_extraction_rows(ex)),
             "</section>",
         ]
     for sid, heading, body in extra_sections:

@@ -101,6 +101,21 @@ def save_figure(fig, *paths: str) -> None:
         plt.close(fig)
 
 
+def _display_columns(bias_row):
+    """Columns to draw: on each polarity the sweeps away from zero (where switching is
+    read), or the sweeps back where a polarity has none; hysteresis would otherwise
+    interleave two different curves at the same bias."""
+    mag = np.abs(bias_row)
+    step = np.diff(mag)
+    arriving = np.concatenate([step[:1], step])
+    keep = np.zeros(bias_row.size, dtype=bool)
+    for side in (bias_row > 0, bias_row < 0):
+        out = side & (arriving > 0)
+        keep |= out if out.sum() >= 3 else side & (arriving <= 0)
+    keep |= bias_row == 0
+    return np.flatnonzero(keep)
+
+
 def map_figure(extraction, title: str = ""):
     """The raw map (|V| or dV/dI against field and bias) with the extracted branches on top."""
     import matplotlib
@@ -108,14 +123,22 @@ def map_figure(extraction, title: str = ""):
     matplotlib.use("Agg")
     from matplotlib import pyplot as plt
 
+    from .display import VOLTAGE_UNITS
+
     ivmap = extraction.ivmap
+    bias_all = np.broadcast_to(ivmap.bias_A, ivmap.shape)
+    cols = _display_columns(bias_all[0])
     # Plot at most about 600 x 600 cells; the extraction itself used every point.
     rs = max(1, ivmap.shape[0] // 600)
-    cs = max(1, ivmap.shape[1] // 600)
+    cols = cols[::max(1, cols.size // 600)]
     field = ivmap.field_T[::rs]
-    bias = np.broadcast_to(ivmap.bias_A, ivmap.shape)[::rs, ::cs]
-    values = np.abs(ivmap.signal[::rs, ::cs]) if ivmap.kind == "voltage" else ivmap.signal[
-        ::rs, ::cs]
+    bias = bias_all[::rs][:, cols]
+    values = ivmap.signal[::rs][:, cols]
+    if ivmap.kind == "voltage":
+        vunit, vfac = pick_unit(float(np.nanmax(np.abs(values))), VOLTAGE_UNITS)
+        values, label = np.abs(values) / vfac, f"|V| ({vunit})"
+    else:
+        label = "dV/dI (Ω)"
     span = float(np.nanmax(np.abs(ivmap.field_T)))
     funit, ffac = pick_unit(span, FIELD_UNITS)
     cunit, cfac = pick_unit(float(np.nanmax(np.abs(bias))), CURRENT_UNITS)
@@ -127,7 +150,7 @@ def map_figure(extraction, title: str = ""):
     mesh = ax.pcolormesh(np.broadcast_to(field[:, None], bias_sorted.shape) / ffac,
                          bias_sorted / cfac, values_sorted, shading="nearest", cmap="cividis",
                          rasterized=True)
-    fig.colorbar(mesh, ax=ax, label="|V| (V)" if ivmap.kind == "voltage" else "dV/dI (Ω)")
+    fig.colorbar(mesh, ax=ax, label=label)
     for b in extraction.branches:
         sign = 1.0 if b.name == "positive" else -1.0
         colour = BRANCH_COLOURS[b.name]
