@@ -22,11 +22,15 @@ class Analysis:
     settings: dict = field(default_factory=dict)
     extraction: object = None
     icrn: dict | None = None
+    current_density: dict = field(default_factory=dict)
+    geometry: dict | None = None
+    diagnostic_flags: list = field(default_factory=list)
 
     @property
     def flags(self) -> list:
         extra = self.extraction.flags if self.extraction is not None else []
-        return [f for fit in self.fits for f in fit.flags] + list(extra)
+        return ([f for fit in self.fits for f in fit.flags] + list(extra)
+                + list(self.diagnostic_flags))
 
 
 def fit_settings(geometry="rectangular", node_floor="auto", loss="linear") -> dict:
@@ -50,14 +54,25 @@ def fit_settings(geometry="rectangular", node_floor="auto", loss="linear") -> di
 
 
 def analyze_sweep(sweep: Sweep, *, geometry="rectangular", node_floor="auto",
-                  loss="linear") -> Analysis:
-    """Fit each branch of ``sweep`` separately."""
+                  loss="linear", diagnose=True, seed=0, junction=None,
+                  criterion_floor_A=0.0) -> Analysis:
+    """Fit each branch of ``sweep`` separately, then diagnose the shapes.
+
+    ``junction`` is a :class:`jjpattern.diagnose.run.GeometryInputs`; ``seed``
+    drives the resampled bands of the current-density reconstruction.
+    """
     fits = [
         fit_pattern(b.field_T, b.ic_A, geometry=geometry, node_floor=node_floor, loss=loss,
                     branch=b.name)
         for b in sweep.branches
     ]
-    return Analysis(sweep, fits, fit_settings(geometry, node_floor, loss))
+    analysis = Analysis(sweep, fits, fit_settings(geometry, node_floor, loss))
+    if diagnose:
+        from .diagnose.run import diagnose as run_diagnostics
+
+        run_diagnostics(analysis, seed=seed, geometry=junction,
+                        criterion_floor_A=criterion_floor_A)
+    return analysis
 
 
 def icrn_block(analysis: Analysis, rn_ohm, *, gap_J=None, tc_K=None, temperature_K=None):
@@ -91,15 +106,13 @@ def analyze_map(ivmap, *, criterion="auto", threshold=None, gap_J=None, tc_K=Non
     from .extract.engine import extract
 
     extraction = extract(ivmap, criterion=criterion, threshold=threshold)
-    analysis = analyze_sweep(extraction.to_sweep(), **fit_options)
-    analysis.extraction = extraction
+    floor = 0.0
     if extraction.criterion == "voltage" and extraction.rn_ohm:
         # A voltage threshold reads sqrt(Ic^2 + (V_th/Rn)^2) on an RSJ curve: a floor of
         # V_th/Rn in quadrature at the nodes comes from the criterion itself.
-        for flag in analysis.flags:
-            if flag.code == "lifted-floor":
-                flag.evidence["criterion_floor_A"] = extraction.threshold["value"] / (
-                    extraction.rn_ohm)
+        floor = extraction.threshold["value"] / extraction.rn_ohm
+    analysis = analyze_sweep(extraction.to_sweep(), criterion_floor_A=floor, **fit_options)
+    analysis.extraction = extraction
     if temperature_K is None:
         try:
             temperature_K = float(ivmap.metadata.get("temperature_K", ""))

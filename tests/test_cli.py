@@ -25,7 +25,8 @@ def demo():
 def test_analyze_json_is_one_document_with_the_contract(demo, capsys):
     assert main(["analyze", demo["kt14_j03.csv"], "--json", "--loss", "cauchy"]) == 0
     doc = json.loads(capsys.readouterr().out)
-    assert set(doc) == {"input", "fits", "flags", "tool", "settings", "generated_utc"}
+    assert set(doc) == {"input", "fits", "flags", "tool", "settings", "generated_utc",
+                        "current_density"}
     assert doc["tool"]["name"] == "jjpattern"
     assert doc["input"]["metadata"]["junction"] == "KT14-J03"
     assert len(doc["input"]["sha256"]) == 64

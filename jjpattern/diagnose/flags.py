@@ -40,11 +40,55 @@ CATALOGUE = {
         "from the ideal shape of this geometry: look at the residuals and the other flags, or "
         "try the other geometry or the node floor.",
     ),
-    "lifted-floor": (
-        "info",
-        "The minima do not reach zero; a node floor combined in quadrature was fitted so that "
-        "the period is not biased. A floor well above the noise usually means non-uniform "
-        "current, a field not perpendicular to the barrier, or a parallel leakage path.",
+    "nodes-lifted": (
+        "warning",
+        "The minima stay well above zero (a node floor many standard errors above what the "
+        "extraction criterion alone gives). Usually an asymmetric current distribution or an "
+        "inhomogeneous barrier, sometimes a field not perpendicular to the junction or a "
+        "parallel leakage path. Check the field alignment, then the current-density profile.",
+    ),
+    "edge-current": (
+        "warning",
+        "The supercurrent is crowded at the edges of the junction (side lobes decay more "
+        "slowly than for uniform current; at the extreme two parallel channels with lobes of "
+        "nearly equal width). Look for edge or step conduction, or a SQUID-like geometry.",
+    ),
+    "center-current": (
+        "warning",
+        "The supercurrent is concentrated in the middle of the junction (side lobes are "
+        "suppressed faster than for uniform current). Common with a barrier thinner in the "
+        "middle or with current injected through a narrow lead.",
+    ),
+    "central-minimum": (
+        "warning",
+        "Ic has a minimum at the centre of the pattern instead of a maximum. This points to a "
+        "flux quantum trapped in or near the junction, a pi-shifted segment (0-pi junction), "
+        "or a field offset set wrongly. Warm above Tc and cool in zero field to tell them "
+        "apart.",
+    ),
+    "field-asymmetry": (
+        "warning",
+        "Ic(B0 + b) differs from Ic(B0 - b) beyond the noise. Self-field effects of the bias "
+        "current, trapped vortices, or a field that is not uniform over the junction are the "
+        "usual causes; compare the two current branches.",
+    ),
+    "branch-asymmetry": (
+        "warning",
+        "Ic+ and |Ic-| differ beyond their errors, in height or in field offset. Self-field "
+        "effects, a superconducting diode effect, or flux trapped in a loop of the leads can "
+        "do this.",
+    ),
+    "period-drift": (
+        "warning",
+        "The period differs between the low-field and high-field halves of the sweep. Check "
+        "the field calibration for non-linearity, magnet hysteresis, and flux entering the "
+        "electrodes at higher fields.",
+    ),
+    "long-junction": (
+        "warning",
+        "The junction is longer than the Josephson penetration depth, so the current is not "
+        "set by the barrier alone: the pattern is distorted by self-field and the Dynes-Fulton "
+        "reconstruction does not apply.",
     ),
     "censored-rows": (
         "info",

@@ -324,11 +324,7 @@ def _add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, 
             threshold=POOR_FIT_REDCHI, noise_A=out.noise_A,
         ))
     if floor_evidence is not None:
-        out.flags.append(make_flag(
-            "lifted-floor", branch, node_floor_A=out.node_floor_A,
-            floor_over_ic0=round(out.node_floor_A / out.best_params["ic0_A"], 4),
-            **floor_evidence,
-        ))
+        out.floor_evidence = floor_evidence
     if out.loss != "linear":
         far = np.abs(out.ic_A - result.best_fit) > OUTLIER_SIGMAS * out.noise_A
         out.points_downweighted = int(np.sum(far))

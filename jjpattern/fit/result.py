@@ -55,6 +55,7 @@ class PatternFit:
     field_T: np.ndarray = field(default=None, repr=False)
     ic_A: np.ndarray = field(default=None, repr=False)
     best_params: dict = field(default_factory=dict, repr=False)
+    floor_evidence: dict | None = field(default=None, repr=False)
     lmfit_result: object = field(default=None, repr=False)
 
     def to_dict(self) -> dict:

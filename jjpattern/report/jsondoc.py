@@ -49,6 +49,10 @@ def build_document(analysis, extra_settings: dict | None = None) -> dict:
     if analysis.extraction is not None:
         doc["extraction"] = analysis.extraction.settings()
         doc["icrn"] = analysis.icrn
+    if analysis.current_density:
+        doc["current_density"] = analysis.current_density
+    if analysis.geometry:
+        doc["geometry"] = analysis.geometry
     return _plain(doc)
 
 

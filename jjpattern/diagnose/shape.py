@@ -1,0 +1,160 @@
+"""Flags about the shape of a pattern: departures from a uniform junction, with evidence.
+
+Every threshold is in units of the measured noise or of a standard error, so a
+uniform junction measured with realistic noise raises none of these flags.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .flags import make_flag
+
+#: A node floor (beyond what the extraction criterion itself adds) this many standard
+#: errors above zero means lifted nodes.
+FLOOR_SIGMAS = 5.0
+#: Mirror differences about the pattern centre: reduced chi-square above this is asymmetry.
+MIRROR_REDCHI = 2.0
+#: Central dip: the centre must lie this many noise units below the nearby maximum ...
+DIP_SIGMAS = 5.0
+#: ... and below this fraction of it.
+DIP_FRACTION = 0.8
+#: Edge fraction of J(x) over that of a uniform junction seen through the same window.
+EDGE_RATIO_HIGH = 1.5
+EDGE_RATIO_LOW = 0.5
+#: Branches differ when Ic0 or the offset differ by this many combined standard errors.
+BRANCH_SIGMAS = 5.0
+#: Periods of the two halves of the sweep differ by this many combined standard errors.
+DRIFT_SIGMAS = 5.0
+#: L / lambda_J above which the junction is not short.
+LONG_RATIO = 1.0
+
+
+def mirror_centre(x, y, period_T):
+    """Field about which the data are most nearly mirror-symmetric (model-free).
+
+    Searched on a grid of a twentieth of a period over the middle half of the
+    window.
+    """
+    span = x[-1] - x[0]
+    grid = np.linspace(x[0] + 0.25 * span, x[-1] - 0.25 * span,
+                       max(21, int(round(0.5 * span / (period_T / 20)))))
+    best, best_cost = grid[0], np.inf
+    for c in grid:
+        reach = min(c - x[0], x[-1] - c)
+        b = x[(x > c) & (x < c + reach)]
+        if b.size < 10:
+            continue
+        cost = np.mean((np.interp(b, x, y) - np.interp(2 * c - b, x, y)) ** 2)
+        if cost < best_cost:
+            best, best_cost = c, cost
+    return float(best)
+
+
+#: Median of a chi-square variable with one degree of freedom.
+_CHI2_1_MEDIAN = 0.454936423119572
+
+
+def mirror_redchi(x, y, centre, noise):
+    """Robust reduced chi-square of ``Ic(c + b) - Ic(c - b)`` against twice the noise variance.
+
+    The median of the squared differences (scaled to the mean for Gaussian noise)
+    keeps a few premature-switching points from posing as asymmetry.
+    """
+    reach = min(centre - x[0], x[-1] - centre)
+    b = x[(x > centre) & (x < centre + reach)]
+    if b.size < 20:
+        return None, int(b.size)
+    diff = np.interp(b, x, y) - np.interp(2 * centre - b, x, y)
+    return float(np.median(diff**2) / _CHI2_1_MEDIAN / (2 * noise**2)), int(b.size)
+
+
+def shape_flags(fit, *, criterion_floor_A=0.0, density=None, uniform_density=None) -> list:
+    """Flags for one fitted branch: lifted nodes, asymmetry, central dip, edge/centre current."""
+    flags = []
+    if fit.period_T is None:
+        return flags
+    x, y, noise = fit.field_T, fit.ic_A, fit.noise_A
+    if fit.node_floor_A is not None and fit.node_floor_stderr_A:
+        lifted = float(np.sqrt(max(fit.node_floor_A**2 - criterion_floor_A**2, 0.0)))
+        if lifted > FLOOR_SIGMAS * fit.node_floor_stderr_A:
+            flags.append(make_flag(
+                "nodes-lifted", fit.branch, node_floor_A=fit.node_floor_A,
+                criterion_floor_A=criterion_floor_A, lifted_floor_A=lifted,
+                floor_stderr_A=fit.node_floor_stderr_A, threshold_sigmas=FLOOR_SIGMAS,
+                floor_over_ic0=round(lifted / fit.best_params["ic0_A"], 4)))
+    if fit.field_offset_T is None or not (x[0] + fit.period_T < fit.field_offset_T
+                                          < x[-1] - fit.period_T):
+        return flags  # the centre of the pattern is not measured with a period either side
+    centre = mirror_centre(x, y, fit.period_T)
+    redchi, n = mirror_redchi(x, y, centre, noise)
+    if redchi is not None and redchi > MIRROR_REDCHI:
+        flags.append(make_flag("field-asymmetry", fit.branch, centre_T=centre,
+                               mirror_reduced_chisq=round(redchi, 3), points=n,
+                               threshold=MIRROR_REDCHI, noise_A=noise))
+    near = np.abs(x - centre) < 0.1 * fit.period_T
+    around = np.abs(x - centre) < 1.2 * fit.period_T
+    if near.sum() >= 3 and around.any():
+        middle, top = float(np.mean(y[near])), float(np.max(y[around]))
+        if middle < top - DIP_SIGMAS * noise and middle < DIP_FRACTION * top:
+            flags.append(make_flag("central-minimum", fit.branch, centre_T=centre,
+                                   ic_at_centre_A=middle, nearby_maximum_A=top,
+                                   noise_A=noise, threshold_sigmas=DIP_SIGMAS,
+                                   threshold_fraction=DIP_FRACTION))
+    if density is not None and uniform_density is not None:
+        ratio = density["edge_fraction"] / uniform_density["edge_fraction"]
+        err = density.get("edge_fraction_stderr", 0.0) / uniform_density["edge_fraction"]
+        evidence = dict(edge_fraction=round(density["edge_fraction"], 4),
+                        uniform_edge_fraction=round(uniform_density["edge_fraction"], 4),
+                        ratio=round(ratio, 3), ratio_stderr=round(err, 4))
+        if ratio > EDGE_RATIO_HIGH and ratio - 1 > 5 * err:
+            flags.append(make_flag("edge-current", fit.branch, threshold=EDGE_RATIO_HIGH,
+                                   **evidence))
+        elif ratio < EDGE_RATIO_LOW and 1 - ratio > 5 * err:
+            flags.append(make_flag("center-current", fit.branch, threshold=EDGE_RATIO_LOW,
+                                   **evidence))
+    return flags
+
+
+def branch_flags(fits) -> list:
+    """Ic+ against |Ic-|: amplitudes or offsets that differ beyond their errors."""
+    pos = next((f for f in fits if f.branch == "positive"), None)
+    neg = next((f for f in fits if f.branch == "negative"), None)
+    if pos is None or neg is None or pos.ic0_A is None or neg.ic0_A is None:
+        return []
+    evidence = {}
+    for key in ("ic0_A", "field_offset_T"):
+        a, b = getattr(pos, key), getattr(neg, key)
+        ea = getattr(pos, key.replace("_A", "_stderr_A").replace("_T", "_stderr_T")) or 0.0
+        eb = getattr(neg, key.replace("_A", "_stderr_A").replace("_T", "_stderr_T")) or 0.0
+        sigma = float(np.hypot(ea, eb))
+        if sigma > 0 and abs(a - b) > BRANCH_SIGMAS * sigma:
+            evidence[f"{key}_positive"] = a
+            evidence[f"{key}_negative"] = b
+            evidence[f"{key}_difference_sigmas"] = round(abs(a - b) / sigma, 2)
+    if not evidence:
+        return []
+    return [make_flag("branch-asymmetry", None, threshold_sigmas=BRANCH_SIGMAS, **evidence)]
+
+
+def drift_flag(fit, half_periods) -> list:
+    """Periods fitted on the two halves of the sweep ``[(P, err), (P, err)]`` compared."""
+    (p1, e1), (p2, e2) = half_periods
+    if not (e1 and e2):
+        return []
+    sigma = float(np.hypot(e1, e2))
+    if abs(p1 - p2) <= DRIFT_SIGMAS * sigma:
+        return []
+    return [make_flag("period-drift", fit.branch, period_low_field_T=p1, period_high_field_T=p2,
+                      difference_sigmas=round(abs(p1 - p2) / sigma, 2),
+                      threshold_sigmas=DRIFT_SIGMAS)]
+
+
+def long_junction_flag(branch, length_m, josephson_depth_m) -> list:
+    """L / lambda_J from the geometry and Jc given by the user."""
+    ratio = length_m / josephson_depth_m
+    if ratio <= LONG_RATIO:
+        return []
+    return [make_flag("long-junction", branch, length_m=length_m,
+                      josephson_depth_m=josephson_depth_m, length_over_josephson_depth=ratio,
+                      threshold=LONG_RATIO)]
