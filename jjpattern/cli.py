@@ -57,7 +57,28 @@ def _add_map_options(parser: argparse.ArgumentParser) -> None:
                        help="measurement temperature (else metadata temperature_K)")
 
 
+def _add_junction_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group(
+        "junction geometry and materials (optional; also from '# key: value' metadata "
+        "with the same names, e.g. '# length_um: 10')")
+    group.add_argument("--length-um", type=float, metavar="UM",
+                       help="junction length across the field")
+    group.add_argument("--width-um", type=float, metavar="UM", help="junction width")
+    group.add_argument("--barrier-nm", type=float, metavar="NM", help="barrier thickness d")
+    group.add_argument("--electrode-nm", metavar="T1[,T2]",
+                       help="electrode thicknesses (one value for both)")
+    group.add_argument("--london-nm", metavar="L1[,L2]",
+                       help="London penetration depths (one value for both)")
+    group.add_argument("--jc-kA-cm2", type=float, metavar="JC",
+                       help="critical current density (else Ic0 / area when both are known)")
+    group.add_argument("--planar", action="store_true",
+                       help="a planar thin-film junction (flux-focusing period estimate)")
+    group.add_argument("--seed", type=int, default=0,
+                       help="seed of the resampled current-density band (default 0)")
+
+
 def _add_fit_options(parser: argparse.ArgumentParser) -> None:
+    _add_junction_options(parser)
     group = parser.add_argument_group("fitting")
     group.add_argument("--geometry", choices=("rectangular", "circular"),
                        default="rectangular", help="junction shape (default: rectangular)")
@@ -128,7 +149,40 @@ def _input_options(args) -> dict:
 
 
 def _fit_options(args) -> dict:
-    return {"geometry": args.geometry, "node_floor": args.node_floor, "loss": args.loss}
+    return {"geometry": args.geometry, "node_floor": args.node_floor, "loss": args.loss,
+            "seed": args.seed}
+
+
+def _junction(args, metadata: dict):
+    """Geometry inputs in SI from the options, else from the file's metadata."""
+    from .diagnose.run import GeometryInputs
+    from .errors import InputError
+
+    def value(option, key, scale):
+        given = getattr(args, option)
+        raw = given if given is not None else metadata.get(key)
+        if raw is None or raw == "":
+            return None
+        try:
+            parts = [float(v) for v in str(raw).split(",")]
+        except ValueError:
+            raise InputError(f"{'--' + option.replace('_', '-') if given is not None else key}"
+                             f" = {raw!r}: not a number") from None
+        return [v * scale for v in parts]
+
+    def one(option, key, scale):
+        v = value(option, key, scale)
+        return None if v is None else v[0]
+
+    electrodes = value("electrode_nm", "electrode_nm", 1e-9) or [None]
+    london = value("london_nm", "london_nm", 1e-9) or [None]
+    planar = args.planar or str(metadata.get("planar", "")).lower() in ("1", "yes", "true")
+    return GeometryInputs(
+        length_m=one("length_um", "length_um", 1e-6), width_m=one("width_um", "width_um", 1e-6),
+        barrier_m=one("barrier_nm", "barrier_nm", 1e-9),
+        t1_m=electrodes[0], t2_m=electrodes[1] if len(electrodes) > 1 else None,
+        lambda1_m=london[0], lambda2_m=london[1] if len(london) > 1 else None,
+        jc_A_m2=one("jc_kA_cm2", "jc_kA_cm2", 1e7), planar=planar)
 
 
 def _map_options(args):
@@ -178,11 +232,13 @@ def _analysis(args):
 
     data = open_input(args.path, sweep_options=_sweep_options(args),
                       map_options=_map_options(args))
+    junction = _junction(args, data.metadata)
     if isinstance(data, IVMap):
         gap_J = args.gap_meV * 1e-3 * e if args.gap_meV is not None else None
         return analyze_map(data, **_extraction_options(args), gap_J=gap_J, tc_K=args.tc_K,
-                           temperature_K=args.temperature_K, **_fit_options(args))
-    return analyze_sweep(data, **_fit_options(args))
+                           temperature_K=args.temperature_K, junction=junction,
+                           **_fit_options(args))
+    return analyze_sweep(data, junction=junction, **_fit_options(args))
 
 
 def _settings(args) -> dict:
@@ -191,7 +247,10 @@ def _settings(args) -> dict:
             "map_options": {k: getattr(args, k) for k in (
                 "bias_col", "signal_col", "signal_unit", "transpose", "field_from_name",
                 "criterion", "threshold", "gap_meV", "tc_K", "temperature_K")},
-            "coil_constant": args.coil_constant}
+            "coil_constant": args.coil_constant,
+            "junction_options": {k: getattr(args, k) for k in (
+                "length_um", "width_um", "barrier_nm", "electrode_nm", "london_nm",
+                "jc_kA_cm2", "planar")}}
 
 
 def _write_report(analysis, args, out_dir):

@@ -103,3 +103,35 @@ def rsj_map(rng, field_T, ic_pos_A, ic_neg_A, rn_ohm, bias_A, noise_V, offset_V=
         resistive = np.where(outbound, mag > ic, mag > retrap_fraction * ic)
         v = np.where(resistive, rn_ohm * bias, 0.0)
     return v + offset_V + rng.normal(0.0, noise_V, (np.size(field_T), bias.shape[1]))
+
+
+#: Current-density profiles over x / L in [-1/2, 1/2] for diagnostics round trips.
+PROFILES = {
+    "uniform": lambda x: np.ones_like(x),
+    "edges": lambda x: np.where(np.abs(x) > 0.4, 3.0, 1.0),      # edges carry 3x the bulk
+    "gaussian": lambda x: np.exp(-0.5 * (x / 0.15) ** 2),         # peaked in the middle
+    "gradient": lambda x: 1.0 + 0.4 * 2.0 * x,                    # 40 % linear gradient
+    "zero-pi": lambda x: -np.sign(x),                              # pi shift over one half
+}
+
+
+def profile_case(rng, profile, *, period_T=1e-3, lobes=6, n_points=800, noise_fraction=0.02,
+                 offset_fraction=0.2):
+    """A sweep of the pattern of ``PROFILES[profile]`` by a direct numerical integral.
+
+    The integral is a plain trapezoid sum on 4001 points (independent of the
+    Simpson rule in :func:`jjpattern.physics.patterns.profile_pattern`); the
+    result is scaled so that the largest Ic is 1 uA.
+    """
+    x = np.linspace(-0.5, 0.5, 4001)
+    j = PROFILES[profile](x)
+    offset = offset_fraction * period_T
+    half = (lobes + 1.0) * period_T
+    field = np.linspace(-half, half, n_points) + offset
+    u = (field - offset) / period_T
+    phase = np.exp(2j * np.pi * np.outer(u, x))
+    ic = np.abs(np.trapezoid(j[None, :] * phase, x, axis=1))
+    ic *= 1e-6 / ic.max()
+    ic = ic + rng.normal(0.0, noise_fraction * 1e-6, ic.size)
+    return SyntheticCase(field, ic, period_T, offset, 1e-6, noise_fraction * 1e-6,
+                         "rectangular", lobes)

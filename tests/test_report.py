@@ -49,10 +49,10 @@ def map_report(tmp_path_factory):
 
 def test_html_has_every_section_and_embeds_images(map_report):
     page = _parse(map_report / "report.html")
-    assert page.sections == ["headline", "flags", "pattern", "map", "methods", "provenance",
-                             "files"]
+    assert page.sections == ["headline", "flags", "pattern", "map", "current-density",
+                             "methods", "provenance", "files"]
     assert page.scripts == 0 and page.links == []
-    assert len(page.images) == 2
+    assert len(page.images) == 3
     for src in page.images:
         assert src.startswith("data:image/png;base64,")
         png = base64.b64decode(src.split(",", 1)[1])
@@ -62,7 +62,7 @@ def test_html_has_every_section_and_embeds_images(map_report):
 
 
 def test_figures_in_three_formats(map_report):
-    for stem in ("pattern", "map"):
+    for stem in ("pattern", "map", "current_density"):
         assert (map_report / f"{stem}.png").read_bytes()[:4] == b"\x89PNG"
         assert (map_report / f"{stem}.pdf").read_bytes()[:4] == b"%PDF"
         root = ET.parse(map_report / f"{stem}.svg").getroot()
@@ -94,7 +94,7 @@ def test_methods_paragraph_carries_the_fitted_numbers(map_report):
         assert abs(float(b0[0]) * 1e-3 - fit["field_offset_T"]) <= 0.1 * fit[
             "field_offset_stderr_T"]
         assert abs(float(ic[0]) * 1e-6 - fit["ic0_A"]) <= 0.1 * fit["ic0_stderr_A"]
-    assert "Dynes" not in methods  # no reconstruction in this run, so not cited
+    assert "Dynes" in methods and "reconstructed" in methods
     assert "Ambegaokar" in methods and "voltage map" in methods
     assert "References\n[1]" in methods
 

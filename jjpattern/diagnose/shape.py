@@ -19,9 +19,10 @@ MIRROR_REDCHI = 2.0
 DIP_SIGMAS = 5.0
 #: ... and below this fraction of it.
 DIP_FRACTION = 0.8
-#: Edge fraction of J(x) over that of a uniform junction seen through the same window.
-EDGE_RATIO_HIGH = 1.5
-EDGE_RATIO_LOW = 0.5
+#: Side-lobe heights (over the main lobe) against those of a uniform junction: above
+#: this ratio current crowds at the edges, below the other it gathers in the middle.
+EDGE_RATIO_HIGH = 1.8
+EDGE_RATIO_LOW = 0.65
 #: Branches differ when Ic0 or the offset differ by this many combined standard errors.
 BRANCH_SIGMAS = 5.0
 #: Periods of the two halves of the sweep differ by this many combined standard errors.
@@ -30,25 +31,32 @@ DRIFT_SIGMAS = 5.0
 LONG_RATIO = 1.0
 
 
+def _mirror_cost(c, x, y):
+    reach = min(c - x[0], x[-1] - c)
+    b = x[(x > c) & (x < c + reach)]
+    if b.size < 10:
+        return np.inf
+    return float(np.mean((np.interp(b, x, y) - np.interp(2 * c - b, x, y)) ** 2))
+
+
 def mirror_centre(x, y, period_T):
     """Field about which the data are most nearly mirror-symmetric (model-free).
 
-    Searched on a grid of a twentieth of a period over the middle half of the
-    window.
+    A grid of a twentieth of a period over the middle half of the window, then a
+    bounded refinement around the best grid point.
     """
+    from scipy import optimize
+
     span = x[-1] - x[0]
     grid = np.linspace(x[0] + 0.25 * span, x[-1] - 0.25 * span,
                        max(21, int(round(0.5 * span / (period_T / 20)))))
-    best, best_cost = grid[0], np.inf
-    for c in grid:
-        reach = min(c - x[0], x[-1] - c)
-        b = x[(x > c) & (x < c + reach)]
-        if b.size < 10:
-            continue
-        cost = np.mean((np.interp(b, x, y) - np.interp(2 * c - b, x, y)) ** 2)
-        if cost < best_cost:
-            best, best_cost = c, cost
-    return float(best)
+    costs = [_mirror_cost(c, x, y) for c in grid]
+    k = int(np.argmin(costs))
+    step = grid[1] - grid[0]
+    res = optimize.minimize_scalar(_mirror_cost, bounds=(grid[k] - step, grid[k] + step),
+                                   args=(x, y), method="bounded",
+                                   options={"xatol": 1e-4 * period_T})
+    return float(res.x if res.fun <= costs[k] else grid[k])
 
 
 #: Median of a chi-square variable with one degree of freedom.
@@ -67,6 +75,56 @@ def mirror_redchi(x, y, centre, noise):
         return None, int(b.size)
     diff = np.interp(b, x, y) - np.interp(2 * centre - b, x, y)
     return float(np.median(diff**2) / _CHI2_1_MEDIAN / (2 * noise**2)), int(b.size)
+
+
+def _lobe_maxima(geometry, count):
+    """Side-lobe maxima of the unit pattern of ``geometry`` (uniform current), lobes 1..count."""
+    from ..physics.patterns import PATTERNS, node_flux
+
+    nodes = node_flux(geometry, count + 1)
+    out = []
+    for a, b in zip(nodes[:-1], nodes[1:], strict=True):
+        u = np.linspace(a, b, 401)
+        out.append(float(np.max(PATTERNS[geometry](u))))
+    return np.asarray(out)
+
+
+def side_lobe_ratio(fit, max_lobes=4):
+    """Mean of the measured side-lobe heights over those of a uniform junction.
+
+    Heights are relative to the measured main lobe; each is the largest value of
+    the data (smoothed over a tenth of a period) between two fitted nodes, on both
+    sides where measured. Returns ``(ratio, stderr, lobes used)`` or ``None``.
+    """
+    from ..physics.patterns import node_flux
+
+    x, y, b0, p = fit.field_T, fit.ic_A, fit.field_offset_T, fit.period_T
+    if b0 is None:
+        return None
+    width = max(1, int(round(0.1 * p / np.median(np.diff(x)))))
+    smooth = np.convolve(y, np.ones(width) / width, mode="same")
+    first = float(node_flux(fit.model, 1)[0])
+    main = np.abs(x - b0) < 0.5 * first * p
+    if main.sum() < 3:
+        return None
+    h0 = float(np.max(smooth[main]))
+    nodes = node_flux(fit.model, max_lobes + 1)
+    ideal = _lobe_maxima(fit.model, max_lobes)
+    ratios = []
+    for n in range(max_lobes):
+        for sign in (1.0, -1.0):
+            lo, hi = sorted((b0 + sign * nodes[n] * p, b0 + sign * nodes[n + 1] * p))
+            inside = (x > lo) & (x < hi)
+            if lo < x[0] or hi > x[-1] or inside.sum() < 3:
+                continue
+            ratios.append(float(np.max(smooth[inside])) / h0 / ideal[n])
+    if len(ratios) < 2:
+        return None
+    ratios = np.asarray(ratios)
+    # Each height carries the noise of a smoothed point; h0 its own share too.
+    sigma = fit.noise_A / np.sqrt(width) / h0
+    err = float(np.sqrt(np.mean((sigma / ideal[:1]) ** 2) / ratios.size + (sigma) ** 2))
+    return float(np.mean(ratios)), err, int(ratios.size)
 
 
 def shape_flags(fit, *, criterion_floor_A=0.0, density=None, uniform_density=None) -> list:
@@ -101,12 +159,13 @@ def shape_flags(fit, *, criterion_floor_A=0.0, density=None, uniform_density=Non
                                    ic_at_centre_A=middle, nearby_maximum_A=top,
                                    noise_A=noise, threshold_sigmas=DIP_SIGMAS,
                                    threshold_fraction=DIP_FRACTION))
-    if density is not None and uniform_density is not None:
-        ratio = density["edge_fraction"] / uniform_density["edge_fraction"]
-        err = density.get("edge_fraction_stderr", 0.0) / uniform_density["edge_fraction"]
-        evidence = dict(edge_fraction=round(density["edge_fraction"], 4),
-                        uniform_edge_fraction=round(uniform_density["edge_fraction"], 4),
-                        ratio=round(ratio, 3), ratio_stderr=round(err, 4))
+    decay = side_lobe_ratio(fit)
+    if decay is not None:
+        ratio, err, lobes = decay
+        evidence = dict(side_lobe_ratio=round(ratio, 4), ratio_stderr=round(err, 4),
+                        lobes_used=lobes)
+        if density is not None:
+            evidence["edge_fraction"] = round(density["edge_fraction"], 4)
         if ratio > EDGE_RATIO_HIGH and ratio - 1 > 5 * err:
             flags.append(make_flag("edge-current", fit.branch, threshold=EDGE_RATIO_HIGH,
                                    **evidence))

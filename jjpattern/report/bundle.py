@@ -47,7 +47,7 @@ def field_calibration_text(analysis, settings: dict) -> str:
 def write_report(analysis, out_dir: str, argv, extra_settings: dict | None = None) -> dict:
     """Write the report folder and return ``{name: path}`` of everything written."""
     from .html import render_html
-    from .plot import map_figure, pattern_figure, save_figure
+    from .plot import density_figure, map_figure, pattern_figure, save_figure
 
     os.makedirs(out_dir, exist_ok=True)
     document = build_document(analysis, extra_settings)
@@ -71,6 +71,18 @@ def write_report(analysis, out_dir: str, argv, extra_settings: dict | None = Non
             map_png = handle.read()
         write_text(path("extraction.csv"), analysis.extraction.table_csv())
 
+    extra_sections = []
+    if analysis.current_density:
+        from .html import density_section, geometry_section
+
+        density_files = [path(f"current_density{s}") for s in FIGURE_FORMATS]
+        save_figure(density_figure(analysis.current_density), *density_files)
+        with open(density_files[0], "rb") as handle:
+            extra_sections.append(density_section(
+                analysis.current_density, handle.read(),
+                [os.path.basename(p) for p in density_files]))
+        if analysis.geometry:
+            extra_sections.append(geometry_section(analysis.geometry))
     write_text(path("result.json"), dumps(document) + "\n")
     write_text(path("fit.csv"), fit_table_csv(analysis.fits))
     methods = methods_paragraph(analysis, versions(),
@@ -85,6 +97,7 @@ def write_report(analysis, out_dir: str, argv, extra_settings: dict | None = Non
         analysis, document, pattern_png=pattern_png, map_png=map_png, methods=methods,
         provenance=prov, files={"pattern": [os.path.basename(p) for p in pattern_files],
                                 "map": [os.path.basename(p) for p in map_files],
-                                "all": names})
+                                "all": names},
+        extra_sections=extra_sections)
     write_text(path("report.html"), page)
     return paths

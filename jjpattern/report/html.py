@@ -178,3 +178,28 @@ def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes 
         "</footer></body></html>",
     ]
     return "\n".join(parts) + "\n"
+
+
+def density_section(current_density: dict, png: bytes, files) -> tuple:
+    """``(id, title, html)`` for the reconstructed current density."""
+    rows = []
+    for branch, d in current_density.items():
+        rows += [(f"{branch}: method", f"{d['method']} ({d['assumption']})"),
+                 (f"{branch}: resolution", f"{d['resolution_over_length']:.3f} L"),
+                 (f"{branch}: edge fraction (0.2 uniform)",
+                  f"{d['edge_fraction']:.3f} ± {d.get('edge_fraction_stderr', 0):.3f}"),
+                 (f"{branch}: centre of mass", f"{d['centre_of_mass_over_length']:+.3f} L"),
+                 (f"{branch}: non-uniformity", f"{d['nonuniformity']:.3f}")]
+    caption = ("Current density across the junction from the pattern (Dynes & Fulton 1971), "
+               "with the 68 % band from resampling the noise; dashed lines mark the "
+               "junction's edges.")
+    return ("current-density", "Current density", _figure(png, caption, files)
+            + _key_values(rows))
+
+
+def geometry_section(block: dict) -> tuple:
+    """``(id, title, html)`` for the numbers derived from geometry and materials."""
+    rows = [(k, v) for k, v in block["inputs"].items()]
+    rows += [(k, f"{v:.4g}" if isinstance(v, float) else v) for k, v in block.items()
+             if k not in ("inputs",)]
+    return ("geometry", "Geometry and materials", _key_values(rows))

@@ -164,3 +164,31 @@ def map_figure(extraction, title: str = ""):
     ax.legend(frameon=True, fontsize=7, loc="upper right")
     ax.set_title(title or f"extraction: {extraction.criterion} criterion", fontsize=10)
     return fig
+
+
+def density_figure(current_density: dict, title: str = ""):
+    """Reconstructed J(x) of each branch with its resampled 68 % band."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib import pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(7.0, 3.8), layout="constrained")
+    for branch, d in current_density.items():
+        x = np.asarray(d["x_over_length"])
+        scale = np.max(np.abs(d["j"])) or 1.0
+        colour = BRANCH_COLOURS.get(branch, "#009E73")
+        ax.fill_between(x, np.asarray(d["j_low"]) / scale, np.asarray(d["j_high"]) / scale,
+                        color=colour, alpha=0.25, lw=0)
+        ax.plot(x, np.asarray(d["j"]) / scale, color=colour,
+                label=f"{branch} branch ({d['method']})")
+    for edge in (-0.5, 0.5):
+        ax.axvline(edge, color="#888888", lw=0.8, ls="--")
+    ax.axhline(0.0, color="#888888", lw=0.6)
+    ax.set_xlabel("position across the junction, x / L")
+    ax.set_ylabel("current density (scaled)")
+    ax.legend(frameon=False, fontsize=8)
+    ax.grid(alpha=0.25, lw=0.5)
+    if title:
+        ax.set_title(title, fontsize=10)
+    return fig

@@ -88,6 +88,18 @@ def render_summary(analysis) -> str:
     for fit in analysis.fits:
         lines.append("")
         lines.extend(_fit_lines(fit))
+    for branch, d in analysis.current_density.items():
+        lines.append("")
+        lines.append(f"current density, {branch} branch ({d['method']}, resolution "
+                     f"{d['resolution_over_length']:.3f} L)")
+        lines.append(f"  edge fraction {d['edge_fraction']:.3f} (outer 10 % each side; 0.2 for "
+                     f"uniform), centre of mass {d['centre_of_mass_over_length']:+.3f} L")
+    if analysis.geometry:
+        lines.append("")
+        lines.append("geometry and materials")
+        for key, value in analysis.geometry.items():
+            if key not in ("inputs", "branch") and isinstance(value, float):
+                lines.append(f"  {key} {value:.4g}")
     flags = analysis.flags
     lines.append("")
     if not flags:
