@@ -1,0 +1,144 @@
+"""Reconstruction round trips and every shape flag on its positive and negative cases.
+
+Patterns of known profiles come from jjpattern.synthetic.profile_case, a plain
+trapezoid integral independent of the Simpson rule in the forward model.
+"""
+
+import numpy as np
+import pytest
+
+from jjpattern.analysis import analyze_sweep
+from jjpattern.diagnose.reconstruct import node_signs, reconstruct
+from jjpattern.diagnose.run import GeometryInputs
+from jjpattern.diagnose.shape import LONG_RATIO
+from jjpattern.io.sweep import Branch, Sweep
+from jjpattern.physics import geometry as geo
+from jjpattern.synthetic import PROFILES, profile_case
+
+
+def _analyse(case, **kw):
+    sweep = Sweep(None, None, (Branch("positive", "ic", case.field_T, case.ic_A, 0, 0),))
+    return analyze_sweep(sweep, **kw)
+
+
+def _codes(analysis):
+    return {f.code for f in analysis.flags}
+
+
+@pytest.mark.parametrize(("profile", "edge"), [("uniform", 0.2), ("edges", 0.43),
+                                               ("gaussian", 0.0)])
+def test_symmetric_reconstruction_round_trip(profile, edge):
+    # Known pairs (Bracewell): uniform <-> |sinc|, Gaussian <-> Gaussian; edges carrying
+    # 3x the bulk hold 0.6 / 1.4 = 0.43 of the current in their outer 10 % each side.
+    rng = np.random.default_rng(1)
+    case = profile_case(rng, profile, lobes=10, n_points=1601, noise_fraction=0.005,
+                        offset_fraction=0.0)
+    d = reconstruct(case.field_T, case.ic_A, case.period_T, case.field_offset_T,
+                    case.noise_A, rng, method="symmetric", resamples=50)
+    x = d["x_over_length"]
+    truth = PROFILES[profile](x)
+    inside = np.abs(x) < 0.35
+    scale = np.trapezoid(np.clip(d["j"], 0, None)[np.abs(x) <= 0.5], x[np.abs(x) <= 0.5])
+    scale /= np.trapezoid(truth[np.abs(x) <= 0.5], x[np.abs(x) <= 0.5])
+    # Away from the edges (resolution 1/22 of L) the profile comes back within 6 %.
+    assert np.max(np.abs(d["j"][inside] / scale - truth[inside])) < 0.06 * truth.max()
+    assert d["edge_fraction"] == pytest.approx(edge, abs=0.05)
+    assert abs(d["centre_of_mass_over_length"]) < 0.01
+    assert d["resolution_over_length"] == pytest.approx(1 / 22, rel=0.05)
+    assert np.all(d["j_low"] <= d["j_high"])
+
+
+def test_node_signs_keep_the_sign_at_a_double_zero():
+    # A triangle profile gives sinc^2 (Bracewell): its zeros are double and do not flip.
+    u = np.linspace(-6, 6, 1201)
+    signs = node_signs(u, np.sinc(u / 2) ** 2)
+    assert np.all(signs == 1.0)
+    flips = node_signs(u, np.abs(np.sinc(u)))
+    assert np.array_equal(flips, np.where(np.floor(np.abs(u)) % 2 == 1, -1.0, 1.0)) or (
+        np.mean(flips == np.where(np.floor(np.abs(u)) % 2 == 1, -1.0, 1.0)) > 0.97)
+
+
+def test_support_reconstruction_sees_an_asymmetric_profile():
+    rng = np.random.default_rng(2)
+    x = np.linspace(-0.5, 0.5, 4001)
+    step = np.where(x < 0.1, 1.0, 0.3)
+    field = np.linspace(-8e-3, 8e-3, 1201)
+    u = field / 1e-3
+    ic = np.abs(np.trapezoid(step[None, :] * np.exp(2j * np.pi * np.outer(u, x)), x, axis=1))
+    ic = ic + rng.normal(0, 0.005 * ic.max(), ic.size)
+    sym = reconstruct(field, ic, 1e-3, 0.0, 0.005 * ic.max(), rng, method="symmetric",
+                      resamples=10)
+    sup = reconstruct(field, ic, 1e-3, 0.0, 0.005 * ic.max(), rng, method="support",
+                      resamples=4)
+    # The symmetric method cannot move the centre of mass; retrieval does (either way,
+    # because of the mirror ambiguity). The true centre sits at -0.13 L.
+    assert abs(sym["centre_of_mass_over_length"]) < 1e-6
+    assert abs(sup["centre_of_mass_over_length"]) > 0.05
+    assert "mirror" in sup["assumption"]
+
+
+def test_uniform_patterns_raise_no_shape_flags():
+    rng = np.random.default_rng(3)
+    for _ in range(12):
+        case = profile_case(rng, "uniform", lobes=int(rng.integers(3, 11)),
+                            n_points=int(rng.integers(500, 1500)),
+                            noise_fraction=rng.uniform(0.01, 0.03),
+                            offset_fraction=rng.uniform(-0.5, 0.5))
+        assert _codes(_analyse(case)) == set()
+
+
+@pytest.mark.parametrize(("profile", "code"), [("edges", "edge-current"),
+                                               ("gaussian", "center-current"),
+                                               ("gradient", "nodes-lifted"),
+                                               ("zero-pi", "central-minimum")])
+def test_clear_cases_raise_their_flag(profile, code):
+    rng = np.random.default_rng(4)
+    for _ in range(5):
+        case = profile_case(rng, profile, lobes=int(rng.integers(3, 11)),
+                            n_points=int(rng.integers(500, 1500)),
+                            noise_fraction=rng.uniform(0.01, 0.03),
+                            offset_fraction=rng.uniform(-0.5, 0.5))
+        flags = _analyse(case).flags
+        hit = [f for f in flags if f.code == code]
+        assert hit, (profile, [f.code for f in flags])
+        assert hit[0].message and hit[0].evidence
+
+
+def test_field_asymmetry_and_branch_asymmetry():
+    rng = np.random.default_rng(5)
+    case = profile_case(rng, "uniform", lobes=5, n_points=900, noise_fraction=0.01,
+                        offset_fraction=0.0)
+    # A field-dependent tilt (as from self-field): Ic(B0 + b) no longer equals Ic(B0 - b).
+    tilted = case.ic_A * (1 + 0.15 * case.field_T / case.field_T.max())
+    branches = (Branch("positive", "a", case.field_T, tilted, 0, 0),
+                Branch("negative", "b", case.field_T, case.ic_A * 0.95, 0, 0))
+    analysis = analyze_sweep(Sweep(None, None, branches))
+    codes = [(f.code, f.branch) for f in analysis.flags]
+    assert ("field-asymmetry", "positive") in codes
+    assert ("field-asymmetry", "negative") not in codes
+    assert ("branch-asymmetry", None) in codes
+
+
+def test_period_drift_from_a_nonlinear_field_axis():
+    rng = np.random.default_rng(6)
+    case = profile_case(rng, "uniform", lobes=8, n_points=1200, noise_fraction=0.01)
+    # The magnet's field grows 8 % faster than recorded on the positive side.
+    recorded = np.where(case.field_T > 0, case.field_T / 1.08, case.field_T)
+    analysis = _analyse(type(case)(recorded, case.ic_A, *list(case.__dict__.values())[2:]))
+    assert "period-drift" in _codes(analysis)
+    assert "period-drift" not in _codes(_analyse(case))
+
+
+def test_long_junction_from_geometry_and_jc():
+    rng = np.random.default_rng(7)
+    case = profile_case(rng, "uniform", lobes=4, n_points=600, noise_fraction=0.01)
+    ds = geo.current_thickness_m(2e-9, 90e-9, 200e-9)
+    lam_j = geo.josephson_depth_m(1e8, ds)  # 10 kA/cm^2
+    for length, expect in ((0.5 * lam_j, False), (3 * lam_j, True)):
+        inputs = GeometryInputs(length_m=length, width_m=length, barrier_m=2e-9,
+                                t1_m=200e-9, lambda1_m=90e-9, jc_A_m2=1e8)
+        analysis = _analyse(case, junction=inputs)
+        assert ("long-junction" in _codes(analysis)) is expect
+        assert analysis.geometry["length_over_josephson_depth"] == pytest.approx(
+            length / lam_j, rel=1e-9)
+        assert bool(analysis.geometry["length_over_josephson_depth"] > LONG_RATIO) is expect
