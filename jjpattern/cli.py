@@ -80,8 +80,10 @@ def _add_junction_options(parser: argparse.ArgumentParser) -> None:
 def _add_fit_options(parser: argparse.ArgumentParser) -> None:
     _add_junction_options(parser)
     group = parser.add_argument_group("fitting")
-    group.add_argument("--geometry", choices=("rectangular", "circular"),
-                       default="rectangular", help="junction shape (default: rectangular)")
+    group.add_argument("--geometry", choices=("rectangular", "circular", "two-channel"),
+                       default="rectangular",
+                       help="junction shape; two-channel is a SQUID-like pair of channels "
+                            "(default: rectangular)")
     group.add_argument("--node-floor", choices=("auto", "on", "off"), default="auto",
                        help="fit a floor for lifted nodes; auto keeps it when it helps "
                             "(default: auto)")

@@ -36,6 +36,10 @@ def ideal(field_T, geometry, ic0_A, period_T, field_offset_T, floor_A=0.0):
     elif geometry == "circular":
         x = np.pi * np.where(u == 0, 1e-12, u)
         shape = np.abs(2.0 * special.j1(x) / x)
+    elif geometry.startswith("two-channel"):
+        # "two-channel:0.3" carries the asymmetry (I1 - I2) / (I1 + I2).
+        a = float(geometry.split(":")[1]) if ":" in geometry else 0.0
+        shape = np.abs(np.cos(np.pi * u) + 1j * a * np.sin(np.pi * u))
     else:
         raise ValueError(geometry)
     return np.sqrt((ic0_A * shape) ** 2 + floor_A**2)

@@ -195,3 +195,17 @@ def test_bad_options_are_input_errors():
         fit_pattern(b, np.abs(np.sinc(b)), loss="l7")
     with pytest.raises(InputError, match="at least 10"):
         fit_pattern(b[:5], b[:5])
+
+
+def test_two_channel_model_recovers_asymmetry():
+    # Two channels with I1 = 0.65, I2 = 0.35 (a = 0.3): Ic = (I1 + I2) sqrt(cos^2 + a^2 sin^2)
+    # (standard two-junction interferometer result, common practice).
+    rng = np.random.default_rng(21)
+    b = np.linspace(-3e-3, 3e-3, 600)
+    ic = ideal(b, "two-channel:0.3", 5e-6, 0.8e-3, 0.23e-3) + rng.normal(0, 0.05e-6, b.size)
+    fit = fit_pattern(b, ic, geometry="two-channel")
+    assert fit.period_T == pytest.approx(0.8e-3, rel=0.002)
+    assert fit.asymmetry == pytest.approx(0.3, abs=4 * fit.asymmetry_stderr)
+    # Periodic: the offset is the copy nearest zero field, and no lobe flag is raised.
+    assert fit.field_offset_T == pytest.approx(0.23e-3, abs=0.01e-3)
+    assert fit.flags == []

@@ -12,7 +12,7 @@ import numpy as np
 from ..diagnose.flags import make_flag
 from ..errors import InputError
 from ..io.sweep import MIN_POINTS
-from ..physics.patterns import node_flux
+from ..physics.patterns import PERIODIC, node_flux
 from ..sampling import tidy
 from .far import far_lobe_start
 from .models import MODELS
@@ -171,7 +171,7 @@ def fit_pattern(
             if _chisq(alt) < _chisq(result):
                 result = alt
     floor_evidence = None
-    if node_floor != "off":
+    if node_floor != "off" and geometry not in PERIODIC:
         with_floor = result.params.copy()
         ic0 = abs(_value(result, "ic0_A"))
         with_floor["floor_A"].set(value=max(best.background_A, 0.05 * ic0), vary=True)
@@ -189,8 +189,11 @@ def fit_pattern(
             threshold=MODULATION_DCHI2, noise_A=noise,
         ))
         return out
-    result, offset_ok, offset_evidence = _check_lobe_assignment(
-        model, y, x, result, loss, f_scale, geometry)
+    if geometry in PERIODIC:
+        offset_ok, offset_evidence = True, None  # no main lobe: the offset is modulo a period
+    else:
+        result, offset_ok, offset_evidence = _check_lobe_assignment(
+            model, y, x, result, loss, f_scale, geometry)
     _fill(out, result, geometry, x, offset_ok)
     _add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, f_scale)
     return out
@@ -272,11 +275,17 @@ def _fill(out, result, geometry, x, offset_ok):
     """Copy the fitted numbers into ``out``, withholding what the data do not fix."""
     period = abs(_value(result, "period_T"))
     offset = _value(result, "field_offset_T")
+    if geometry in PERIODIC:
+        offset = (offset + 0.5 * period) % period - 0.5 * period  # the copy nearest zero field
     floor = abs(_value(result, "floor_A"))
     out.best_params = {
         "ic0_A": abs(_value(result, "ic0_A")), "period_T": period,
         "field_offset_T": offset, "floor_A": floor,
     }
+    if "asymmetry" in result.params:
+        out.best_params["asymmetry"] = abs(_value(result, "asymmetry"))
+        out.asymmetry = out.best_params["asymmetry"]
+        out.asymmetry_stderr = _stderr(result, "asymmetry")
     out.lmfit_result = result
     nfree = max(result.nfree, 1)
     out.residual_rms_A = float(np.sqrt(np.mean((out.ic_A - result.best_fit) ** 2)))

@@ -63,5 +63,20 @@ class CircularModel(PatternModel):
     geometry = "circular"
 
 
+class TwoChannelModel(PatternModel):
+    """Two parallel channels, ``Ic0 sqrt(cos^2(pi u) + a^2 sin^2(pi u))``."""
+
+    geometry = "two-channel"
+
+    def __init__(self, **kwargs):
+        super().__init__(**kwargs)
+        # Even in the asymmetry too; its magnitude is reported.
+        self.set_param_hint("asymmetry", value=0.1)
+
+    def unit_shape(self, u):
+        # The scan's background term stands in for the asymmetry's lifted minima.
+        return np.abs(np.cos(np.pi * u))
+
+
 #: Every fit model by geometry name; tests loop over this registry.
-MODELS = {cls.geometry: cls for cls in (RectangularModel, CircularModel)}
+MODELS = {cls.geometry: cls for cls in (RectangularModel, CircularModel, TwoChannelModel)}

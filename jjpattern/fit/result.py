@@ -14,7 +14,7 @@ FIT_KEYS = (
     "ic0_A", "ic0_stderr_A", "effective_area_m2", "effective_area_stderr_m2",
     "node_floor_A", "node_floor_stderr_A", "reduced_chisq", "lobes_observed", "nodes_observed",
     "points_used", "points_downweighted", "residual_rms_A", "noise_A", "ic_max_A",
-    "field_min_T", "field_max_T", "loss", "uncertainty",
+    "field_min_T", "field_max_T", "loss", "uncertainty", "asymmetry", "asymmetry_stderr",
 )
 
 
@@ -51,6 +51,8 @@ class PatternFit:
     field_max_T: float | None = None
     loss: str = "linear"
     uncertainty: str = ""
+    asymmetry: float | None = None
+    asymmetry_stderr: float | None = None
     flags: list = field(default_factory=list)
     field_T: np.ndarray = field(default=None, repr=False)
     ic_A: np.ndarray = field(default=None, repr=False)

@@ -85,11 +85,28 @@ def profile_pattern(field_T, x_over_length, j_A, period_T=1.0, field_offset_T=0.
     return out.reshape(np.shape(field_T)) if np.ndim(field_T) else float(out[0])
 
 
+def two_channel_pattern(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
+                        asymmetry=0.0):
+    """Two narrow parallel channels (a SQUID-like interferometer) with unequal currents.
+
+    ``Ic = (I1 + I2) sqrt(cos^2(pi u) + a^2 sin^2(pi u))`` with the asymmetry
+    ``a = (I1 - I2) / (I1 + I2)``; ``period_T`` is the field per flux quantum
+    through the area between the channels. The pattern is periodic, so the offset
+    is only defined modulo one period.
+    """
+    u = reduced_flux(field_T, period_T, field_offset_T)
+    shape = np.sqrt(np.cos(np.pi * u) ** 2 + (asymmetry * np.sin(np.pi * u)) ** 2)
+    return with_floor(ic0_A * shape, floor_A)
+
+
 #: Closed-form patterns by geometry name; the fit layer wraps each one.
 PATTERNS = {
     "rectangular": rectangular_pattern,
     "circular": circular_pattern,
+    "two-channel": two_channel_pattern,
 }
+#: Patterns that repeat without decay: no main lobe to locate.
+PERIODIC = {"two-channel"}
 
 
 def node_flux(geometry, count):
@@ -98,4 +115,6 @@ def node_flux(geometry, count):
         return np.arange(1, count + 1, dtype=float)
     if geometry == "circular":
         return circular_node_flux(count)
+    if geometry == "two-channel":
+        return np.arange(count, dtype=float) + 0.5
     raise ValueError(f"unknown geometry {geometry!r}")

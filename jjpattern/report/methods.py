@@ -16,6 +16,9 @@ MODEL_TEXT = {
                     "density, Ic(B) = Ic0 |sin(pi Phi/Phi0) / (pi Phi/Phi0)|"),
     "circular": ("the Airy pattern of a circular junction with uniform current density, "
                  "Ic(B) = Ic0 |2 J1(pi Phi/Phi0) / (pi Phi/Phi0)|"),
+    "two-channel": ("the interference pattern of two parallel channels with unequal "
+                    "critical currents, Ic(B) = Ic0 sqrt(cos^2(pi Phi/Phi0) + a^2 "
+                    "sin^2(pi Phi/Phi0)) with a = (I1 - I2)/(I1 + I2)"),
 }
 
 REFERENCES = {
