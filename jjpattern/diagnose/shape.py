@@ -115,10 +115,12 @@ def side_lobe_ratio(fit, max_lobes=4):
         for sign in (1.0, -1.0):
             lo, hi = sorted((b0 + sign * nodes[n] * p, b0 + sign * nodes[n + 1] * p))
             inside = (x > lo) & (x < hi)
-            if lo < x[0] or hi > x[-1] or inside.sum() < 3:
+            # A lobe cut by the window still counts when most of it was measured.
+            measured = min(hi, x[-1]) - max(lo, x[0])
+            if measured < 0.6 * (hi - lo) or inside.sum() < 3:
                 continue
             ratios.append(float(np.max(smooth[inside])) / h0 / ideal[n])
-    if len(ratios) < 2:
+    if not ratios:
         return None
     ratios = np.asarray(ratios)
     # Each height carries the noise of a smoothed point; h0 its own share too.
