@@ -49,7 +49,9 @@ def j03(rng) -> str:
     for k in rng.choice(main_lobe, 4, replace=False):
         pos[k] *= 0.6  # premature switching reads low
     rows = "".join(f"{b:.4f},{p:.3f},{n:.3f}\n" for b, p, n in zip(b_mT, pos, neg, strict=True))
-    meta = header({"junction": "KT14-J03", "shape": "rectangular, 12 um x 12 um"})
+    meta = header({"junction": "KT14-J03", "shape": "rectangular, 12 um x 12 um",
+                   "length_um": "12", "width_um": "12", "barrier_nm": "1.8",
+                   "electrode_nm": "300"})
     return meta + "B (mT),Ic+ (uA),Ic- (uA)\n" + rows
 
 

@@ -26,7 +26,12 @@ def test_analyze_json_is_one_document_with_the_contract(demo, capsys):
     assert main(["analyze", demo["kt14_j03.csv"], "--json", "--loss", "cauchy"]) == 0
     doc = json.loads(capsys.readouterr().out)
     assert set(doc) == {"input", "fits", "flags", "tool", "settings", "generated_utc",
-                        "current_density"}
+                        "current_density", "geometry"}
+    # The demo file's metadata gives the geometry: d' = Phi0 / (period * L), L = 12 um.
+    geometry = doc["geometry"]
+    fit = doc["fits"][0]
+    assert geometry["magnetic_thickness_m"] == pytest.approx(
+        2.067833848e-15 / (fit["period_T"] * 12e-6), rel=1e-6)
     assert doc["tool"]["name"] == "jjpattern"
     assert doc["input"]["metadata"]["junction"] == "KT14-J03"
     assert len(doc["input"]["sha256"]) == 64

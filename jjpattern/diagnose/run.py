@@ -101,7 +101,8 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
     if inputs.planar and inputs.width_m:
         out["planar_expected_period_T"] = geo.planar_period_T(inputs.width_m)
         out["planar_period_over_expected"] = fit.period_T / out["planar_expected_period_T"]
-    if length and inputs.width_m:
+    if inputs.planar and length and inputs.width_m:
+        # Planar films focus the field: the effective area exceeds the junction's own.
         out["focusing_factor"] = geo.focusing_factor(fit.effective_area_m2,
                                                      length * inputs.width_m)
     return out

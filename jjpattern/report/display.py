@@ -33,3 +33,21 @@ def format_measure(value, stderr, units, unit=None, digits=4) -> str:
     e = stderr / factor
     decimals = max(0, 1 - int(math.floor(math.log10(e))))
     return f"{v:.{decimals}f} ± {e:.{decimals}f} {name}"
+
+
+LENGTH_UNITS = (("m", 1.0), ("mm", 1e-3), ("µm", 1e-6), ("nm", 1e-9))
+
+
+def format_si_key(key: str, value) -> str:
+    """A derived number shown by the unit in its key (``_m``, ``_T``, ``_A_m2``)."""
+    if not isinstance(value, (int, float)) or isinstance(value, bool):
+        return str(value)
+    if key.endswith("_A_m2"):
+        return f"{value * 1e-7:.4g} kA/cm²"
+    if key.endswith("_m"):
+        name, factor = next(((n, f) for n, f in LENGTH_UNITS if abs(value) >= f),
+                            LENGTH_UNITS[-1])
+        return f"{value / factor:.4g} {name}"
+    if key.endswith("_T"):
+        return format_measure(value, None, FIELD_UNITS)
+    return f"{value:.4g}"

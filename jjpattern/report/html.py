@@ -199,7 +199,8 @@ def density_section(current_density: dict, png: bytes, files) -> tuple:
 
 def geometry_section(block: dict) -> tuple:
     """``(id, title, html)`` for the numbers derived from geometry and materials."""
-    rows = [(k, v) for k, v in block["inputs"].items()]
-    rows += [(k, f"{v:.4g}" if isinstance(v, float) else v) for k, v in block.items()
-             if k not in ("inputs",)]
+    from .display import format_si_key
+
+    rows = [(f"given: {k}", format_si_key(k, v)) for k, v in block["inputs"].items()]
+    rows += [(k, format_si_key(k, v)) for k, v in block.items() if k != "inputs"]
     return ("geometry", "Geometry and materials", _key_values(rows))

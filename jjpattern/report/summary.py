@@ -9,6 +9,7 @@ from .display import (
     FIELD_UNITS,
     VOLTAGE_UNITS,
     format_measure,
+    format_si_key,
     pick_unit,
 )
 
@@ -99,7 +100,8 @@ def render_summary(analysis) -> str:
         lines.append("geometry and materials")
         for key, value in analysis.geometry.items():
             if key not in ("inputs", "branch") and isinstance(value, float):
-                lines.append(f"  {key} {value:.4g}")
+                name = key.replace("_A_m2", "").removesuffix("_m").removesuffix("_T")
+                lines.append(f"  {name.replace('_', ' ')}: {format_si_key(key, value)}")
     flags = analysis.flags
     lines.append("")
     if not flags:
@@ -107,5 +109,6 @@ def render_summary(analysis) -> str:
     else:
         lines.append("flags:")
         for flag in flags:
-            lines.append(f"  [{flag.severity}] {flag.code} ({flag.branch}): {flag.message}")
+            where = f"{flag.branch} branch" if flag.branch else "both branches"
+            lines.append(f"  [{flag.severity}] {flag.code} ({where}): {flag.message}")
     return "\n".join(lines)
