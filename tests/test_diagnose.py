@@ -142,3 +142,12 @@ def test_long_junction_from_geometry_and_jc():
         assert analysis.geometry["length_over_josephson_depth"] == pytest.approx(
             length / lam_j, rel=1e-9)
         assert bool(analysis.geometry["length_over_josephson_depth"] > LONG_RATIO) is expect
+
+
+def test_equal_branches_raise_no_branch_asymmetry():
+    rng = np.random.default_rng(8)
+    case = profile_case(rng, "uniform", lobes=5, n_points=900, noise_fraction=0.01)
+    other = profile_case(rng, "uniform", lobes=5, n_points=900, noise_fraction=0.01)
+    branches = (Branch("positive", "a", case.field_T, case.ic_A, 0, 0),
+                Branch("negative", "b", other.field_T, other.ic_A, 0, 0))
+    assert "branch-asymmetry" not in _codes(analyze_sweep(Sweep(None, None, branches)))

@@ -141,3 +141,22 @@ def test_rsj_voltage():
     i = np.array([-3.0, -1.0, 0.0, 0.5, 2.0])
     assert np.allclose(rsj_voltage(i, 1.0, 10.0),
                        [-10 * np.sqrt(8), 0.0, 0.0, 0.0, 10 * np.sqrt(3)])
+
+
+def test_forward_model_triangle_gives_sinc_squared():
+    # Triangle of half-width 1/2 <-> (1/2) sinc^2(u/2) (Bracewell, tables of Fourier pairs).
+    x = np.linspace(-0.5, 0.5, 20001)
+    b = np.linspace(-6.0, 6.0, 241)
+    got = pt.profile_pattern(b, x, 1.0 - 2.0 * np.abs(x))
+    assert np.max(np.abs(got - 0.5 * np.sinc(b / 2) ** 2)) < 1e-6
+
+
+def test_forward_model_gaussian_gives_gaussian():
+    # exp(-x^2 / 2 s^2) <-> s sqrt(2 pi) exp(-2 pi^2 s^2 u^2) (Bracewell), with s small
+    # enough that the junction's edges cut off nothing measurable.
+    s = 0.08
+    x = np.linspace(-0.5, 0.5, 20001)
+    b = np.linspace(-6.0, 6.0, 241)
+    got = pt.profile_pattern(b, x, np.exp(-0.5 * (x / s) ** 2))
+    expected = s * np.sqrt(2 * np.pi) * np.exp(-2 * np.pi**2 * s**2 * b**2)
+    assert np.max(np.abs(got - expected)) < 1e-6
