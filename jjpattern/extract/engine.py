@@ -58,7 +58,7 @@ class Extraction:
     criterion: str
     threshold: dict
     offset_V: float | None
-    noise: float | None
+    noise: float | None  # volt; None for dV/dI maps
     rn_ohm: float | None
     rows_skipped: int
     flags: list = field(default_factory=list)
@@ -72,7 +72,7 @@ class Extraction:
             "layout": self.ivmap.layout,
             "map_shape": list(self.ivmap.shape),
             "amplifier_offset_V": self.offset_V,
-            "zero_branch_noise": self.noise,
+            "zero_branch_noise_V": self.noise,
             "normal_resistance_ohm": self.rn_ohm,
             "rows_skipped": self.rows_skipped,
             "branches": [
