@@ -6,7 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..fit.engine import _run
+from ..fit.engine import local_fit
 from ..fit.models import MODELS
 from ..physics import geometry as geo
 from ..physics.patterns import PATTERNS, node_flux
@@ -46,7 +46,7 @@ def _half_periods(fit):
         params = fit.lmfit_result.params.copy()
         params["field_offset_T"].set(vary=False)
         params["floor_A"].set(vary=False)
-        res = _run(model, y[side], x[side], params, "linear", 1.0)
+        res = local_fit(model, y[side], x[side], params, "linear", 1.0)
         err = res.params["period_T"].stderr
         out.append((abs(res.params["period_T"].value), err))
     return out

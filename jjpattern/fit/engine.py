@@ -54,7 +54,7 @@ def robust_weight(z2, loss):
     return np.ones_like(z2)
 
 
-def _run(model, y, x, params, loss, f_scale):
+def local_fit(model, y, x, params, loss, f_scale):
     """One local fit. A robust fit ends with a weighted least-squares step at the
     robust weights (the fixed point of iteratively reweighted least squares), so
     that its covariance and reduced chi-square use the down-weighted residuals."""
@@ -109,8 +109,8 @@ def fit_pattern(
         Applied field (T) and critical current (A). Negative currents are
         taken as the magnitude of a negative branch; non-finite pairs are
         dropped and equal fields averaged.
-    geometry : {'rectangular', 'circular'}
-        Closed-form pattern to fit.
+    geometry : {'rectangular', 'circular', 'two-channel'}
+        Closed-form pattern to fit (``two-channel`` also fits the asymmetry).
     node_floor : {'auto', 'on', 'off'}
         Fit a floor in quadrature for lifted nodes; ``auto`` keeps it only when
         it improves the fit beyond ``FLOOR_DCHI2``.
@@ -159,7 +159,7 @@ def fit_pattern(
         period_T=best.period_T,
         field_offset_T=best.field_offset_T,
     )
-    result = _run(model, y, x, params, loss, f_scale)
+    result = local_fit(model, y, x, params, loss, f_scale)
     offset = _value(result, "field_offset_T")
     if not x[0] <= offset <= x[-1] or _nodes_in_window(
             geometry, x, abs(_value(result, "period_T")), offset) < MIN_NODES:
@@ -167,7 +167,7 @@ def fit_pattern(
         if far is not None:
             start = model.make_params(ic0_A=far.amplitude_A, period_T=far.period_T,
                                       field_offset_T=far.field_offset_T)
-            alt = _run(model, y, x, start, loss, f_scale)
+            alt = local_fit(model, y, x, start, loss, f_scale)
             if _chisq(alt) < _chisq(result):
                 result = alt
     floor_evidence = None
@@ -175,7 +175,7 @@ def fit_pattern(
         with_floor = result.params.copy()
         ic0 = abs(_value(result, "ic0_A"))
         with_floor["floor_A"].set(value=max(best.background_A, 0.05 * ic0), vary=True)
-        floored = _run(model, y, x, with_floor, loss, f_scale)
+        floored = local_fit(model, y, x, with_floor, loss, f_scale)
         gain = (_chisq(result) - _chisq(floored)) / (_chisq(floored) / max(floored.nfree, 1))
         if node_floor == "on" or gain > FLOOR_DCHI2:
             result = floored
@@ -242,7 +242,7 @@ def _check_lobe_assignment(model, y, x, result, loss, f_scale, geometry):
         tried.add(k)
         params = fits[current].params.copy()
         params["field_offset_T"].set(value=origin + k * period)
-        alt = _run(model, y, x, params, loss, f_scale)
+        alt = local_fit(model, y, x, params, loss, f_scale)
         j = lobe(alt)
         if j not in fits or _chisq(alt) < _chisq(fits[j]):
             fits[j] = alt
