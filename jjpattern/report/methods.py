@@ -157,8 +157,11 @@ def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
         out.append(f"{outliers} points lay more than four noise units from the fit and were "
                    "down-weighted by the robust loss.")
     seed = analysis.settings.get("diagnostics", {}).get("seed")
+    by_method = {}
     for branch, d in analysis.current_density.items():
-        if d["method"] == "symmetric":
+        by_method.setdefault(d["method"], []).append((branch, d))
+    for method, items in by_method.items():
+        if method == "symmetric":
             how = ("assuming a symmetric profile, flipping the sign of the pattern at each "
                    "node and inverting the Fourier transform [df]")
         else:
@@ -167,12 +170,15 @@ def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
                    "J(x) and J(-x) cannot be told apart")
             cited.append("fienup")
         cited.append("df")
-        out.append(f"The current density of the {branch} branch was reconstructed {how}, "
-                   f"with a Tukey window (alpha 0.4) and a 68 % band from {d['resamples']} "
-                   f"resamplings of the noise (seed {seed}); the resolution is "
-                   f"{d['resolution_over_length']:.3f} of "
-                   f"the junction length and the outer 10 % on each side carry "
-                   f"{d['edge_fraction']:.3f} of the current (0.2 for a uniform junction).")
+        names = " and ".join(b for b, _ in items)
+        first = items[0][1]
+        edges = ", ".join(f"{d['edge_fraction']:.3f} ({b})" for b, d in items)
+        out.append(f"The current density of the {names} branch{'es' if len(items) > 1 else ''}"
+                   f" was reconstructed {how}, with a Tukey window (alpha 0.4) and a 68 % band "
+                   f"from {first['resamples']} resamplings of the noise (seed {seed}); the "
+                   f"resolution is {first['resolution_over_length']:.3f} of the junction "
+                   f"length and the outer 10 % on each side carry {edges} of the current "
+                   "(0.2 for a uniform junction).")
     if analysis.icrn and "ambegaokar_baratoff_V" in analysis.icrn:
         icrn = analysis.icrn
         out.append(f"The IcRn product is {format_measure(icrn['icrn_V'], None, VOLTAGE_UNITS)}"
