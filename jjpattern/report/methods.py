@@ -173,9 +173,11 @@ def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
         names = " and ".join(b for b, _ in items)
         first = items[0][1]
         edges = ", ".join(f"{d['edge_fraction']:.3f} ({b})" for b, d in items)
-        out.append(f"The current density of the {names} branch{'es' if len(items) > 1 else ''}"
-                   f" was reconstructed {how}, with a Tukey window (alpha 0.4) and a 68 % band "
-                   f"from {first['resamples']} resamplings of the noise (seed {seed}); the "
+        plural = len(items) > 1
+        out.append(f"The current density of the {names} branch{'es' if plural else ''} "
+                   f"{'were' if plural else 'was'} reconstructed {how}, with a Tukey window "
+                   f"(alpha 0.4) and a 68 % band from {first['resamples']} resamplings of "
+                   f"the noise (seed {seed}); the "
                    f"resolution is {first['resolution_over_length']:.3f} of the junction "
                    f"length and the outer 10 % on each side carry {edges} of the current "
                    "(0.2 for a uniform junction).")
