@@ -262,3 +262,44 @@ def test_mismatched_map_shapes_exit_2(tmp_path, capsys, shape_bias, message):
         f.create_dataset("voltage", data=np.zeros((12, 9))).attrs["units"] = "uV"
     assert main(["analyze", str(tmp_path / "bad.h5")]) == 2
     assert message in capsys.readouterr().err
+
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+from hypothesis.extra.numpy import arrays  # noqa: E402
+
+
+@settings(max_examples=60, deadline=None)
+@given(signal=arrays(np.float64, st.tuples(st.integers(1, 30), st.integers(1, 40)),
+                     elements=st.floats(-1e-3, 1e-3) | st.just(np.nan)),
+       kind=st.sampled_from(["voltage", "dvdi"]),
+       criterion=st.sampled_from(["auto", "voltage", "dvdi-peak", "dvdi-threshold",
+                                  "resistance"]))
+def test_any_map_extracts_or_gives_input_error(signal, kind, criterion):
+    # Property: whatever the numbers, extraction answers or explains; it never crashes.
+    n_field, n_bias = signal.shape
+    bias = np.linspace(-1e-5, 1e-5, n_bias)
+    ivmap = IVMap("fuzz", None, np.linspace(-1e-3, 1e-3, n_field),
+                  np.broadcast_to(bias, signal.shape), signal, kind)
+    try:
+        result = extract(ivmap, criterion=criterion)
+    except InputError:
+        return
+    for branch in result.branches:
+        ok = branch.status == "ok"
+        assert np.all(np.isfinite(branch.ic_A[ok]))
+        assert np.all(np.isnan(branch.ic_A[~ok]))
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(rows=st.lists(st.tuples(st.sampled_from([0.0, 0.5, 1.0]),
+                               st.floats(-10, 10, width=32),
+                               st.floats(-10, 10, width=32) | st.just(np.nan)), max_size=80))
+def test_any_long_table_loads_or_gives_input_error(tmp_path, rows):
+    path = tmp_path / "long.csv"
+    path.write_text("B (mT),I (uA),V (uV)\n" + "".join(f"{a},{b},{c}\n" for a, b, c in rows))
+    try:
+        extract(load_map(path))
+    except InputError:
+        pass

@@ -8,6 +8,7 @@ censored rather than given a number.
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -127,6 +128,19 @@ def _hysteretic(branches) -> bool:
 
 def extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None = None
             ) -> Extraction:
+    """Extract Ic+ and Ic- from every field row of ``ivmap``; see :func:`_extract`.
+
+    Rows that are all missing or empty slices are expected here and end as
+    censored rows or NaN, so numpy's warnings about them are silenced.
+    """
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        with np.errstate(all="ignore"):
+            return _extract(ivmap, criterion=criterion, threshold=threshold)
+
+
+def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None = None
+             ) -> Extraction:
     """Extract Ic+ and Ic- from every field row of ``ivmap``.
 
     Parameters
