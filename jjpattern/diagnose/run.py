@@ -9,9 +9,9 @@ import numpy as np
 from ..fit.engine import local_fit
 from ..fit.models import MODELS
 from ..physics import geometry as geo
-from ..physics.patterns import PATTERNS, node_flux
+from ..physics.patterns import node_flux
 from .reconstruct import reconstruct
-from .shape import branch_flags, drift_flag, long_junction_flag, shape_flags
+from .shape import branch_flags, drift_flag, lifted_floor_A, long_junction_flag, shape_flags
 
 
 @dataclass
@@ -53,15 +53,8 @@ def _half_periods(fit):
 
 
 def _density(fit, method, rng, resamples):
-    d = reconstruct(fit.field_T, fit.ic_A, fit.period_T, fit.field_offset_T, fit.noise_A, rng,
-                    method=method, resamples=resamples)
-    # The same pipeline on the ideal pattern of this geometry, sampled identically, is the
-    # reference that the edge fraction is judged against (it carries the same resolution).
-    ideal = PATTERNS[fit.model](fit.field_T, fit.best_params["ic0_A"], fit.period_T,
-                                fit.field_offset_T)
-    ref = reconstruct(fit.field_T, ideal, fit.period_T, fit.field_offset_T, fit.noise_A,
-                      np.random.default_rng(0), method=method, resamples=2)
-    return d, ref
+    return reconstruct(fit.field_T, fit.ic_A, fit.period_T, fit.field_offset_T, fit.noise_A,
+                       rng, method=method, resamples=resamples)
 
 
 def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
@@ -117,18 +110,15 @@ def diagnose(analysis, *, seed=0, resamples=200, geometry: GeometryInputs | None
     for fit in analysis.fits:
         if fit.period_T is None:
             continue
-        first = shape_flags(fit, criterion_floor_A=criterion_floor_A)
+        density = None
         centred = (fit.field_offset_T is not None
                    and fit.field_T[0] < fit.field_offset_T < fit.field_T[-1])
         if centred:
-            lifted = any(f.code == "nodes-lifted" for f in first)
-            method = "support" if lifted else "symmetric"
-            density, ref = _density(fit, method, rng, resamples)
+            # Lifted nodes mean an asymmetric profile: then do not assume symmetry.
+            lifted = lifted_floor_A(fit, criterion_floor_A) is not None
+            density = _density(fit, "support" if lifted else "symmetric", rng, resamples)
             densities[fit.branch] = density
-            flags += shape_flags(fit, criterion_floor_A=criterion_floor_A, density=density,
-                                 uniform_density=ref)
-        else:
-            flags += first
+        flags += shape_flags(fit, criterion_floor_A=criterion_floor_A, density=density)
         halves = _half_periods(fit)
         if halves:
             flags += drift_flag(fit, halves)

@@ -129,20 +129,27 @@ def side_lobe_ratio(fit, max_lobes=4):
     return float(np.mean(ratios)), err, int(ratios.size)
 
 
-def shape_flags(fit, *, criterion_floor_A=0.0, density=None, uniform_density=None) -> list:
+def lifted_floor_A(fit, criterion_floor_A=0.0) -> float | None:
+    """The node floor beyond the criterion's own, when significant; else ``None``."""
+    if fit.node_floor_A is None or not fit.node_floor_stderr_A:
+        return None
+    lifted = float(np.sqrt(max(fit.node_floor_A**2 - criterion_floor_A**2, 0.0)))
+    return lifted if lifted > FLOOR_SIGMAS * fit.node_floor_stderr_A else None
+
+
+def shape_flags(fit, *, criterion_floor_A=0.0, density=None) -> list:
     """Flags for one fitted branch: lifted nodes, asymmetry, central dip, edge/centre current."""
     flags = []
     if fit.period_T is None:
         return flags
     x, y, noise = fit.field_T, fit.ic_A, fit.noise_A
-    if fit.node_floor_A is not None and fit.node_floor_stderr_A:
-        lifted = float(np.sqrt(max(fit.node_floor_A**2 - criterion_floor_A**2, 0.0)))
-        if lifted > FLOOR_SIGMAS * fit.node_floor_stderr_A:
-            flags.append(make_flag(
-                "nodes-lifted", fit.branch, node_floor_A=fit.node_floor_A,
-                criterion_floor_A=criterion_floor_A, lifted_floor_A=lifted,
-                floor_stderr_A=fit.node_floor_stderr_A, threshold_sigmas=FLOOR_SIGMAS,
-                floor_over_ic0=round(lifted / fit.best_params["ic0_A"], 4)))
+    lifted = lifted_floor_A(fit, criterion_floor_A)
+    if lifted is not None:
+        flags.append(make_flag(
+            "nodes-lifted", fit.branch, node_floor_A=fit.node_floor_A,
+            criterion_floor_A=criterion_floor_A, lifted_floor_A=lifted,
+            floor_stderr_A=fit.node_floor_stderr_A, threshold_sigmas=FLOOR_SIGMAS,
+            floor_over_ic0=round(lifted / fit.best_params["ic0_A"], 4)))
     if fit.field_offset_T is None or not (x[0] + fit.period_T < fit.field_offset_T
                                           < x[-1] - fit.period_T):
         return flags  # the centre of the pattern is not measured with a period either side
