@@ -173,16 +173,19 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     field_T = ivmap.field_T[keep]
 
     offset = noise = None
+    offsets = np.zeros(sig.shape[0])
     if ivmap.kind == "voltage":
         offsets = cr.row_offset(sig, bias)
         offsets = np.where(np.isfinite(offsets), offsets, np.nanmedian(offsets))
-        sig = np.subtract(sig, offsets[:, None])  # the one full copy of the map
         offset = float(np.nanmedian(offsets))
+        # Second differences and the slope of V(I) do not see the offset: no need to
+        # subtract it from the whole map first.
         noise = cr.zero_branch_noise(sig, bias)
     rn_rows = cr.normal_resistance(sig, bias, ivmap.kind)
     rn = float(np.nanmedian(rn_rows)) if np.isfinite(rn_rows).any() else None
 
-    quantity, level, info = _quantity(criterion, threshold, ivmap, sig, bias, noise, rn)
+    quantity, level, info = _quantity(criterion, threshold, ivmap, sig, offsets, bias, noise,
+                                      rn)
     # A dV/dI computed here is NaN near the turns of the sweep, even on a dense map.
     dense = dense and not (criterion.startswith("dvdi") and ivmap.kind == "voltage")
     branches = []
@@ -200,7 +203,7 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     return result
 
 
-def _quantity(criterion, threshold, ivmap, sig, bias, noise, rn):
+def _quantity(criterion, threshold, ivmap, sig, offsets, bias, noise, rn):
     """The quantity compared with the level, the level, and how the level was chosen."""
     if criterion == "voltage":
         if threshold is None:
@@ -210,7 +213,7 @@ def _quantity(criterion, threshold, ivmap, sig, bias, noise, rn):
             level, how = VOLTAGE_SIGMAS * noise, f"{VOLTAGE_SIGMAS:g} x zero-branch noise"
         else:
             level, how = float(threshold), "given"
-        return np.abs(sig, out=sig), level, {"value": level, "unit": "V", "chosen": how}
+        return cr.Deviation(sig, offsets), level, {"value": level, "unit": "V", "chosen": how}
     if rn is None and (threshold is None or criterion == "resistance"):
         raise InputError(f"{ivmap.path}: Rn could not be fitted from the high-bias part; "
                          "give --threshold")
@@ -218,15 +221,16 @@ def _quantity(criterion, threshold, ivmap, sig, bias, noise, rn):
         frac = RESISTANCE_FRACTION if threshold is None else float(threshold)
         # V/I is pure noise near zero bias: only voltages above the noise count.
         floor = VOLTAGE_SIGMAS * noise
-        quiet = (sig <= floor) & (sig >= -floor)
+        ratio = np.subtract(sig, offsets[:, None])  # the one full copy of the map
+        quiet = (ratio <= floor) & (ratio >= -floor)
         with np.errstate(all="ignore"):
-            ratio = np.divide(sig, bias, out=sig)  # sig is already this function's copy
+            np.divide(ratio, bias, out=ratio)
         ratio[quiet] = 0.0
         return ratio, frac * rn, {"value": frac * rn, "unit": "ohm", "fraction_of_rn": frac,
                                   "voltage_floor_V": floor,
                                   "chosen": "given" if threshold is not None else "default"}
-    # On a voltage map ``sig`` is already this function's own copy: overwrite it.
-    dvdi = sig if ivmap.kind == "dvdi" else cr.differential(sig, bias, overwrite=True)
+    # A derivative does not see the offset; it is the one new map-sized array.
+    dvdi = sig if ivmap.kind == "dvdi" else cr.differential(sig, bias)
     dvdi_noise = cr.zero_branch_noise(dvdi, bias)
     if criterion == "dvdi-peak":
         return dvdi, None, {"value": None, "unit": "ohm", "chosen": "largest dV/dI",
@@ -271,7 +275,10 @@ def _branch(name, criterion, q, level, bias, out_seg, in_seg) -> BranchExtractio
 
 def _peak_status(q, bias, candidates):
     current, found, edge = cr.peak(q, bias, candidates)
-    top = np.max(np.where(candidates, np.abs(bias), -1.0), axis=1, initial=-1.0)
+    if cr.shared(bias) and candidates.strides == (0, 0):
+        top = np.full(q.shape[0], np.max(np.abs(bias[0]), initial=-1.0))
+    else:
+        top = np.max(np.where(candidates, np.abs(bias), -1.0), axis=1, initial=-1.0)
     at_top = edge & np.isclose(current, top)
     # A peak on the largest |I| never came inside the window: censored above, not "ok".
     return current, found & ~at_top, edge & ~at_top
