@@ -151,3 +151,20 @@ def test_equal_branches_raise_no_branch_asymmetry():
     branches = (Branch("positive", "a", case.field_T, case.ic_A, 0, 0),
                 Branch("negative", "b", other.field_T, other.ic_A, 0, 0))
     assert "branch-asymmetry" not in _codes(analyze_sweep(Sweep(None, None, branches)))
+
+
+def test_geometry_numbers_carry_the_period_error():
+    rng = np.random.default_rng(9)
+    case = profile_case(rng, "uniform", lobes=5, n_points=800, noise_fraction=0.02)
+    inputs = GeometryInputs(length_m=10e-6, width_m=10e-6, barrier_m=2e-9, t1_m=300e-9)
+    analysis = _analyse(case, junction=inputs)
+    fit, geom = analysis.fits[0], analysis.geometry
+    # d' = Phi0 / (P L): its relative error is the period's.
+    assert geom["magnetic_thickness_m"] == pytest.approx(
+        geo.PHI0_WB / (fit.period_T * 10e-6), rel=1e-12)
+    assert geom["magnetic_thickness_stderr_m"] / geom["magnetic_thickness_m"] == pytest.approx(
+        fit.period_stderr_T / fit.period_T, rel=1e-3)
+    assert geom["london_depth_from_period_stderr_m"] > 0
+    # Jc = Ic0 / (L W) carries Ic0's relative error.
+    assert geom["jc_from_ic0_stderr_A_m2"] / geom["jc_from_ic0_A_m2"] == pytest.approx(
+        fit.ic0_stderr_A / fit.ic0_A, rel=1e-3)

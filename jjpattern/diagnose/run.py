@@ -58,46 +58,83 @@ def _density(fit, method, rng, resamples):
 
 
 def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
-    """Derived numbers from the measured period and whatever geometry was given."""
+    """Derived numbers from the measured period and whatever geometry was given.
+
+    Each derived number also gets a standard error (key ``..._stderr`` before its
+    unit) from the period's and Ic0's, by central differences (the geometry given
+    is taken as exact).
+    """
     given = inputs.given()
     fit = next((f for f in fits if f.period_T is not None), None)
     if not given or fit is None:
         return None
+    area = fit.effective_area_m2
+    block = _derived(fit.period_T, fit.ic0_A, area, inputs)
+    errors = {}
+    for which, err in ((0, fit.period_stderr_T), (1, fit.ic0_stderr_A)):
+        if not err or (which == 1 and fit.ic0_A is None):
+            continue
+        args = [fit.period_T, fit.ic0_A]
+        up, down = list(args), list(args)
+        up[which] += err
+        down[which] -= err
+        hi = _derived(up[0], up[1], geo.PHI0_WB / up[0], inputs)
+        lo = _derived(down[0], down[1], geo.PHI0_WB / down[0], inputs)
+        for key, value in block.items():
+            if isinstance(value, float) and isinstance(hi.get(key), float) and isinstance(
+                    lo.get(key), float):
+                errors[key] = errors.get(key, 0.0) + (0.5 * (hi[key] - lo[key])) ** 2
     out = {"inputs": given, "branch": fit.branch}
+    for key, value in block.items():
+        out[key] = value
+        if key in errors:
+            out[stderr_key(key)] = float(np.sqrt(errors[key]))
+    return out
+
+
+def stderr_key(key: str) -> str:
+    """``magnetic_thickness_m`` -> ``magnetic_thickness_stderr_m`` (the unit stays last)."""
+    for unit in ("_A_m2", "_m", "_T"):
+        if key.endswith(unit):
+            return f"{key[:-len(unit)]}_stderr{unit}"
+    return f"{key}_stderr"
+
+
+def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs) -> dict:
+    out = {}
     length = inputs.length_m
     if length:
-        out["magnetic_thickness_m"] = geo.PHI0_WB / (fit.period_T * length)
+        out["magnetic_thickness_m"] = geo.PHI0_WB / (period_T * length)
     if inputs.barrier_m is not None and inputs.t1_m and inputs.lambda1_m and length:
         dm = geo.magnetic_thickness_m(inputs.barrier_m, inputs.lambda1_m, inputs.t1_m,
                                       inputs.lambda2_m, inputs.t2_m)
         out["expected_magnetic_thickness_m"] = dm
         out["expected_period_T"] = geo.expected_period_T(length, dm)
-        out["period_over_expected"] = fit.period_T / out["expected_period_T"]
+        out["period_over_expected"] = period_T / out["expected_period_T"]
     if inputs.barrier_m is not None and inputs.t1_m and length:
-        lam = geo.london_depth_from_period(fit.period_T, length, inputs.barrier_m, inputs.t1_m,
+        lam = geo.london_depth_from_period(period_T, length, inputs.barrier_m, inputs.t1_m,
                                            inputs.t2_m, inputs.lambda2_m)
         out["london_depth_from_period_m"] = lam
         out["london_depth_assumption"] = ("lambda1 with lambda2 as given" if inputs.lambda2_m
                                           else "both electrodes share one lambda")
     jc = inputs.jc_A_m2
-    if jc is None and fit.ic0_A and length and inputs.width_m:
-        jc = fit.ic0_A / (length * inputs.width_m)
+    if jc is None and ic0_A and length and inputs.width_m:
+        jc = ic0_A / (length * inputs.width_m)
         out["jc_from_ic0_A_m2"] = jc
     lam1 = inputs.lambda1_m or out.get("london_depth_from_period_m")
     if jc and inputs.barrier_m is not None and inputs.t1_m and lam1:
         ds = geo.current_thickness_m(inputs.barrier_m, lam1, inputs.t1_m, inputs.lambda2_m,
                                      inputs.t2_m)
-        out["current_thickness_m"] = ds
+        out["current_thickness_m"] = float(ds)
         out["josephson_depth_m"] = float(geo.josephson_depth_m(jc, ds))
         if length:
             out["length_over_josephson_depth"] = length / out["josephson_depth_m"]
     if inputs.planar and inputs.width_m:
         out["planar_expected_period_T"] = geo.planar_period_T(inputs.width_m)
-        out["planar_period_over_expected"] = fit.period_T / out["planar_expected_period_T"]
+        out["planar_period_over_expected"] = period_T / out["planar_expected_period_T"]
     if inputs.planar and length and inputs.width_m:
         # Planar films focus the field: the effective area exceeds the junction's own.
-        out["focusing_factor"] = geo.focusing_factor(fit.effective_area_m2,
-                                                     length * inputs.width_m)
+        out["focusing_factor"] = geo.focusing_factor(area_m2, length * inputs.width_m)
     return out
 
 

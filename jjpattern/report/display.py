@@ -38,16 +38,30 @@ def format_measure(value, stderr, units, unit=None, digits=4) -> str:
 LENGTH_UNITS = (("m", 1.0), ("mm", 1e-3), ("µm", 1e-6), ("nm", 1e-9))
 
 
-def format_si_key(key: str, value) -> str:
+def format_si_key(key: str, value, stderr=None) -> str:
     """A derived number shown by the unit in its key (``_m``, ``_T``, ``_A_m2``)."""
     if not isinstance(value, (int, float)) or isinstance(value, bool):
         return str(value)
     if key.endswith("_A_m2"):
-        return f"{value * 1e-7:.4g} kA/cm²"
-    if key.endswith("_m"):
-        name, factor = next(((n, f) for n, f in LENGTH_UNITS if abs(value) >= f),
-                            LENGTH_UNITS[-1])
-        return f"{value / factor:.4g} {name}"
-    if key.endswith("_T"):
-        return format_measure(value, None, FIELD_UNITS)
-    return f"{value:.4g}"
+        units = (("kA/cm²", 1e7),)
+    elif key.endswith("_m"):
+        units = (next(((n, f) for n, f in LENGTH_UNITS if abs(value) >= f), LENGTH_UNITS[-1]),)
+    elif key.endswith("_T"):
+        units = (pick_unit(abs(value), FIELD_UNITS),)
+    else:
+        units = (("", 1.0),)
+    return format_measure(value, stderr, units, units[0]).strip()
+
+
+def derived_rows(block: dict) -> list:
+    """``(name, text)`` for every derived number of a geometry block, errors folded in."""
+    from ..diagnose.run import stderr_key
+
+    rows = []
+    for key, value in block.items():
+        if key in ("inputs", "branch") or "_stderr" in key:
+            continue
+        name = key.removesuffix("_A_m2").removesuffix("_m").removesuffix("_T")
+        rows.append((name.replace("_", " "), format_si_key(key, value,
+                                                           block.get(stderr_key(key)))))
+    return rows

@@ -199,8 +199,8 @@ def density_section(current_density: dict, png: bytes, files) -> tuple:
 
 def geometry_section(block: dict) -> tuple:
     """``(id, title, html)`` for the numbers derived from geometry and materials."""
-    from .display import format_si_key
+    from .display import derived_rows, format_si_key
 
     rows = [(f"given: {k}", format_si_key(k, v)) for k, v in block["inputs"].items()]
-    rows += [(k, format_si_key(k, v)) for k, v in block.items() if k != "inputs"]
+    rows += [("branch", block["branch"])] + derived_rows(block)
     return ("geometry", "Geometry and materials", _key_values(rows))

@@ -8,8 +8,8 @@ from .display import (
     CURRENT_UNITS,
     FIELD_UNITS,
     VOLTAGE_UNITS,
+    derived_rows,
     format_measure,
-    format_si_key,
     pick_unit,
 )
 
@@ -98,10 +98,8 @@ def render_summary(analysis) -> str:
     if analysis.geometry:
         lines.append("")
         lines.append("geometry and materials")
-        for key, value in analysis.geometry.items():
-            if key not in ("inputs", "branch") and isinstance(value, float):
-                name = key.replace("_A_m2", "").removesuffix("_m").removesuffix("_T")
-                lines.append(f"  {name.replace('_', ' ')}: {format_si_key(key, value)}")
+        for name, text in derived_rows(analysis.geometry):
+            lines.append(f"  {name}: {text}")
     flags = analysis.flags
     lines.append("")
     if not flags:
