@@ -65,11 +65,6 @@ class Segment:
             return sub, np.isfinite(sub)
         return a, self.mask & np.isfinite(a)
 
-    def rows(self, step):
-        """The same segment on every ``step``-th row (for estimates that need few rows)."""
-        if self.cols is not None or step == 1:
-            return self
-        return Segment(mask=self.mask[::step], all_finite=self.all_finite)
 
     def bias(self, bias_A):
         """The bias over the segment, shaped like :meth:`take`'s sub-array."""
@@ -183,12 +178,12 @@ def normal_resistance(signal, bias_A, kind, fraction=0.7):
         return cov / var
 
 
-def differential(signal, bias_A, window=7, overwrite=False):
+def differential(signal, bias_A, window=7):
     """dV/dI along each row with a Savitzky-Golay derivative (quadratic, ``window`` points).
 
     Points within half a window of a turn or an end of the sweep (where the bias
-    reverses and the derivative means nothing) are NaN. With ``overwrite`` the
-    result replaces ``signal`` in place, which keeps the peak memory at one map.
+    reverses and the derivative means nothing) are NaN. The result is the one new
+    map-sized array.
     """
     window = max(5, window | 1)
     if signal.shape[1] < window:
@@ -197,9 +192,7 @@ def differential(signal, bias_A, window=7, overwrite=False):
     dense = bool(finite.all())
     coeffs = sps.savgol_coeffs(window, 2, deriv=1, use="conv")
     source = signal if dense else _fill_nan(signal)
-    # ndimage filters a line at a time through a buffer, so writing in place is safe.
-    dv = ndimage.convolve1d(source, coeffs, axis=1, mode="nearest",
-                            output=signal if overwrite and dense else None)
+    dv = ndimage.convolve1d(source, coeffs, axis=1, mode="nearest")
     one_row = shared(bias_A)
     b = bias_A[:1] if one_row else _fill_nan(bias_A)
     db = ndimage.convolve1d(b, coeffs, axis=1, mode="nearest")

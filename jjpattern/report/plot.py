@@ -105,13 +105,13 @@ def _display_columns(bias_row):
     """Columns to draw: on each polarity the sweeps away from zero (where switching is
     read), or the sweeps back where a polarity has none; hysteresis would otherwise
     interleave two different curves at the same bias."""
-    mag = np.abs(bias_row)
-    step = np.diff(mag)
-    arriving = np.concatenate([step[:1], step])
+    from ..extract.criteria import directions
+
+    outbound, inbound = (d[0] for d in directions(bias_row[None, :]))
     keep = np.zeros(bias_row.size, dtype=bool)
     for side in (bias_row > 0, bias_row < 0):
-        out = side & (arriving > 0)
-        keep |= out if out.sum() >= 3 else side & (arriving <= 0)
+        out = side & outbound
+        keep |= out if out.sum() >= 3 else side & inbound
     keep |= bias_row == 0
     return np.flatnonzero(keep)
 
