@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .flags import make_flag
+from ..flags import make_flag
 
 #: A node floor (beyond what the extraction criterion itself adds) this many standard
 #: errors above zero means lifted nodes.

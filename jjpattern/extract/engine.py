@@ -13,8 +13,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..diagnose.flags import make_flag
 from ..errors import InputError
+from ..flags import make_flag
 from ..io.maps import IVMap
 from ..io.sweep import MIN_POINTS, Branch, Sweep
 from ..sampling import tidy

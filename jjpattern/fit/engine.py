@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..diagnose.flags import make_flag
 from ..errors import InputError
+from ..flags import make_flag
 from ..io.sweep import MIN_POINTS
 from ..physics.patterns import PERIODIC, node_flux
 from ..sampling import tidy
