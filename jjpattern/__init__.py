@@ -1,26 +1,28 @@
 """jjpattern: fit and diagnose critical-current versus field patterns of Josephson junctions.
 
-The two entry points are :func:`load` (a sweep file to arrays in SI) and
-:func:`fit_pattern` (arrays to a fit with uncertainties and flags). Heavy
-modules load on first use so that the command line starts fast.
+Entry points: :func:`analyze` (an input file and settings to a :class:`Result`),
+:class:`Result` (the result document, readable back from its JSON),
+:func:`load` (a sweep file to arrays in SI) and :func:`fit_pattern` (arrays to
+a fit). Heavy modules load on first use so that the command line starts fast.
 """
 
 __version__ = "0.1.0"
 
-__all__ = ["fit_pattern", "load", "analyze_sweep", "__version__"]
+__all__ = ["analyze", "Result", "Settings", "fit_pattern", "load", "__version__"]
+
+_LAZY = {
+    "analyze": ("pipeline", "analyze"),
+    "Result": ("result", "Result"),
+    "Settings": ("settings", "Settings"),
+    "fit_pattern": ("fit.engine", "fit_pattern"),
+    "load": ("io", "load"),
+}
 
 
 def __getattr__(name):
-    if name == "fit_pattern":
-        from .fit.engine import fit_pattern
+    if name in _LAZY:
+        import importlib
 
-        return fit_pattern
-    if name == "load":
-        from .io import load
-
-        return load
-    if name == "analyze_sweep":
-        from .analysis import analyze_sweep
-
-        return analyze_sweep
+        module, attr = _LAZY[name]
+        return getattr(importlib.import_module(f".{module}", __name__), attr)
     raise AttributeError(f"module 'jjpattern' has no attribute {name!r}")

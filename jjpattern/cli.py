@@ -1,4 +1,4 @@
-"""Command line: argument parsing only; the work happens in the layers it calls.
+"""Command line: arguments mapped onto :class:`~jjpattern.settings.Settings` in one place.
 
 Exit status: 0 analysed (flags or not), 2 bad input or usage, 1 internal error.
 """
@@ -13,9 +13,14 @@ from . import __version__
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
 
+#: Names offered on the command line; the registries check them again when used.
+MODEL_NAMES = ("rectangular", "circular", "two-channel")
+CRITERION_NAMES = ("auto", "voltage", "dvdi-peak", "dvdi-threshold", "resistance")
 
-def _add_input_options(parser: argparse.ArgumentParser) -> None:
-    group = parser.add_argument_group("reading the file")
+
+def _reading_parent() -> argparse.ArgumentParser:
+    parent = argparse.ArgumentParser(add_help=False)
+    group = parent.add_argument_group("reading the file")
     group.add_argument("--field-col", metavar="NAME",
                        help="field column (or HDF5 dataset path, or .npz key)")
     group.add_argument("--ic-col", metavar="NAME", action="append", default=[],
@@ -24,10 +29,10 @@ def _add_input_options(parser: argparse.ArgumentParser) -> None:
                        help="unit of the field column: T, mT, uT, nT, G or Oe (as mu0*H)")
     group.add_argument("--current-unit", metavar="UNIT",
                        help="unit of the current columns: A, mA, uA, nA or pA")
-
-
-def _add_map_options(parser: argparse.ArgumentParser) -> None:
-    group = parser.add_argument_group("raw V(I, B) maps")
+    group.add_argument("--coil-constant", metavar="K",
+                       help="the field axis is a magnet current; field per current, e.g. "
+                            "2.5mT/A")
+    group = parent.add_argument_group("raw V(I, B) maps")
     group.add_argument("--bias-col", metavar="NAME", help="bias-current column or dataset")
     group.add_argument("--signal-col", metavar="NAME",
                        help="voltage or dV/dI column or dataset")
@@ -38,12 +43,7 @@ def _add_map_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--field-from-name", metavar="REGEX",
                        help="folder of I-V files: read the field from each file name with "
                             "this pattern (a group named field, or the first group)")
-    group.add_argument("--coil-constant", metavar="K",
-                       help="the field axis is a magnet current; field per current, e.g. "
-                            "2.5mT/A")
-    group.add_argument("--criterion", default="auto",
-                       choices=("auto", "voltage", "dvdi-peak", "dvdi-threshold",
-                                "resistance"),
+    group.add_argument("--criterion", default="auto", choices=CRITERION_NAMES,
                        help="how Ic is read from each I-V (default: voltage for voltage "
                             "maps, dvdi-peak for dV/dI maps)")
     group.add_argument("--threshold", metavar="VALUE",
@@ -55,10 +55,12 @@ def _add_map_options(parser: argparse.ArgumentParser) -> None:
                        help="critical temperature, for a BCS gap when no gap is given")
     group.add_argument("--temperature-K", type=float, metavar="K",
                        help="measurement temperature (else metadata temperature_K)")
+    return parent
 
 
-def _add_junction_options(parser: argparse.ArgumentParser) -> None:
-    group = parser.add_argument_group(
+def _analysis_parent() -> argparse.ArgumentParser:
+    parent = argparse.ArgumentParser(add_help=False, parents=[_reading_parent()])
+    group = parent.add_argument_group(
         "junction geometry and materials (optional; also from '# key: value' metadata "
         "with the same names, e.g. '# length_um: 10')")
     group.add_argument("--length-um", type=float, metavar="UM",
@@ -73,17 +75,11 @@ def _add_junction_options(parser: argparse.ArgumentParser) -> None:
                        help="critical current density (else Ic0 / area when both are known)")
     group.add_argument("--planar", action="store_true",
                        help="a planar thin-film junction (flux-focusing period estimate)")
-    group.add_argument("--seed", type=int, default=0,
-                       help="seed of the resampled current-density band (default 0)")
-
-
-def _add_fit_options(parser: argparse.ArgumentParser) -> None:
-    _add_junction_options(parser)
-    group = parser.add_argument_group("fitting")
-    group.add_argument("--geometry", choices=("rectangular", "circular", "two-channel"),
+    group = parent.add_argument_group("fitting and diagnostics")
+    group.add_argument("--model", "--geometry", dest="model", choices=MODEL_NAMES,
                        default="rectangular",
-                       help="junction shape; two-channel is a SQUID-like pair of channels "
-                            "(default: rectangular)")
+                       help="pattern model: the junction's shape; two-channel is a SQUID-like "
+                            "pair of channels (default: rectangular)")
     group.add_argument("--node-floor", choices=("auto", "on", "off"), default="auto",
                        help="fit a floor for lifted nodes; auto keeps it when it helps "
                             "(default: auto)")
@@ -91,6 +87,9 @@ def _add_fit_options(parser: argparse.ArgumentParser) -> None:
                        default="linear",
                        help="linear is least squares; the others resist glitches and "
                             "premature switching (default: linear)")
+    group.add_argument("--seed", type=int, default=0,
+                       help="seed of the resampled current-density band (default 0)")
+    return parent
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -101,40 +100,38 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"jjpattern {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    analysis = _analysis_parent()
 
-    analyze = sub.add_parser("analyze", help="fit an Ic(B) sweep and report period, area, Ic0",
-                             description="Fit an Ic(B) sweep (CSV/TSV/text, HDF5 or .npz).")
-    analyze.add_argument("path", help="the sweep file")
+    analyze = sub.add_parser("analyze", parents=[analysis],
+                             help="fit an Ic(B) sweep and report period, area, Ic0",
+                             description="Fit an Ic(B) sweep (CSV/TSV/text, HDF5 or .npz) or "
+                                         "a raw V(I, B) map.")
+    analyze.add_argument("path", help="the sweep file, map file or folder of I-V files")
     analyze.add_argument("--json", action="store_true",
-                         help="print one JSON document instead of the summary")
+                         help="print the result document (JSON) instead of the summary")
     analyze.add_argument("--plot", metavar="FILE",
                          help="write the pattern figure (.png, .pdf or .svg)")
     analyze.add_argument("--map-plot", metavar="FILE",
                          help="raw maps: write the map with the extracted branches")
     analyze.add_argument("--report", metavar="DIR",
                          help="also write a full report (HTML, JSON, methods text, figures)")
-    _add_input_options(analyze)
-    _add_map_options(analyze)
-    _add_fit_options(analyze)
 
-    report = sub.add_parser("report", help="write a self-contained report folder",
-                            description="Analyse a sweep or raw map and write report.html, "
-                                        "result.json, methods.txt, CSV tables and figures.")
-    report.add_argument("path", help="the sweep or map")
+    report = sub.add_parser("report", parents=[analysis],
+                            help="write a self-contained report folder",
+                            description="Analyse a sweep or raw map, or take a saved "
+                                        "result.json, and write report.html, result.json, "
+                                        "methods.txt, CSV tables and figures.")
+    report.add_argument("path", help="the sweep, map, or a saved result.json")
     report.add_argument("--out", metavar="DIR", required=True, help="the report folder")
-    _add_input_options(report)
-    _add_map_options(report)
-    _add_fit_options(report)
 
-    extract = sub.add_parser("extract", help="read Ic+ and Ic- from a raw V(I, B) map",
+    extract = sub.add_parser("extract", parents=[_reading_parent()],
+                             help="read Ic+ and Ic- from a raw V(I, B) map",
                              description="Extract the critical-current branches of a raw map "
                                          "(HDF5, long text table, or a folder of I-V files).")
     extract.add_argument("path", help="the map file or folder")
     extract.add_argument("--out", metavar="FILE.csv", required=True,
                          help="where to write the extracted Ic(B) table")
     extract.add_argument("--plot", metavar="FILE", help="write the map figure")
-    _add_input_options(extract)
-    _add_map_options(extract)
 
     demo = sub.add_parser("demo", help="analyse the bundled demo sweeps",
                           description="Run the whole analysis on the bundled demo chip.")
@@ -143,77 +140,54 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _input_options(args) -> dict:
-    return {
-        "field_col": args.field_col, "ic_cols": tuple(args.ic_col),
-        "field_unit": args.field_unit, "current_unit": args.current_unit,
-    }
-
-
-def _fit_options(args) -> dict:
-    return {"geometry": args.geometry, "node_floor": args.node_floor, "loss": args.loss,
-            "seed": args.seed}
-
-
-def _junction(args, metadata: dict):
-    """Geometry inputs in SI from the options, else from the file's metadata."""
-    from .diagnose.run import GeometryInputs
+def _lengths(text, option, scale):
     from .errors import InputError
 
-    def value(option, key, scale):
-        given = getattr(args, option)
-        raw = given if given is not None else metadata.get(key)
-        if raw is None or raw == "":
-            return None
-        try:
-            parts = [float(v) for v in str(raw).split(",")]
-        except ValueError:
-            raise InputError(f"{'--' + option.replace('_', '-') if given is not None else key}"
-                             f" = {raw!r}: not a number") from None
-        return [v * scale for v in parts]
-
-    def one(option, key, scale):
-        v = value(option, key, scale)
-        return None if v is None else v[0]
-
-    electrodes = value("electrode_nm", "electrode_nm", 1e-9) or [None]
-    london = value("london_nm", "london_nm", 1e-9) or [None]
-    planar = args.planar or str(metadata.get("planar", "")).lower() in ("1", "yes", "true")
-    return GeometryInputs(
-        length_m=one("length_um", "length_um", 1e-6), width_m=one("width_um", "width_um", 1e-6),
-        barrier_m=one("barrier_nm", "barrier_nm", 1e-9),
-        t1_m=electrodes[0], t2_m=electrodes[1] if len(electrodes) > 1 else None,
-        lambda1_m=london[0], lambda2_m=london[1] if len(london) > 1 else None,
-        jc_A_m2=one("jc_kA_cm2", "jc_kA_cm2", 1e7), planar=planar)
+    try:
+        return tuple(float(v) * scale for v in str(text).split(","))
+    except ValueError:
+        raise InputError(f"{option} {text!r}: not a number; write e.g. 150 or 150,200") from None
 
 
-def _map_options(args):
-    from .io.maps import MapOptions
-    from .io.units import coil_constant_T_per_A
-
-    return MapOptions(
-        field_col=args.field_col, bias_col=args.bias_col, signal_col=args.signal_col,
-        field_unit=args.field_unit, current_unit=args.current_unit,
-        signal_unit=args.signal_unit, transpose=args.transpose,
-        field_from_name=args.field_from_name,
-        coil_T_per_A=coil_constant_T_per_A(args.coil_constant) if args.coil_constant else None,
+def settings_from_args(args):
+    """The one place where command-line options become :class:`Settings` (SI units)."""
+    from .io.units import coil_constant_T_per_A, parse_threshold
+    from .settings import (
+        DiagnoseSettings,
+        ExtractSettings,
+        FitSettings,
+        JunctionSettings,
+        ReadSettings,
+        Settings,
     )
 
+    def scaled(value, scale):
+        return None if value is None else value * scale
 
-def _extraction_options(args) -> dict:
-    from .io.units import parse_threshold
-
-    return {"criterion": args.criterion,
-            "threshold": parse_threshold(args.threshold, args.criterion)}
-
-
-def _sweep_options(args) -> dict:
-    from .io.units import coil_constant_T_per_A
-
-    options = _input_options(args)
-    if args.coil_constant:
-        options["coil_T_per_A"] = coil_constant_T_per_A(args.coil_constant)
-    return options
+    read = ReadSettings(
+        field_col=args.field_col, ic_cols=tuple(args.ic_col), field_unit=args.field_unit,
+        current_unit=args.current_unit,
+        coil_T_per_A=coil_constant_T_per_A(args.coil_constant) if args.coil_constant else None,
+        bias_col=args.bias_col, signal_col=args.signal_col, signal_unit=args.signal_unit,
+        transpose=args.transpose, field_from_name=args.field_from_name)
+    extract = ExtractSettings(
+        criterion=args.criterion, threshold=parse_threshold(args.threshold, args.criterion),
+        gap_J=scaled(args.gap_meV, 1.602176634e-22),  # 1 meV in J (e is exact in SI)
+        tc_K=args.tc_K,
+        temperature_K=args.temperature_K)
+    if not hasattr(args, "model"):  # extract: reading and extraction only
+        return Settings(read=read, extract=extract)
+    junction = JunctionSettings(
+        length_m=scaled(args.length_um, 1e-6), width_m=scaled(args.width_um, 1e-6),
+        barrier_m=scaled(args.barrier_nm, 1e-9),
+        electrode_m=_lengths(args.electrode_nm, "--electrode-nm", 1e-9)
+        if args.electrode_nm else (),
+        london_m=_lengths(args.london_nm, "--london-nm", 1e-9) if args.london_nm else (),
+        jc_A_m2=scaled(args.jc_kA_cm2, 1e7), planar=args.planar)
+    return Settings(read=read, extract=extract,
+                    fit=FitSettings(model=args.model, node_floor=args.node_floor,
+                                    loss=args.loss),
+                    diagnose=DiagnoseSettings(seed=args.seed), junction=junction)
 
 
 def _check_plots(*paths):
@@ -224,101 +198,91 @@ def _check_plots(*paths):
             check_plot_path(path)
 
 
-def _analysis(args):
-    """Load the input (sweep or raw map) and analyse it with the options given."""
-    from scipy.constants import e
-
-    from .analysis import analyze_map, analyze_sweep
-    from .io import open_input
-    from .io.maps import IVMap
-
-    data = open_input(args.path, sweep_options=_sweep_options(args),
-                      map_options=_map_options(args))
-    junction = _junction(args, data.metadata)
-    if isinstance(data, IVMap):
-        gap_J = args.gap_meV * 1e-3 * e if args.gap_meV is not None else None
-        return analyze_map(data, **_extraction_options(args), gap_J=gap_J, tc_K=args.tc_K,
-                           temperature_K=args.temperature_K, junction=junction,
-                           **_fit_options(args))
-    return analyze_sweep(data, junction=junction, **_fit_options(args))
-
-
-def _settings(args) -> dict:
-    """Options beyond the fit settings, recorded in the JSON ``settings`` block."""
-    return {"input_options": _input_options(args),
-            "map_options": {k: getattr(args, k) for k in (
-                "bias_col", "signal_col", "signal_unit", "transpose", "field_from_name",
-                "criterion", "threshold", "gap_meV", "tc_K", "temperature_K")},
-            "coil_constant": args.coil_constant,
-            "junction_options": {k: getattr(args, k) for k in (
-                "length_um", "width_um", "barrier_nm", "electrode_nm", "london_nm",
-                "jc_kA_cm2", "planar")}}
-
-
-def _write_report(analysis, args, out_dir):
-    from .report.bundle import write_report
-
-    return write_report(analysis, out_dir, args.argv, _settings(args))
+def _is_saved_result(path: str) -> bool:
+    return path.lower().endswith(".json") and os.path.isfile(path)
 
 
 def run_report(args) -> int:
-    analysis = _analysis(args)
-    paths = _write_report(analysis, args, args.out)
+    from .report.bundle import write_report
+
+    if _is_saved_result(args.path):
+        from .result import Result
+
+        result, ivmap = Result.read(args.path), None
+    else:
+        from .pipeline import analyze_input
+
+        done = analyze_input(args.path, settings_from_args(args), command=args.argv)
+        result, ivmap = done.result, done.data
+    paths = write_report(result, args.out, args.argv,
+                         ivmap=ivmap if result.extraction is not None else None)
     print(f"report written to {paths['report.html']}")
     return EXIT_OK
 
 
 def run_analyze(args) -> int:
-    from .report.jsondoc import build_document, dumps
+    from .pipeline import analyze_input
     from .report.summary import render_summary
 
     _check_plots(args.plot, args.map_plot)
-    analysis = _analysis(args)
+    done = analyze_input(args.path, settings_from_args(args), command=args.argv)
+    result = done.result
     written = []
     if args.plot:
         from .report.plot import pattern_figure, save_figure
 
-        save_figure(pattern_figure(analysis.fits, os.path.basename(args.path)), args.plot)
+        save_figure(pattern_figure(result.fits, os.path.basename(args.path)), args.plot)
         written.append(args.plot)
-    if args.map_plot and analysis.extraction is not None:
+    if args.map_plot and result.extraction is not None:
         from .report.plot import map_figure, save_figure
 
-        save_figure(map_figure(analysis.extraction), args.map_plot)
+        save_figure(map_figure(done.data, result.extraction), args.map_plot)
         written.append(args.map_plot)
-    report = _write_report(analysis, args, args.report)["report.html"] if args.report else None
+    report = None
+    if args.report:
+        from .report.bundle import write_report
+
+        report = write_report(result, args.report, args.argv,
+                              ivmap=done.data if result.extraction is not None else None)
     if args.json:
-        print(dumps(build_document(analysis, _settings(args))))
+        print(result.to_json())
     else:
-        print(render_summary(analysis))
+        print(render_summary(result))
         for path in written:
             print(f"\nfigure written to {path}")
         if report:
-            print(f"\nreport written to {report}")
+            print(f"\nreport written to {report['report.html']}")
     return EXIT_OK
 
 
 def run_extract(args) -> int:
     from .extract.engine import extract
     from .io import load_map
-
-    _check_plots(args.plot)
-    extraction = extract(load_map(args.path, _map_options(args)), **_extraction_options(args))
+    from .pipeline import _map_options, extraction_block
+    from .report.bundle import extraction_table_csv
     from .report.files import write_text
 
-    write_text(args.out, extraction.table_csv())
-    for b in extraction.branches:
-        counts = ", ".join(f"{v} {k}" for k, v in sorted(b.counts().items()))
-        print(f"{b.name} branch ({b.source}): {counts}")
-    level = extraction.threshold.get("value")
-    shown = "none" if level is None else f"{level:.4g} {extraction.threshold['unit']}"
-    rn = "not fitted" if extraction.rn_ohm is None else f"{extraction.rn_ohm:.4g} Ohm"
-    print(f"criterion {extraction.criterion}, level {shown} "
-          f"({extraction.threshold.get('chosen')}), Rn {rn}")
+    _check_plots(args.plot)
+    settings = settings_from_args(args)
+    ivmap = load_map(args.path, _map_options(settings))
+    extraction = extract(ivmap, criterion=settings.extract.criterion,
+                         threshold=settings.extract.threshold)
+    block = extraction_block(extraction)
+    write_text(args.out, extraction_table_csv(block))
+    for b in block["branches"]:
+        counts = ", ".join(f"{v} {k}" for k, v in sorted(b["status_counts"].items()))
+        print(f"{b['branch']} branch ({b['source']}): {counts}")
+    level = block["threshold"].get("value")
+    shown = "none" if level is None else f"{level:.4g} {block['threshold']['unit']}"
+    rn = block["normal_resistance_ohm"]
+    rn = "not fitted" if rn is None else f"{rn:.4g} Ohm"
+    print(f"criterion {block['criterion']}, level {shown} "
+          f"({block['threshold'].get('chosen')}), Rn {rn}")
     print(f"table written to {args.out}")
     if args.plot:
         from .report.plot import map_figure, save_figure
 
-        save_figure(map_figure(extraction), args.plot)
+        save_figure(map_figure(ivmap, block), args.plot)
         print(f"figure written to {args.plot}")
     return EXIT_OK
 

@@ -16,8 +16,8 @@ from collections import Counter
 
 import numpy as np
 
-from jjpattern.analysis import analyze_sweep
 from jjpattern.io.sweep import Branch, Sweep
+from jjpattern.pipeline import analyze_data as analyze_sweep
 from jjpattern.synthetic import profile_case
 
 SHAPE_FLAGS = ("nodes-lifted", "edge-current", "center-current", "central-minimum",

@@ -25,8 +25,9 @@ def demo():
 def test_analyze_json_is_one_document_with_the_contract(demo, capsys):
     assert main(["analyze", demo["kt14_j03.csv"], "--json", "--loss", "cauchy"]) == 0
     doc = json.loads(capsys.readouterr().out)
-    assert set(doc) == {"input", "fits", "flags", "tool", "settings", "generated_utc",
-                        "current_density", "geometry"}
+    assert set(doc) == {"schema_version", "input", "fits", "flags", "tool", "settings",
+                        "settings_sha256", "method", "generated_utc", "current_density",
+                        "geometry", "provenance"}
     # The demo file's metadata gives the geometry: d' = Phi0 / (period * L), L = 12 um.
     geometry = doc["geometry"]
     fit = doc["fits"][0]
@@ -40,8 +41,9 @@ def test_analyze_json_is_one_document_with_the_contract(demo, capsys):
         assert FIT_KEYS <= set(fit)
         # The demo generator used 0.731 mT; allow 4 standard errors.
         assert abs(fit["period_T"] - 0.731e-3) < 4 * fit["period_stderr_T"]
-    assert doc["settings"]["loss"] == "cauchy"
-    assert doc["settings"]["input_options"]["ic_cols"] == []
+    assert doc["settings"]["fit"]["loss"] == "cauchy"
+    assert doc["settings"]["read"]["ic_cols"] == []
+    assert doc["provenance"]["command"].startswith("jjpattern analyze ")
 
 
 def test_summary_reads_like_a_physicist_wrote_it(demo, capsys):

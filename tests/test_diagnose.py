@@ -7,18 +7,18 @@ trapezoid integral independent of the Simpson rule in the forward model.
 import numpy as np
 import pytest
 
-from jjpattern.analysis import analyze_sweep
 from jjpattern.diagnose.reconstruct import node_signs, reconstruct
-from jjpattern.diagnose.run import GeometryInputs
 from jjpattern.diagnose.shape import LONG_RATIO
 from jjpattern.io.sweep import Branch, Sweep
 from jjpattern.physics import geometry as geo
+from jjpattern.pipeline import analyze_data as analyze_sweep
+from jjpattern.settings import JunctionSettings, Settings
 from jjpattern.synthetic import PROFILES, profile_case
 
 
-def _analyse(case, **kw):
+def _analyse(case, junction=None):
     sweep = Sweep(None, None, (Branch("positive", "ic", case.field_T, case.ic_A, 0, 0),))
-    return analyze_sweep(sweep, **kw)
+    return analyze_sweep(sweep, Settings(junction=junction or JunctionSettings()))
 
 
 def _codes(analysis):
@@ -135,8 +135,8 @@ def test_long_junction_from_geometry_and_jc():
     ds = geo.current_thickness_m(2e-9, 90e-9, 200e-9)
     lam_j = geo.josephson_depth_m(1e8, ds)  # 10 kA/cm^2
     for length, expect in ((0.5 * lam_j, False), (3 * lam_j, True)):
-        inputs = GeometryInputs(length_m=length, width_m=length, barrier_m=2e-9,
-                                t1_m=200e-9, lambda1_m=90e-9, jc_A_m2=1e8)
+        inputs = JunctionSettings(length_m=length, width_m=length, barrier_m=2e-9,
+                                  electrode_m=(200e-9,), london_m=(90e-9,), jc_A_m2=1e8)
         analysis = _analyse(case, junction=inputs)
         assert ("long-junction" in _codes(analysis)) is expect
         assert analysis.geometry["length_over_josephson_depth"] == pytest.approx(
@@ -156,7 +156,8 @@ def test_equal_branches_raise_no_branch_asymmetry():
 def test_geometry_numbers_carry_the_period_error():
     rng = np.random.default_rng(9)
     case = profile_case(rng, "uniform", lobes=5, n_points=800, noise_fraction=0.02)
-    inputs = GeometryInputs(length_m=10e-6, width_m=10e-6, barrier_m=2e-9, t1_m=300e-9)
+    inputs = JunctionSettings(length_m=10e-6, width_m=10e-6, barrier_m=2e-9,
+                              electrode_m=(300e-9,))
     analysis = _analyse(case, junction=inputs)
     fit, geom = analysis.fits[0], analysis.geometry
     # d' = Phi0 / (P L): its relative error is the period's.

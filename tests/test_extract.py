@@ -11,12 +11,12 @@ import h5py
 import numpy as np
 import pytest
 
-from jjpattern.analysis import analyze_map
 from jjpattern.cli import main
 from jjpattern.errors import InputError
 from jjpattern.extract.engine import extract
 from jjpattern.io import load, load_map
 from jjpattern.io.maps import IVMap, MapOptions
+from jjpattern.pipeline import analyze_data as analyze_map
 from jjpattern.synthetic import bias_sweep, ideal, rsj_map
 
 RN = 12.0
@@ -58,7 +58,8 @@ def test_fit_after_extraction_recovers_period_and_ic0():
     assert pos.ic0_A == pytest.approx(10e-6, rel=0.02)
     assert pos.field_offset_T == pytest.approx(0.1e-3, abs=0.01e-3)
     # The threshold reads sqrt(Ic^2 + (V_th/Rn)^2): the fitted floor is V_th / Rn.
-    expected_floor = analysis.extraction.threshold["value"] / analysis.extraction.rn_ohm
+    expected_floor = (analysis.extraction["threshold"]["value"]
+                      / analysis.extraction["normal_resistance_ohm"])
     assert pos.node_floor_A == pytest.approx(expected_floor, rel=0.2)
 
 

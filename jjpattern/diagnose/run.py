@@ -10,6 +10,7 @@ from ..fit.engine import local_fit
 from ..fit.models import MODELS
 from ..physics import geometry as geo
 from ..physics.patterns import node_flux
+from ..result import stderr_key
 from .reconstruct import reconstruct
 from .shape import branch_flags, drift_flag, lifted_floor_A, long_junction_flag, shape_flags
 
@@ -92,14 +93,6 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
     return out
 
 
-def stderr_key(key: str) -> str:
-    """``magnetic_thickness_m`` -> ``magnetic_thickness_stderr_m`` (the unit stays last)."""
-    for unit in ("_A_m2", "_m", "_T"):
-        if key.endswith(unit):
-            return f"{key[:-len(unit)]}_stderr{unit}"
-    return f"{key}_stderr"
-
-
 def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs) -> dict:
     out = {}
     length = inputs.length_m
@@ -138,13 +131,16 @@ def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs) -> dict:
     return out
 
 
-def diagnose(analysis, *, seed=0, resamples=200, geometry: GeometryInputs | None = None,
-             criterion_floor_A=0.0) -> None:
-    """Add current densities, shape flags and the geometry block to ``analysis`` in place."""
+def diagnose(fits, *, seed=0, resamples=200, geometry: GeometryInputs | None = None,
+             criterion_floor_A=0.0) -> dict:
+    """Current densities, shape flags and the geometry block of fitted branches.
+
+    Returns ``{"current_density": {branch: ...}, "geometry": dict | None, "flags": [...]}``.
+    """
     rng = np.random.default_rng(seed)
     densities = {}
     flags = []
-    for fit in analysis.fits:
+    for fit in fits:
         if fit.period_T is None:
             continue
         density = None
@@ -159,12 +155,9 @@ def diagnose(analysis, *, seed=0, resamples=200, geometry: GeometryInputs | None
         halves = _half_periods(fit)
         if halves:
             flags += drift_flag(fit, halves)
-    flags += branch_flags(analysis.fits)
-    block = geometry_block(analysis.fits, geometry or GeometryInputs())
+    flags += branch_flags(fits)
+    block = geometry_block(fits, geometry or GeometryInputs())
     if block and "length_over_josephson_depth" in block:
         flags += long_junction_flag(block["branch"], geometry.length_m,
                                     block["josephson_depth_m"])
-    analysis.current_density = densities
-    analysis.geometry = block
-    analysis.diagnostic_flags = flags
-    analysis.settings["diagnostics"] = {"seed": seed, "resamples": resamples}
+    return {"current_density": densities, "geometry": block, "flags": flags}

@@ -1,7 +1,8 @@
-"""Write a whole report folder: HTML, JSON, methods text, CSV tables and figures.
+"""Write a whole report folder from a :class:`~jjpattern.result.Result`.
 
 File names are the same every time, so a paper's figure can be regenerated in
-place; every file is written atomically.
+place; every file is written atomically. Everything renders from the result
+document alone except the raw-map figure, which needs the map itself.
 """
 
 from __future__ import annotations
@@ -12,11 +13,8 @@ import os
 import numpy as np
 
 from .files import write_text
-from .jsondoc import build_document, dumps
 from .methods import methods_paragraph
-from .provenance import provenance, versions
-
-FIGURE_FORMATS = (".png", ".pdf", ".svg")
+from .provenance import provenance
 
 
 def fit_table_csv(fits) -> str:
@@ -31,73 +29,83 @@ def fit_table_csv(fits) -> str:
     return "\n".join(lines) + "\n"
 
 
-def field_calibration_text(analysis, settings: dict) -> str:
+def extraction_table_csv(block: dict) -> str:
+    """The extracted Ic(B) table, SI units in the header, censored values left empty."""
+    cols = ["field_T"]
+    data = [block["field_T"]]
+    for b in block["branches"]:
+        short = "pos" if b["branch"] == "positive" else "neg"
+        cols += [f"ic_{short}_A", f"status_{short}", f"iretrap_{short}_A"]
+        data += [b["ic_A"], b["status"], b["retrap_A"]]
+
+    def cell(v):
+        if isinstance(v, str):
+            return v
+        return "" if v is None or not np.isfinite(v) else repr(float(v))
+
+    rows = zip(*data, strict=True)
+    return "\n".join([",".join(cols)] + [",".join(map(cell, row)) for row in rows]) + "\n"
+
+
+def field_calibration_text(result) -> str:
     """One sentence on how the field axis was obtained."""
-    column = analysis.sweep.field_column
-    coil = settings.get("coil_constant")
-    if analysis.extraction is not None:
-        column = "field"
+    column = "field" if result.extraction is not None else result.input.get("field_column")
+    coil = result.settings.read.coil_T_per_A
     if coil:
         return (f"The field was computed from the magnet current ({column!r}) with a coil "
-                f"constant of {coil}; no further calibration was applied.")
+                f"constant of {coil * 1e3:.6g} mT/A; no further calibration was applied.")
     return (f"The field axis is the applied field as recorded ({column!r}), converted to "
             "tesla; no further calibration was applied.")
 
 
-def write_report(analysis, out_dir: str, argv, extra_settings: dict | None = None) -> dict:
-    """Write the report folder and return ``{name: path}`` of everything written."""
-    from .html import render_html
+def write_report(result, out_dir: str, argv, ivmap=None) -> dict:
+    """Write the report folder and return ``{name: path}`` of everything written.
+
+    ``ivmap`` is the raw map the result was extracted from, when at hand; without
+    it the report says that the map figure needs the input file.
+    """
+    from .html import density_section, geometry_section, render_html
     from .plot import density_figure, map_figure, pattern_figure, save_figure
 
     os.makedirs(out_dir, exist_ok=True)
-    document = build_document(analysis, extra_settings)
+    formats = tuple(result.settings.report.figure_formats)
+    dpi = result.settings.report.dpi
     paths = {}
 
     def path(name):
         paths[name] = os.path.join(out_dir, name)
         return paths[name]
 
-    title = analysis.sweep.metadata.get("junction", os.path.basename(str(analysis.sweep.path)))
-    pattern_files = [path(f"pattern{s}") for s in FIGURE_FORMATS]
-    save_figure(pattern_figure(analysis.fits, str(title)), *pattern_files)
-    with open(pattern_files[0], "rb") as handle:
-        pattern_png = handle.read()
-    map_png = None
-    map_files = []
-    if analysis.extraction is not None:
-        map_files = [path(f"map{s}") for s in FIGURE_FORMATS]
-        save_figure(map_figure(analysis.extraction), *map_files)
-        with open(map_files[0], "rb") as handle:
-            map_png = handle.read()
-        write_text(path("extraction.csv"), analysis.extraction.table_csv())
+    def figure(fig, stem):
+        files = [path(f"{stem}{s}") for s in formats]
+        return save_figure(fig, *files, dpi=dpi, png_bytes=True), [
+            os.path.basename(f) for f in files]
+
+    pattern_png, pattern_files = figure(pattern_figure(result.fits, result.title), "pattern")
+    map_png, map_files = None, []
+    if result.extraction is not None:
+        if ivmap is not None:
+            map_png, map_files = figure(map_figure(ivmap, result.extraction), "map")
+        write_text(path("extraction.csv"), extraction_table_csv(result.extraction))
 
     extra_sections = []
-    if analysis.current_density:
-        from .html import density_section, geometry_section
-
-        density_files = [path(f"current_density{s}") for s in FIGURE_FORMATS]
-        save_figure(density_figure(analysis.current_density), *density_files)
-        with open(density_files[0], "rb") as handle:
-            extra_sections.append(density_section(
-                analysis.current_density, handle.read(),
-                [os.path.basename(p) for p in density_files]))
-        if analysis.geometry:
-            extra_sections.append(geometry_section(analysis.geometry))
-    write_text(path("result.json"), dumps(document) + "\n")
-    write_text(path("fit.csv"), fit_table_csv(analysis.fits))
-    methods = methods_paragraph(analysis, versions(),
-                                field_calibration_text(analysis, document["settings"]))
+    if result.current_density:
+        png, files = figure(density_figure(result.current_density), "current_density")
+        extra_sections.append(density_section(result.current_density, png, files))
+    if result.geometry:
+        extra_sections.append(geometry_section(result.geometry))
+    write_text(path("result.json"), result.to_json() + "\n")
+    write_text(path("fit.csv"), fit_table_csv(result.fits))
+    methods = methods_paragraph(result, field_calibration_text(result))
     write_text(path("methods.txt"), methods)
-    prov = provenance(document, argv)
+    prov = provenance(result, argv)
     write_text(path("provenance.json"), json.dumps(prov, indent=2, ensure_ascii=False) + "\n")
     prov["settings_json"] = json.dumps(prov["settings"], indent=2, ensure_ascii=False)
 
     names = sorted([*map(os.path.basename, paths.values()), "report.html"])
     page = render_html(
-        analysis, document, pattern_png=pattern_png, map_png=map_png, methods=methods,
-        provenance=prov, files={"pattern": [os.path.basename(p) for p in pattern_files],
-                                "map": [os.path.basename(p) for p in map_files],
-                                "all": names},
+        result, pattern_png=pattern_png, map_png=map_png, methods=methods, provenance=prov,
+        files={"pattern": pattern_files, "map": map_files, "all": names},
         extra_sections=extra_sections)
     write_text(path("report.html"), page)
     return paths

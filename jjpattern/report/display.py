@@ -55,7 +55,7 @@ def format_si_key(key: str, value, stderr=None) -> str:
 
 def derived_rows(block: dict) -> list:
     """``(name, text)`` for every derived number of a geometry block, errors folded in."""
-    from ..diagnose.run import stderr_key
+    from ..result import stderr_key
 
     rows = []
     for key, value in block.items():

@@ -96,19 +96,20 @@ def _number(value, unit="") -> str:
     return "not determined" if value is None else f"{value:.4g} {unit}".strip()
 
 
-def _extraction_rows(ex) -> list:
-    level = ex.threshold.get("value")
-    rows = [("criterion", ex.criterion),
-            ("level", f"{_number(level, ex.threshold.get('unit', ''))} "
-                      f"({ex.threshold.get('chosen')})"),
-            ("normal resistance", _number(ex.rn_ohm, "Ω")),
-            ("amplifier offset", _number(ex.offset_V, "V")),
-            ("rows skipped (mostly missing)", ex.rows_skipped)]
-    for b in ex.branches:
-        counts = ", ".join(f"{v} {k}" for k, v in sorted(b.counts().items()))
-        ratio = "" if b.retrapping_ratio is None else (
-            f"; retrapping/switching {b.retrapping_ratio:.3f}")
-        rows.append((f"{b.name} branch", f"{b.source}; {counts}{ratio}"))
+def _extraction_rows(ex: dict) -> list:
+    threshold = ex["threshold"]
+    level = threshold.get("value")
+    rows = [("criterion", ex["criterion"]),
+            ("level", f"{_number(level, threshold.get('unit', ''))} "
+                      f"({threshold.get('chosen')})"),
+            ("normal resistance", _number(ex["normal_resistance_ohm"], "Ω")),
+            ("amplifier offset", _number(ex["amplifier_offset_V"], "V")),
+            ("rows skipped (mostly missing)", ex["rows_skipped"])]
+    for b in ex["branches"]:
+        counts = ", ".join(f"{v} {k}" for k, v in sorted(b["status_counts"].items()))
+        ratio = b["retrapping_over_switching"]
+        ratio = "" if ratio is None else f"; retrapping/switching {ratio:.3f}"
+        rows.append((f"{b['branch']} branch", f"{b['source']}; {counts}{ratio}"))
     return rows
 
 
@@ -118,7 +119,7 @@ def _figure(png: bytes, caption: str, files) -> str:
             f"<figcaption>{esc(caption)} Also as {links}.</figcaption></figure>")
 
 
-def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes | None,
+def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
                 methods: str, provenance: dict, files: dict, extra_sections=()) -> str:
     """The whole report page.
 
@@ -126,8 +127,8 @@ def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes 
     sequence of ``(id, title, html)`` that later stages (reconstruction,
     geometry) add after the figures.
     """
-    meta = analysis.sweep.metadata
-    title = meta.get("junction") or document["input"]["path"]
+    meta = result.metadata
+    title = meta.get("junction") or result.input["path"]
     meta_line = " · ".join(f"{esc(k)}: {esc(v)}" for k, v in meta.items())
     parts = [
         "<!DOCTYPE html>",
@@ -136,28 +137,31 @@ def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes 
         f"<title>jjpattern report: {esc(title)}</title><style>{_CSS}</style></head><body>",
         f"<h1>Interference pattern of {esc(title)}</h1>",
         f'<p class="meta">{meta_line}</p>',
-        f'<p class="meta">Input <code>{esc(document["input"]["path"])}</code>, '
-        f'{esc(document["input"]["points_used"])} points used. '
-        f'Generated {esc(document.get("generated_utc"))} by jjpattern '
-        f'{esc(document["tool"]["version"])}.</p>',
+        f'<p class="meta">Input <code>{esc(result.input["path"])}</code>, '
+        f'{esc(result.input["points_used"])} points used. '
+        f'Generated {esc(result.generated_utc)} by jjpattern '
+        f'{esc(result.tool["version"])}.</p>',
         '<section id="headline"><h2>Headline numbers</h2>',
-        _headline_rows(analysis.fits),
-        f"<p class=meta>Model: {esc(analysis.fits[0].model)} junction. "
+        _headline_rows(result.fits),
+        f"<p class=meta>Model: {esc(result.fits[0].model)} junction. "
         "Uncertainties are one standard error. Effective area = Φ0 / period. "
         "Reduced χ² is against the point-to-point noise of the data.</p></section>",
-        '<section id="flags"><h2>Diagnostic flags</h2>', _flags(analysis.flags), "</section>",
+        '<section id="flags"><h2>Diagnostic flags</h2>', _flags(result.flags), "</section>",
         '<section id="pattern"><h2>Pattern, fit and residuals</h2>',
         _figure(pattern_png, "Critical current against applied field (bottom axis) and "
                 "flux Φ/Φ0 (top axis), with the fit and its residuals.", files["pattern"]),
         "</section>",
     ]
-    if map_png is not None:
-        ex = analysis.extraction
+    if result.extraction is not None:
+        figure = (_figure(map_png, "The measured map with the extracted switching (dots) and "
+                          "retrapping (crosses) currents.", files["map"])
+                  if map_png is not None else
+                  "<p>The raw-map figure is not in this report: it was rebuilt from a saved "
+                  "result, which holds the extracted currents but not the map itself. Run "
+                  "the report on the input file to draw it.</p>")
         parts += [
-            '<section id="map"><h2>Raw map and extraction</h2>',
-            _figure(map_png, "The measured map with the extracted switching (dots) and "
-                    "retrapping (crosses) currents.", files["map"]),
-            _key_values(_extraction_rows(ex)),
+            '<section id="map"><h2>Raw map and extraction</h2>', figure,
+            _key_values(_extraction_rows(result.extraction)),
             "</section>",
         ]
     for sid, heading, body in extra_sections:
@@ -166,7 +170,8 @@ def render_html(analysis, document: dict, *, pattern_png: bytes, map_png: bytes 
         '<section id="methods"><h2>Methods</h2>',
         f'<p class="methods">{esc(methods)}</p></section>',
         '<section id="provenance"><h2>Provenance</h2>',
-        _key_values([("command", provenance["command"]),
+        _key_values([("command", provenance["command"] or "not recorded"),
+                     ("report command", provenance["report_command"]),
                      ("input", provenance["input_path"]),
                      ("input SHA-256", provenance["input_sha256"])]
                     + [(name, v) for name, v in provenance["versions"].items()]),

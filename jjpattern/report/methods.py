@@ -43,46 +43,47 @@ def _junction(meta: dict) -> str:
     return f"{name} ({context})" if context else name
 
 
-def _extraction_text(analysis, cited) -> str:
-    ex = analysis.extraction
-    n_f, n_b = ex.ivmap.shape
-    level = ex.threshold.get("value")
-    what = f"a {n_f} x {n_b} {'voltage' if ex.ivmap.kind == 'voltage' else 'dV/dI'} map"
-    if ex.criterion == "voltage":
+def _extraction_text(ex: dict, cited) -> str:
+    n_f, n_b = ex["map_shape"]
+    threshold = ex["threshold"]
+    level = threshold.get("value")
+    criterion = ex["criterion"]
+    what = f"a {n_f} x {n_b} {'voltage' if ex['signal'] == 'voltage' else 'dV/dI'} map"
+    if criterion == "voltage":
         rule = (f"the first bias current, on sweeps away from zero bias, at which |V - V0| "
                 f"exceeded {format_measure(level, None, VOLTAGE_UNITS, digits=3)} "
-                f"({ex.threshold['chosen']}), interpolated linearly between the two "
+                f"({threshold['chosen']}), interpolated linearly between the two "
                 "straddling points; the amplifier offset V0 was estimated in each field row "
                 "as the median voltage near zero bias and removed")
-    elif ex.criterion == "resistance":
+    elif criterion == "resistance":
         rule = (f"the first bias current at which V/I exceeded "
-                f"{ex.threshold['fraction_of_rn']:g} Rn, with Rn from a linear fit of the "
+                f"{threshold['fraction_of_rn']:g} Rn, with Rn from a linear fit of the "
                 "high-bias part of each I-V curve")
-    elif ex.criterion == "dvdi-threshold":
+    elif criterion == "dvdi-threshold":
         rule = f"the first bias current at which dV/dI exceeded {level:.3g} ohm"
     else:
         rule = "the bias current of the largest dV/dI, refined by a parabola through 3 points"
     text = f"Critical currents were extracted from {what} as {rule}."
-    if ex.ivmap.kind == "voltage" and ex.criterion.startswith("dvdi"):
+    if ex["signal"] == "voltage" and criterion.startswith("dvdi"):
         text += (" dV/dI was computed with a 7-point quadratic Savitzky-Golay derivative "
                  "[sg].")
         cited.append("sg")
     censored = {}
-    for b in ex.branches:
+    for b in ex["branches"]:
         for key in ("above-max", "below-step"):
-            censored[key] = censored.get(key, 0) + b.counts().get(key, 0)
+            censored[key] = censored.get(key, 0) + b["status_counts"].get(key, 0)
     if censored.get("above-max") or censored.get("below-step"):
         text += (f" Field rows in which the junction did not switch within the bias window "
                  f"({censored.get('above-max', 0)}) or was resistive from the first bias step "
                  f"({censored.get('below-step', 0)}) were excluded.")
-    ratios = [f"{b.retrapping_ratio:.3f} ({b.name})" for b in ex.branches
-              if b.retrapping_ratio is not None]
+    ratios = [f"{b['retrapping_over_switching']:.3f} ({b['branch']})" for b in ex["branches"]
+              if b["retrapping_over_switching"] is not None]
     if ratios:
         text += (" Switching was read on sweeps away from zero and retrapping on sweeps back; "
                  f"the median retrapping-to-switching ratio was {', '.join(ratios)}, and only "
                  "the switching current was fitted.")
-    if ex.rows_skipped:
-        text += f" {ex.rows_skipped} field rows holding mostly missing values were skipped."
+    if ex["rows_skipped"]:
+        text += f" {ex['rows_skipped']} field rows holding mostly missing values were skipped."
     return text
 
 
@@ -107,16 +108,16 @@ def _fit_numbers(fit) -> str:
     return ", ".join(parts[:-1]) + " and " + parts[-1]
 
 
-def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
+def methods_paragraph(result, field_calibration: str) -> str:
     """Plain prose for a methods section, numbers as in the JSON, references at the end."""
-    sweep = analysis.sweep
-    settings = analysis.settings
+    versions = result.provenance.get("versions") or {}
+    loss = result.settings.fit.loss
     cited = ["lm", "lmfit", "codata"]
-    out = [f"The critical current of {_junction(sweep.metadata)} was analysed with jjpattern "
-           f"{versions['jjpattern']}."]
-    if analysis.extraction is not None:
-        out.append(_extraction_text(analysis, cited))
-    fits = analysis.fits
+    out = [f"The critical current of {_junction(result.metadata)} was analysed with jjpattern "
+           f"{result.tool['version']}."]
+    if result.extraction is not None:
+        out.append(_extraction_text(result.extraction, cited))
+    fits = result.fits
     model = MODEL_TEXT[fits[0].model]
     branches = " and ".join(f.branch for f in fits)
     floor = any(f.node_floor_A is not None for f in fits)
@@ -127,8 +128,8 @@ def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
         + (", combined in quadrature with a constant node floor" if floor else "")
         + ", by non-linear least squares"
         + (" (Levenberg-Marquardt [lm], in lmfit "
-           f"{versions['lmfit']} [lmfit]) with equal weights" if settings["loss"] == "linear"
-           else f" with a robust {settings['loss']} loss (scipy least_squares, scale twice the "
+           f"{versions['lmfit']} [lmfit]) with equal weights" if loss == "linear"
+           else f" with a robust {loss} loss (scipy least_squares, scale twice the "
                 "point-to-point noise), finished by weighted Levenberg-Marquardt least squares "
                 f"[lm] at the robust weights (lmfit {versions['lmfit']} [lmfit])")
         + ", starting from a global search over period and offset that needs no "
@@ -140,8 +141,10 @@ def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
         out.append(field_calibration)
     for fit in fits:
         if fit.period_T is None:
+            codes = ", ".join(f.code for f in result.flags if f.branch == fit.branch
+                              and f.severity == "error")
             out.append(f"For the {fit.branch} branch no period could be identified "
-                       f"({', '.join(f.code for f in fit.flags)}).")
+                       f"({codes}).")
             continue
         sentence = (f"For the {fit.branch} branch ({fit.points_used} points, "
                     f"{fit.lobes_observed} lobes in the window) we obtain {_fit_numbers(fit)}")
@@ -149,16 +152,16 @@ def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
             sentence += ("; the field offset and Ic0 are not given because the main lobe lies "
                          "outside the measured window and the side lobes do not locate it")
         out.append(sentence + ".")
-    dropped = sweep.summary()["points_dropped"]
+    dropped = result.input["points_dropped"]
     outliers = sum(f.points_downweighted for f in fits)
-    if dropped and analysis.extraction is None:
+    if dropped and result.extraction is None:
         out.append(f"{dropped} points with missing values were excluded.")
     if outliers:
         out.append(f"{outliers} points lay more than four noise units from the fit and were "
                    "down-weighted by the robust loss.")
-    seed = analysis.settings.get("diagnostics", {}).get("seed")
+    seed = result.settings.diagnose.seed
     by_method = {}
-    for branch, d in analysis.current_density.items():
+    for branch, d in result.current_density.items():
         by_method.setdefault(d["method"], []).append((branch, d))
     for method, items in by_method.items():
         if method == "symmetric":
@@ -181,8 +184,8 @@ def methods_paragraph(analysis, versions: dict, field_calibration: str) -> str:
                    f"resolution is {first['resolution_over_length']:.3f} of the junction "
                    f"length and the outer 10 % on each side carry {edges} of the current "
                    "(0.2 for a uniform junction).")
-    if analysis.icrn and "ambegaokar_baratoff_V" in analysis.icrn:
-        icrn = analysis.icrn
+    if result.icrn and "ambegaokar_baratoff_V" in result.icrn:
+        icrn = result.icrn
         out.append(f"The IcRn product is {format_measure(icrn['icrn_V'], None, VOLTAGE_UNITS)}"
                    f", {icrn['icrn_over_ab']:.3f} of the Ambegaokar-Baratoff value [ab] "
                    f"{format_measure(icrn['ambegaokar_baratoff_V'], None, VOLTAGE_UNITS)}"

@@ -77,28 +77,40 @@ def pattern_figure(fits, title: str = ""):
     return fig
 
 
-def save_figure(fig, *paths: str) -> None:
+def save_figure(fig, *paths: str, dpi: int = 200, png_bytes: bool = False):
     """Write ``fig`` to each path atomically (temporary file, then rename), then close it.
 
     Metadata are fixed and SVG ids salted with a constant, so reruns give the
-    same bytes.
+    same bytes. With ``png_bytes`` the PNG rendering is returned as bytes (read
+    back from a ``.png`` path, or rendered in memory when none is written).
     """
+    import io
+
     import matplotlib
     from matplotlib import pyplot as plt
 
+    png = None
     try:
-        for path in paths:
-            suffix = os.path.splitext(path)[1].lower()
-            tmp = f"{path}.tmp{os.getpid()}{suffix}"
-            try:
-                with matplotlib.rc_context({"svg.hashsalt": "jjpattern"}):
-                    fig.savefig(tmp, dpi=200, metadata=_METADATA[suffix])
-                os.replace(tmp, path)
-            finally:
-                if os.path.exists(tmp):
-                    os.remove(tmp)
+        with matplotlib.rc_context({"svg.hashsalt": "jjpattern"}):
+            for path in paths:
+                suffix = os.path.splitext(path)[1].lower()
+                tmp = f"{path}.tmp{os.getpid()}{suffix}"
+                try:
+                    fig.savefig(tmp, dpi=dpi, metadata=_METADATA[suffix])
+                    if suffix == ".png" and png_bytes:
+                        with open(tmp, "rb") as handle:
+                            png = handle.read()
+                    os.replace(tmp, path)
+                finally:
+                    if os.path.exists(tmp):
+                        os.remove(tmp)
+            if png_bytes and png is None:
+                buffer = io.BytesIO()
+                fig.savefig(buffer, format="png", dpi=dpi, metadata=_METADATA[".png"])
+                png = buffer.getvalue()
     finally:
         plt.close(fig)
+    return png
 
 
 def _display_columns(bias_row):
@@ -116,8 +128,11 @@ def _display_columns(bias_row):
     return np.flatnonzero(keep)
 
 
-def map_figure(extraction, title: str = ""):
-    """The raw map (|V| or dV/dI against field and bias) with the extracted branches on top."""
+def map_figure(ivmap, extraction: dict, title: str = ""):
+    """The raw map (|V| or dV/dI against field and bias) with the extracted branches on top.
+
+    ``extraction`` is the result's extraction block (per-row currents and sources).
+    """
     import matplotlib
 
     matplotlib.use("Agg")
@@ -125,7 +140,6 @@ def map_figure(extraction, title: str = ""):
 
     from .display import VOLTAGE_UNITS
 
-    ivmap = extraction.ivmap
     bias_all = np.broadcast_to(ivmap.bias_A, ivmap.shape)
     cols = _display_columns(bias_all[0])
     # Plot at most about 600 x 600 cells; the extraction itself used every point.
@@ -151,18 +165,22 @@ def map_figure(extraction, title: str = ""):
                          bias_sorted / cfac, values_sorted, shading="nearest", cmap="cividis",
                          rasterized=True)
     fig.colorbar(mesh, ax=ax, label=label)
-    for b in extraction.branches:
-        sign = 1.0 if b.name == "positive" else -1.0
-        colour = BRANCH_COLOURS[b.name]
-        ax.plot(extraction.field_T / ffac, sign * b.ic_A / cfac, ".", ms=2.5, color=colour,
-                label=f"Ic {b.name} ({b.source})")
-        if np.isfinite(b.retrap_A).any() and b.source == "switching":
-            ax.plot(extraction.field_T / ffac, sign * b.retrap_A / cfac, "x", ms=2.5,
-                    mew=0.6, color="#CC79A7", label=f"retrapping {b.name}")
+    field_T = np.asarray(extraction["field_T"], dtype=float)
+    for b in extraction["branches"]:
+        name, source = b["branch"], b["source"]
+        sign = 1.0 if name == "positive" else -1.0
+        ic_A = np.asarray(b["ic_A"], dtype=float)
+        retrap_A = np.asarray(b["retrap_A"], dtype=float)
+        colour = BRANCH_COLOURS[name]
+        ax.plot(field_T / ffac, sign * ic_A / cfac, ".", ms=2.5, color=colour,
+                label=f"Ic {name} ({source})")
+        if np.isfinite(retrap_A).any() and source == "switching":
+            ax.plot(field_T / ffac, sign * retrap_A / cfac, "x", ms=2.5,
+                    mew=0.6, color="#CC79A7", label=f"retrapping {name}")
     ax.set_xlabel(f"applied field ({funit})")
     ax.set_ylabel(f"bias current ({cunit})")
     ax.legend(frameon=True, fontsize=7, loc="upper right")
-    ax.set_title(title or f"extraction: {extraction.criterion} criterion", fontsize=10)
+    ax.set_title(title or f"extraction: {extraction['criterion']} criterion", fontsize=10)
     return fig
 
 

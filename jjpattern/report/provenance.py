@@ -1,38 +1,22 @@
-"""Where a result came from: versions, input checksum, settings, the command to rerun."""
+"""The provenance file of a report: versions, the input, settings and the commands."""
 
 from __future__ import annotations
 
-import platform
-import shlex
-from importlib import metadata
-
-from .. import __version__
-
-DEPENDENCIES = ("numpy", "scipy", "lmfit", "matplotlib", "h5py", "pandas", "uncertainties")
+from ..provenance import command_line, versions
 
 
-def versions() -> dict:
-    """Versions of jjpattern, Python and the libraries it uses (read without importing them)."""
-    out = {"jjpattern": __version__, "python": platform.python_version()}
-    for name in DEPENDENCIES:
-        try:
-            out[name] = metadata.version(name)
-        except metadata.PackageNotFoundError:
-            out[name] = None
-    return out
+def provenance(result, argv) -> dict:
+    """Versions of this run, the input and its checksum, settings, and how to rerun it.
 
-
-def command_line(argv) -> str:
-    """The shell command that reproduces a run, quoted so it can be pasted."""
-    return shlex.join(["jjpattern", *argv])
-
-
-def provenance(document: dict, argv) -> dict:
-    """The provenance block: tool and library versions, the input, settings and command."""
+    ``command`` reproduces the analysis (as recorded in the result);
+    ``report_command`` is the command that wrote this report folder.
+    """
     return {
-        "versions": versions(),
-        "input_path": document["input"]["path"],
-        "input_sha256": document["input"]["sha256"],
-        "settings": document["settings"],
-        "command": command_line(argv),
+        "versions": result.provenance.get("versions") or versions(),
+        "input_path": result.input.get("path"),
+        "input_sha256": result.input.get("sha256"),
+        "settings": result.settings.to_dict(),
+        "settings_sha256": result.settings.hash(),
+        "command": result.provenance.get("command"),
+        "report_command": command_line(argv),
     }

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from .. import __version__
 from .display import (
     AREA_UNITS,
     CURRENT_UNITS,
@@ -44,25 +43,30 @@ def _fit_lines(fit) -> list[str]:
     return [head] + [f"  {k.ljust(width)}  {v}" for k, v in rows]
 
 
-def _extraction_lines(analysis) -> list[str]:
-    ex = analysis.extraction
-    level = ex.threshold.get("value")
+def _counts(entry: dict) -> str:
+    return ", ".join(f"{v} {k}" for k, v in sorted(entry["status_counts"].items()))
+
+
+def _extraction_lines(result) -> list[str]:
+    ex = result.extraction
+    threshold = ex["threshold"]
+    level = threshold.get("value")
     if level is None:
-        shown = ex.threshold.get("chosen", "")
-    elif ex.threshold["unit"] == "V":
-        shown = f"{format_measure(level, None, VOLTAGE_UNITS, digits=3)} ({ex.threshold['chosen']})"
+        shown = threshold.get("chosen", "")
+    elif threshold["unit"] == "V":
+        shown = f"{format_measure(level, None, VOLTAGE_UNITS, digits=3)} ({threshold['chosen']})"
     else:
-        shown = f"{level:.3g} Ω ({ex.threshold['chosen']})"
-    lines = [f"  extracted from a {ex.ivmap.shape[0]} x {ex.ivmap.shape[1]} {ex.ivmap.kind} map: "
-             f"{ex.criterion} criterion, level {shown}"]
-    if ex.rn_ohm is not None:
-        lines.append(f"  normal resistance {ex.rn_ohm:.4g} Ω")
-    for b in ex.branches:
-        counts = ", ".join(f"{v} {k}" for k, v in sorted(b.counts().items()))
-        ratio = ("" if b.retrapping_ratio is None
-                 else f", retrapping/switching {b.retrapping_ratio:.3f}")
-        lines.append(f"  {b.name}: {b.source}, {counts}{ratio}")
-    icrn = analysis.icrn
+        shown = f"{level:.3g} Ω ({threshold['chosen']})"
+    n_field, n_bias = ex["map_shape"]
+    lines = [f"  extracted from a {n_field} x {n_bias} {ex['signal']} map: "
+             f"{ex['criterion']} criterion, level {shown}"]
+    if ex["normal_resistance_ohm"] is not None:
+        lines.append(f"  normal resistance {ex['normal_resistance_ohm']:.4g} Ω")
+    for b in ex["branches"]:
+        ratio = b["retrapping_over_switching"]
+        ratio = "" if ratio is None else f", retrapping/switching {ratio:.3f}"
+        lines.append(f"  {b['branch']}: {b['source']}, {_counts(b)}{ratio}")
+    icrn = result.icrn
     if icrn:
         volts = lambda v: format_measure(v, None, VOLTAGE_UNITS, digits=4)  # noqa: E731
         text = f"  IcRn {volts(icrn['icrn_V'])}"
@@ -73,10 +77,10 @@ def _extraction_lines(analysis) -> list[str]:
     return lines
 
 
-def render_summary(analysis) -> str:
+def render_summary(result) -> str:
     """Several short blocks: the input, each branch's numbers, then the flags."""
-    info = analysis.sweep.summary()
-    lines = [f"jjpattern {__version__}: {info['path']}"]
+    info = result.input
+    lines = [f"jjpattern {result.tool['version']}: {info['path']}"]
     meta = info["metadata"]
     if meta:
         lines.append("  " + "; ".join(f"{k}: {v}" for k, v in meta.items()))
@@ -84,23 +88,23 @@ def render_summary(analysis) -> str:
         f"  {info['points_used']} points used, {info['points_dropped']} non-finite dropped, "
         f"{info['duplicates_merged']} duplicate fields averaged"
     )
-    if analysis.extraction is not None:
-        lines.extend(_extraction_lines(analysis))
-    for fit in analysis.fits:
+    if result.extraction is not None:
+        lines.extend(_extraction_lines(result))
+    for fit in result.fits:
         lines.append("")
         lines.extend(_fit_lines(fit))
-    for branch, d in analysis.current_density.items():
+    for branch, d in result.current_density.items():
         lines.append("")
         lines.append(f"current density, {branch} branch ({d['method']}, resolution "
                      f"{d['resolution_over_length']:.3f} L)")
         lines.append(f"  edge fraction {d['edge_fraction']:.3f} (outer 10 % each side; 0.2 for "
                      f"uniform), centre of mass {d['centre_of_mass_over_length']:+.3f} L")
-    if analysis.geometry:
+    if result.geometry:
         lines.append("")
         lines.append("geometry and materials")
-        for name, text in derived_rows(analysis.geometry):
+        for name, text in derived_rows(result.geometry):
             lines.append(f"  {name}: {text}")
-    flags = analysis.flags
+    flags = result.flags
     lines.append("")
     if not flags:
         lines.append("flags: none")

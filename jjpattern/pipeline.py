@@ -1,0 +1,240 @@
+"""One function from (input, settings) to a :class:`Result`; the CLI, demo and batch call it.
+
+Data flow one way: source -> reader -> (extraction) -> fit -> diagnostics -> Result.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+
+from .errors import InputError
+from .result import FitResult, Result
+from .settings import Settings, keyword_settings
+
+
+@dataclass(frozen=True)
+class Analysed:
+    """A result together with the data it came from (the raw map draws the map figure)."""
+
+    result: Result
+    data: object
+
+
+def analyze(source, settings: Settings | None = None, *, command=None, **keywords) -> Result:
+    """Analyse one input file or folder and return its result document.
+
+    Parameters
+    ----------
+    source : str or path-like
+        An Ic(B) table (text, HDF5, .npz), a raw V(I, B) map, or a folder of I-V files.
+    settings : Settings, optional
+        Every setting; defaults where omitted.
+    command : sequence of str, optional
+        The command-line arguments, recorded in the provenance.
+    **keywords
+        Single settings by name, e.g. ``loss="cauchy"``, ``length_m=10e-6``.
+
+    Returns
+    -------
+    Result
+    """
+    return analyze_input(source, settings, command=command, **keywords).result
+
+
+def analyze_input(source, settings: Settings | None = None, *, command=None,
+                  **keywords) -> Analysed:
+    """Like :func:`analyze`, but keep the data read (for the raw-map figure)."""
+    from .io import open_input
+
+    settings = keyword_settings(settings, **keywords)
+    data = open_input(os.fspath(source), sweep_options=_sweep_options(settings),
+                      map_options=_map_options(settings))
+    return Analysed(analyze_data(data, settings, command=command), data)
+
+
+def _sweep_options(settings: Settings) -> dict:
+    r = settings.read
+    options = {"field_col": r.field_col, "ic_cols": tuple(r.ic_cols),
+               "field_unit": r.field_unit, "current_unit": r.current_unit}
+    if r.coil_T_per_A:
+        options["coil_T_per_A"] = r.coil_T_per_A
+    return options
+
+
+def _map_options(settings: Settings):
+    from .io.maps import MapOptions
+
+    r = settings.read
+    return MapOptions(field_col=r.field_col, bias_col=r.bias_col, signal_col=r.signal_col,
+                      field_unit=r.field_unit, current_unit=r.current_unit,
+                      signal_unit=r.signal_unit, transpose=r.transpose,
+                      field_from_name=r.field_from_name, coil_T_per_A=r.coil_T_per_A)
+
+
+def analyze_data(data, settings: Settings | None = None, *, command=None) -> Result:
+    """Analyse a :class:`~jjpattern.io.Sweep` or a raw :class:`~jjpattern.io.maps.IVMap`."""
+    from .io.maps import IVMap
+
+    settings = settings or Settings()
+    extraction = icrn = None
+    floor_A = 0.0
+    if isinstance(data, IVMap):
+        from .extract.engine import extract
+
+        ex = extract(data, criterion=settings.extract.criterion,
+                     threshold=settings.extract.threshold)
+        if ex.criterion == "voltage" and ex.rn_ohm:
+            # A voltage threshold reads sqrt(Ic^2 + (V_th/Rn)^2) on an RSJ curve: a floor of
+            # V_th/Rn in quadrature at the nodes comes from the criterion itself.
+            floor_A = ex.threshold["value"] / ex.rn_ohm
+        sweep = ex.to_sweep()
+        extraction = extraction_block(ex)
+        extraction_flags = list(ex.flags)
+    else:
+        sweep, extraction_flags = data, []
+    fits, fit_flags, diagnostics = _fit_and_diagnose(sweep, settings, floor_A)
+    if extraction is not None:
+        icrn = icrn_block(fits, extraction["normal_resistance_ohm"], settings,
+                          sweep.metadata)
+    return Result(
+        input=sweep.summary(),
+        fits=[FitResult.from_fit(f) for f in fits],
+        flags=fit_flags + extraction_flags + diagnostics.get("flags", []),
+        settings=settings,
+        method=fit_method(settings),
+        extraction=extraction,
+        icrn=icrn,
+        current_density=diagnostics.get("current_density") or {},
+        geometry=diagnostics.get("geometry"),
+        provenance=_provenance(command),
+    )
+
+
+def _fit_and_diagnose(sweep, settings: Settings, floor_A: float):
+    from .fit.engine import fit_pattern
+
+    fs = settings.fit
+    fits = [fit_pattern(b.field_T, b.ic_A, geometry=fs.model, node_floor=fs.node_floor,
+                        loss=fs.loss, branch=b.name) for b in sweep.branches]
+    fit_flags = [flag for fit in fits for flag in fit.flags]
+    diagnostics = {}
+    if settings.diagnose.enabled:
+        from .diagnose.run import diagnose
+
+        diagnostics = diagnose(fits, seed=settings.diagnose.seed,
+                               resamples=settings.diagnose.resamples,
+                               geometry=junction_inputs(settings, sweep.metadata),
+                               criterion_floor_A=floor_A)
+    return fits, fit_flags, diagnostics
+
+
+def extraction_block(ex) -> dict:
+    """The extraction summary for the result: settings, counts and the per-row currents."""
+    block = ex.settings()
+    block["field_T"] = ex.field_T
+    for entry, b in zip(block["branches"], ex.branches, strict=True):
+        entry.update(ic_A=b.ic_A, status=[str(s) for s in b.status], retrap_A=b.retrap_A)
+    return block
+
+
+def fit_method(settings: Settings) -> dict:
+    """The fit method in words and its fixed thresholds (the JSON ``method`` block)."""
+    from .fit import engine
+
+    loss = settings.fit.loss
+    return {
+        "fit": "scan of period and offset (FFT correlation), then lmfit "
+               + ("leastsq (Levenberg-Marquardt)" if loss == "linear"
+                  else f"least_squares (trust region, {loss} loss)"),
+        "thresholds": {
+            "modulation_chisq_drop": engine.MODULATION_DCHI2,
+            "min_nodes": engine.MIN_NODES,
+            "floor_chisq_gain": engine.FLOOR_DCHI2,
+            "offset_chisq_margin": engine.OFFSET_DCHI2,
+            "poor_fit_reduced_chisq": engine.POOR_FIT_REDCHI,
+            "robust_scale_over_noise": engine.ROBUST_SCALE,
+        },
+    }
+
+
+#: Metadata keys that may stand in for junction settings, with their scale to SI.
+_JUNCTION_METADATA = {
+    "length_m": ("length_um", 1e-6), "width_m": ("width_um", 1e-6),
+    "barrier_m": ("barrier_nm", 1e-9), "electrode_m": ("electrode_nm", 1e-9),
+    "london_m": ("london_nm", 1e-9), "jc_A_m2": ("jc_kA_cm2", 1e7),
+}
+
+
+def junction_inputs(settings: Settings, metadata: dict):
+    """Geometry in SI from the settings, each missing value from the file's metadata."""
+    from .diagnose.run import GeometryInputs
+
+    js = settings.junction
+    values = {}
+    for name, (key, scale) in _JUNCTION_METADATA.items():
+        given = getattr(js, name)
+        if given not in (None, ()):
+            values[name] = list(given) if isinstance(given, tuple) else [given]
+            continue
+        raw = metadata.get(key)
+        if raw is None or str(raw).strip() == "":
+            continue
+        try:
+            values[name] = [float(v) * scale for v in str(raw).split(",")]
+        except ValueError:
+            raise InputError(f"metadata {key} = {raw!r}: not a number; write it as a plain "
+                             "number (or two separated by a comma)") from None
+    planar = js.planar or str(metadata.get("planar", "")).lower() in ("1", "yes", "true")
+
+    def first(name, index=0):
+        v = values.get(name) or []
+        return v[index] if len(v) > index else None
+
+    return GeometryInputs(
+        length_m=first("length_m"), width_m=first("width_m"), barrier_m=first("barrier_m"),
+        t1_m=first("electrode_m"), t2_m=first("electrode_m", 1),
+        lambda1_m=first("london_m"), lambda2_m=first("london_m", 1),
+        jc_A_m2=first("jc_A_m2"), planar=planar)
+
+
+def icrn_block(fits, rn_ohm, settings: Settings, metadata: dict):
+    """IcRn from the fitted Ic0 (positive branch first) and the extracted Rn.
+
+    With a gap, or a Tc (weak-coupling BCS gap), the Ambegaokar-Baratoff value
+    and the ratio are added; the ratio is reported, never flagged.
+    """
+    from .physics.junction import ambegaokar_baratoff_V, bcs_gap_J
+
+    ic0 = next((f.ic0_A for f in fits if f.ic0_A is not None), None)
+    if ic0 is None or rn_ohm is None:
+        return None
+    es = settings.extract
+    temperature_K = es.temperature_K
+    if temperature_K is None:
+        try:
+            temperature_K = float(metadata.get("temperature_K", ""))
+        except ValueError:
+            temperature_K = None
+    gap_J, tc_K = es.gap_J, es.tc_K
+    block = {"ic0_A": ic0, "rn_ohm": rn_ohm, "icrn_V": ic0 * rn_ohm}
+    t = temperature_K or 0.0
+    if gap_J is None and tc_K is not None:
+        gap_J = bcs_gap_J(tc_K, t)
+        block["gap_from"] = "weak-coupling BCS gap equation, Delta(0) = 1.764 k_B Tc"
+    elif gap_J is not None:
+        block["gap_from"] = "given"
+    if gap_J is not None:
+        ab = ambegaokar_baratoff_V(gap_J, t)
+        block.update(gap_J=gap_J, tc_K=tc_K, temperature_K=temperature_K,
+                     ambegaokar_baratoff_V=ab, icrn_over_ab=ic0 * rn_ohm / ab)
+    return block
+
+
+def _provenance(command) -> dict:
+    from .provenance import command_line, versions
+
+    out = {"versions": versions()}
+    if command is not None:
+        out["command"] = command_line(command)
+    return out
