@@ -174,8 +174,11 @@ def junction_inputs(settings: Settings, metadata: dict):
     values = {}
     for name, (key, scale) in _JUNCTION_METADATA.items():
         given = getattr(js, name)
-        if given not in (None, ()):
-            values[name] = list(given) if isinstance(given, tuple) else [given]
+        if isinstance(given, tuple) and given:
+            values[name] = [float(v) for v in given]
+            continue
+        if given is not None and not isinstance(given, tuple):
+            values[name] = [float(given)]
             continue
         raw = metadata.get(key)
         if raw is None or str(raw).strip() == "":

@@ -103,6 +103,8 @@ ANALYSIS_SECTIONS = ("read", "extract", "fit", "diagnose", "junction")
 def _plain(value):
     if isinstance(value, tuple):
         return [_plain(v) for v in value]
+    if hasattr(value, "item") and not isinstance(value, (str, bytes)):
+        return value.item()  # a numpy scalar given from Python code
     return value
 
 
