@@ -89,6 +89,10 @@ def _analysis_parent() -> argparse.ArgumentParser:
                             "premature switching (default: linear)")
     group.add_argument("--seed", type=int, default=0,
                        help="seed of the resampled current-density band (default 0)")
+    group = parent.add_argument_group("reports")
+    group.add_argument("--figures", metavar="FORMATS",
+                       help="figure files in a report folder, e.g. png,pdf,svg (default png; "
+                            "the page itself embeds PNG)")
     return parent
 
 
@@ -149,6 +153,17 @@ def _lengths(text, option, scale):
         raise InputError(f"{option} {text!r}: not a number; write e.g. 150 or 150,200") from None
 
 
+def _figure_formats(text: str) -> tuple[str, ...]:
+    from .errors import InputError
+
+    formats = tuple(dict.fromkeys("." + f.strip().lower().lstrip(".")
+                                  for f in text.split(",") if f.strip()))
+    bad = [f for f in formats if f not in (".png", ".pdf", ".svg")]
+    if bad or not formats:
+        raise InputError(f"--figures {text!r}: choose from png, pdf and svg, comma-separated")
+    return formats
+
+
 def settings_from_args(args):
     """The one place where command-line options become :class:`Settings` (SI units)."""
     from .io.units import coil_constant_T_per_A, parse_threshold
@@ -158,6 +173,7 @@ def settings_from_args(args):
         FitSettings,
         JunctionSettings,
         ReadSettings,
+        ReportSettings,
         Settings,
     )
 
@@ -184,10 +200,13 @@ def settings_from_args(args):
         if args.electrode_nm else (),
         london_m=_lengths(args.london_nm, "--london-nm", 1e-9) if args.london_nm else (),
         jc_A_m2=scaled(args.jc_kA_cm2, 1e7), planar=args.planar)
+    report = (ReportSettings(figure_formats=_figure_formats(args.figures)) if args.figures
+              else ReportSettings())
     return Settings(read=read, extract=extract,
                     fit=FitSettings(model=args.model, node_floor=args.node_floor,
                                     loss=args.loss),
-                    diagnose=DiagnoseSettings(seed=args.seed), junction=junction)
+                    diagnose=DiagnoseSettings(seed=args.seed), junction=junction,
+                    report=report)
 
 
 def _check_plots(*paths):
@@ -209,6 +228,9 @@ def run_report(args) -> int:
         from .result import Result
 
         result, ivmap = Result.read(args.path), None
+        if args.figures:  # a new choice of files; the analysis and its hash are unchanged
+            result.settings = result.settings.replace(
+                report__figure_formats=_figure_formats(args.figures))
     else:
         from .pipeline import analyze_input
 

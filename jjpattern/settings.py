@@ -84,7 +84,7 @@ class JunctionSettings:
 class ReportSettings:
     """What a report folder holds; not part of the analysis hash."""
 
-    figure_formats: tuple[str, ...] = (".png", ".pdf", ".svg")
+    figure_formats: tuple[str, ...] = (".png",)
     dpi: int = 200
 
 

@@ -43,7 +43,7 @@ def _parse(path):
 def map_report(tmp_path_factory):
     out = tmp_path_factory.mktemp("rep") / "r"
     assert main(["report", demo_files()["kt14_j07_map.h5"], "--out", str(out),
-                 "--tc-K", "9.2"]) == 0
+                 "--tc-K", "9.2", "--figures", "png,pdf,svg"]) == 0
     return out
 
 
@@ -101,7 +101,8 @@ def test_methods_paragraph_carries_the_fitted_numbers(map_report):
 
 def test_reruns_are_byte_identical_but_for_the_timestamp(tmp_path):
     out = tmp_path / "again"
-    argv = ["report", demo_files()["kt14_j03.csv"], "--out", str(out), "--loss", "cauchy"]
+    argv = ["report", demo_files()["kt14_j03.csv"], "--out", str(out), "--loss", "cauchy",
+            "--figures", "png,pdf,svg"]
     assert main(argv) == 0
     first = {p: (out / p).read_bytes() for p in os.listdir(out)}
     assert main(argv) == 0
