@@ -206,6 +206,8 @@ def test_two_channel_model_recovers_asymmetry():
     fit = fit_pattern(b, ic, geometry="two-channel")
     assert fit.period_T == pytest.approx(0.8e-3, rel=0.002)
     assert fit.asymmetry == pytest.approx(0.3, abs=4 * fit.asymmetry_stderr)
+    assert fit.extra_params == {"asymmetry": fit.asymmetry}
+    assert fit.to_dict()["asymmetry_stderr"] == fit.extra_stderr["asymmetry"]
     # Periodic: the offset is the copy nearest zero field, and no lobe flag is raised.
     assert fit.field_offset_T == pytest.approx(0.23e-3, abs=0.01e-3)
     assert fit.flags == []
