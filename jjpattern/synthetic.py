@@ -1,9 +1,9 @@
 """Synthetic Ic(B) sweeps for benchmarks and round-trip tests.
 
-The patterns are written out here with numpy and scipy directly rather than
-through :mod:`jjpattern.physics`, so a round trip checks the fit against an
-independent formula. Randomness only through the ``numpy.random.Generator``
-passed in.
+The built-in patterns are written out here with numpy and scipy directly rather
+than through :mod:`jjpattern.physics`, so a round trip checks the fit against an
+independent formula (models added later are drawn with their own formula).
+Randomness only through the ``numpy.random.Generator`` passed in.
 """
 
 from __future__ import annotations
@@ -28,20 +28,41 @@ class SyntheticCase:
     lobes_each_side: int
 
 
-def ideal(field_T, geometry, ic0_A, period_T, field_offset_T, floor_A=0.0):
-    """Noise-free pattern (independent of :mod:`jjpattern.physics.patterns`)."""
+def ideal(field_T, geometry, ic0_A, period_T, field_offset_T, floor_A=0.0, **extra):
+    """Noise-free pattern of a registered model.
+
+    The built-in models are written out here independently of their files in
+    :mod:`jjpattern.physics.models`, so a round trip checks the fit against a
+    second formula. Any other registered model is drawn with its own formula:
+    such a round trip tests the fit procedure, not the formula (check that
+    against a reference of its own, as ``tests/test_models_example.py`` does).
+
+    Parameters
+    ----------
+    geometry : str
+        A name from :func:`jjpattern.physics.models.model_names`;
+        ``"two-channel:0.3"`` is short for ``"two-channel"`` with ``asymmetry=0.3``.
+    **extra
+        Extra parameters of the model, at the formula's defaults when not given.
+    """
+    from .physics.models import get_model
+
+    name, _, value = geometry.partition(":")
+    if value:
+        # "two-channel:0.3" carries the asymmetry (I1 - I2) / (I1 + I2).
+        extra = {"asymmetry": float(value), **extra}
+    spec = get_model(name)
     u = (np.asarray(field_T) - field_offset_T) / period_T
-    if geometry == "rectangular":
+    if name == "rectangular":
         shape = np.abs(np.sinc(u))
-    elif geometry == "circular":
+    elif name == "circular":
         x = np.pi * np.where(u == 0, 1e-12, u)
         shape = np.abs(2.0 * special.j1(x) / x)
-    elif geometry.startswith("two-channel"):
-        # "two-channel:0.3" carries the asymmetry (I1 - I2) / (I1 + I2).
-        a = float(geometry.split(":")[1]) if ":" in geometry else 0.0
+    elif name == "two-channel":
+        a = float(extra.get("asymmetry", 0.0))
         shape = np.abs(np.cos(np.pi * u) + 1j * a * np.sin(np.pi * u))
     else:
-        raise ValueError(geometry)
+        return spec.formula(field_T, ic0_A, period_T, field_offset_T, floor_A, **extra)
     return np.sqrt((ic0_A * shape) ** 2 + floor_A**2)
 
 

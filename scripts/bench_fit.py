@@ -17,12 +17,12 @@ import time
 import numpy as np
 
 from jjpattern.fit.engine import fit_pattern
-from jjpattern.fit.models import MODELS
+from jjpattern.fit.models import pattern_model
 from jjpattern.synthetic import random_case
 
 
 def plain_fit(case):
-    model = MODELS[case.geometry]()
+    model = pattern_model(case.geometry)
     params = model.make_params(ic0_A=case.ic0_A, period_T=case.period_T,
                                field_offset_T=case.field_offset_T)
     return model.fit(case.ic_A, params, field_T=case.field_T, method="leastsq")

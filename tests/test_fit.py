@@ -206,6 +206,26 @@ def test_two_channel_model_recovers_asymmetry():
     fit = fit_pattern(b, ic, geometry="two-channel")
     assert fit.period_T == pytest.approx(0.8e-3, rel=0.002)
     assert fit.asymmetry == pytest.approx(0.3, abs=4 * fit.asymmetry_stderr)
+    assert fit.extra_params == {"asymmetry": fit.asymmetry}
+    assert fit.to_dict()["asymmetry_stderr"] == fit.extra_stderr["asymmetry"]
     # Periodic: the offset is the copy nearest zero field, and no lobe flag is raised.
     assert fit.field_offset_T == pytest.approx(0.23e-3, abs=0.01e-3)
     assert fit.flags == []
+
+
+def test_scan_is_not_fooled_by_a_fast_decaying_template():
+    # A triangular current profile gives sinc^2(u/2) (Bracewell, tables of Fourier pairs),
+    # decaying as 1/u^2: with the main lobe a window away from the data the template's
+    # overlap is rounding error of the single-precision sums, which must not win.
+    from jjpattern.fit.scan import scan_pattern
+
+    def shape(u):
+        return np.sinc(u / 2) ** 2
+
+    rng = np.random.default_rng(22)
+    b = np.linspace(-14e-3, 14e-3, 700) + 0.15e-3
+    ic = np.abs(4e-6 * shape((b - 0.15e-3) / 0.8e-3) + rng.normal(0, 0.08e-6, b.size))
+    best = scan_pattern(b, ic, shape).candidates[0]
+    assert best.chisq_A2 > 0 and best.amplitude_A < 2 * ic.max()
+    assert best.period_T == pytest.approx(0.8e-3, rel=0.02)
+    assert abs(best.field_offset_T - 0.15e-3) < 0.05 * 0.8e-3

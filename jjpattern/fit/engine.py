@@ -12,12 +12,12 @@ import numpy as np
 from ..errors import InputError
 from ..flags import make_flag
 from ..io.sweep import MIN_POINTS
-from ..physics.patterns import PERIODIC, node_flux
+from ..physics.models import get_model
 from ..sampling import tidy
 from .far import far_lobe_start
-from .models import MODELS
+from .models import PatternModel
 from .noise import difference_noise
-from .result import PatternFit
+from .result import FIT_KEYS, PatternFit
 
 #: Below this drop in chi-square (in noise units) from a flat line to the fitted
 #: pattern, the data show no modulation.
@@ -109,8 +109,11 @@ def fit_pattern(
         Applied field (T) and critical current (A). Negative currents are
         taken as the magnitude of a negative branch; non-finite pairs are
         dropped and equal fields averaged.
-    geometry : {'rectangular', 'circular', 'two-channel'}
-        Closed-form pattern to fit (``two-channel`` also fits the asymmetry).
+    geometry : str
+        Name of the pattern model to fit, one of
+        :func:`jjpattern.physics.models.model_names` (``rectangular``, ``circular``,
+        ``two-channel``, ...); a model's extra parameters (the two-channel
+        asymmetry) are fitted too.
     node_floor : {'auto', 'on', 'off'}
         Fit a floor in quadrature for lifted nodes; ``auto`` keeps it only when
         it improves the fit beyond ``FLOOR_DCHI2``.
@@ -127,8 +130,7 @@ def fit_pattern(
         Headline numbers with standard errors, or ``None`` and a flag where
         the data cannot tell.
     """
-    if geometry not in MODELS:
-        raise InputError(f"unknown geometry {geometry!r}; use one of {', '.join(MODELS)}")
+    spec = get_model(geometry)
     if loss not in LOSSES:
         raise InputError(f"unknown loss {loss!r}; use one of {', '.join(LOSSES)}")
     if node_floor not in NODE_FLOOR:
@@ -139,7 +141,7 @@ def fit_pattern(
         raise InputError(f"only {x.size} usable points; a fit needs at least {MIN_POINTS}")
     if np.median(y) < 0:
         y = -y
-    model = MODELS[geometry]()
+    model = PatternModel(spec)
     noise = difference_noise(x, y)
     scale = float(np.max(np.abs(y)))
     noise = max(noise, 1e-9 * scale) if np.isfinite(noise) else 1e-9 * scale
@@ -162,7 +164,7 @@ def fit_pattern(
     result = local_fit(model, y, x, params, loss, f_scale)
     offset = _value(result, "field_offset_T")
     if not x[0] <= offset <= x[-1] or _nodes_in_window(
-            geometry, x, abs(_value(result, "period_T")), offset) < MIN_NODES:
+            spec, x, abs(_value(result, "period_T")), offset) < MIN_NODES:
         far = far_lobe_start(x, y, model.unit_shape)
         if far is not None:
             start = model.make_params(ic0_A=far.amplitude_A, period_T=far.period_T,
@@ -171,7 +173,7 @@ def fit_pattern(
             if _chisq(alt) < _chisq(result):
                 result = alt
     floor_evidence = None
-    if node_floor != "off" and geometry not in PERIODIC:
+    if node_floor != "off" and not spec.periodic:
         with_floor = result.params.copy()
         ic0 = abs(_value(result, "ic0_A"))
         with_floor["floor_A"].set(value=max(best.background_A, 0.05 * ic0), vary=True)
@@ -189,35 +191,31 @@ def fit_pattern(
             threshold=MODULATION_DCHI2, noise_A=noise,
         ))
         return out
-    if geometry in PERIODIC:
+    if spec.periodic:
         offset_ok, offset_evidence = True, None  # no main lobe: the offset is modulo a period
     else:
         result, offset_ok, offset_evidence = _check_lobe_assignment(
-            model, y, x, result, loss, f_scale, geometry)
-    _fill(out, result, geometry, x, offset_ok)
+            model, y, x, result, loss, f_scale)
+    _fill(out, result, spec, x, offset_ok)
     _add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, f_scale)
     return out
 
 
-def _node_list(geometry, x, period, offset):
+def _node_list(spec, x, period, offset):
     """Reduced flux of every node that could fall between the window's ends."""
     reach = max(abs(x[0] - offset), abs(x[-1] - offset)) / period
-    return node_flux(geometry, int(np.ceil(reach)) + 2)
+    return np.asarray(spec.node_flux(int(np.ceil(reach)) + 2), dtype=float)
 
 
-def _nodes_in_window(geometry, x, period, offset):
+def _nodes_in_window(spec, x, period, offset):
     """Nodes inside the window with data on both sides (a tenth of a period)."""
-    u_nodes = _node_list(geometry, x, period, offset)
+    u_nodes = _node_list(spec, x, period, offset)
     nodes = np.concatenate([offset - u_nodes * period, offset + u_nodes * period])
     margin = 0.1 * period
     return int(np.sum((nodes > x[0] + margin) & (nodes < x[-1] - margin)))
 
 
-def _first_node(geometry):
-    return float(node_flux(geometry, 1)[0])
-
-
-def _check_lobe_assignment(model, y, x, result, loss, f_scale, geometry):
+def _check_lobe_assignment(model, y, x, result, loss, f_scale):
     """When the main lobe is near or beyond an edge, test which lobe is the main one.
 
     Refits with the offset started one lobe over walk downhill in chi-square
@@ -227,7 +225,7 @@ def _check_lobe_assignment(model, y, x, result, loss, f_scale, geometry):
     """
     period = abs(_value(result, "period_T"))
     origin = _value(result, "field_offset_T")
-    reach = _first_node(geometry) * period
+    reach = float(model.spec.node_flux(1)[0]) * period
     if x[0] <= origin - reach and origin + reach <= x[-1]:
         return result, True, None
     fits = {0: result}  # by lobe index of the fitted offset
@@ -271,29 +269,33 @@ def _check_lobe_assignment(model, y, x, result, loss, f_scale, geometry):
     return best_fit, bool(delta >= OFFSET_DCHI2), evidence
 
 
-def _fill(out, result, geometry, x, offset_ok):
+def _fill(out, result, spec, x, offset_ok):
     """Copy the fitted numbers into ``out``, withholding what the data do not fix."""
     period = abs(_value(result, "period_T"))
     offset = _value(result, "field_offset_T")
-    if geometry in PERIODIC:
+    if spec.periodic:
         offset = (offset + 0.5 * period) % period - 0.5 * period  # the copy nearest zero field
     floor = abs(_value(result, "floor_A"))
     out.best_params = {
         "ic0_A": abs(_value(result, "ic0_A")), "period_T": period,
         "field_offset_T": offset, "floor_A": floor,
     }
-    if "asymmetry" in result.params:
-        out.best_params["asymmetry"] = abs(_value(result, "asymmetry"))
-        out.asymmetry = out.best_params["asymmetry"]
-        out.asymmetry_stderr = _stderr(result, "asymmetry")
+    for p in spec.extra:
+        value = _value(result, p.name)
+        value = abs(value) if p.even else value
+        out.best_params[p.name] = out.extra_params[p.name] = value
+        out.extra_stderr[p.name] = _stderr(result, p.name)
+        if p.name in FIT_KEYS:  # the JSON keys that exist, such as asymmetry
+            setattr(out, p.name, value)
+            setattr(out, f"{p.name}_stderr", out.extra_stderr[p.name])
     out.lmfit_result = result
     nfree = max(result.nfree, 1)
     out.residual_rms_A = float(np.sqrt(np.mean((out.ic_A - result.best_fit) ** 2)))
     # Weighted residuals: for a robust fit the down-weighted points count less.
     out.reduced_chisq = float(np.sum(result.residual**2) / nfree / out.noise_A**2)
 
-    out.nodes_observed = _nodes_in_window(geometry, x, period, offset)
-    u_nodes = _node_list(geometry, x, period, offset)
+    out.nodes_observed = _nodes_in_window(spec, x, period, offset)
+    u_nodes = _node_list(spec, x, period, offset)
     centres = np.concatenate([[0.0], 0.5 * (u_nodes[:-1] + u_nodes[1:])])
     lobes = np.concatenate([offset - centres[1:] * period, offset + centres * period])
     out.lobes_observed = int(np.sum((lobes >= x[0]) & (lobes <= x[-1])))

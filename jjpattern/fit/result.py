@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..physics.patterns import PATTERNS
+from ..physics.models import get_model
 
 #: Keys of one ``fits`` entry in the JSON document, in order.
 FIT_KEYS = (
@@ -25,6 +25,9 @@ class PatternFit:
     Attributes are ``None`` where the data do not determine the number (an
     honest "cannot tell"); ``flags`` says why. ``lmfit_result`` is the
     underlying :class:`lmfit.model.ModelResult`, for further work.
+    ``extra_params`` and ``extra_stderr`` hold the model's extra parameters by
+    name (magnitudes where the pattern is even in them); those with a JSON key
+    of their own (``asymmetry``) are also copied there.
     """
 
     branch: str
@@ -57,6 +60,8 @@ class PatternFit:
     field_T: np.ndarray = field(default=None, repr=False)
     ic_A: np.ndarray = field(default=None, repr=False)
     best_params: dict = field(default_factory=dict, repr=False)
+    extra_params: dict = field(default_factory=dict, repr=False)
+    extra_stderr: dict = field(default_factory=dict, repr=False)
     floor_evidence: dict | None = field(default=None, repr=False)
     lmfit_result: object = field(default=None, repr=False)
 
@@ -77,7 +82,7 @@ class PatternFit:
         p = self.best_params
         if not p:
             return np.full(np.shape(field_T), np.nan)
-        return PATTERNS[self.model](np.asarray(field_T, dtype=float), **p)
+        return get_model(self.model).formula(np.asarray(field_T, dtype=float), **p)
 
     def residual_A(self) -> np.ndarray:
         """Data minus the best-fit curve."""

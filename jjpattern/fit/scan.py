@@ -17,6 +17,11 @@ from scipy import fft as sfft
 
 #: Largest number of grid points the data are resampled onto.
 _MAX_GRID = 4096
+#: Offsets where the template's overlap with the data (sum of its squares over the
+#: window) is below this fraction of the best offset's are not candidates: there the
+#: single-precision FFT sums are rounding error (about 1e-6 of the largest), and a
+#: pattern that decays fast (as 1/u^2) would otherwise find huge spurious amplitudes.
+_MIN_OVERLAP = 1e-4
 
 
 @dataclass(frozen=True)
@@ -112,6 +117,7 @@ class _Surface:
         both = (amp_det > 0) & (bkg_det >= 0) & (det > 0)
         gain = np.where(both, (amp_det * s_yf + bkg_det * sy) / np.where(both, det, 1.0),
                         np.maximum(s_yf, 0.0) ** 2 / np.maximum(s_ff, 1e-30))
+        gain = np.where(s_ff > _MIN_OVERLAP * np.max(s_ff, axis=1, keepdims=True), gain, 0.0)
         best = np.argmax(gain, axis=1)
         rows = np.arange(periods.size)
         pick = (rows, best)

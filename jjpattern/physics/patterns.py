@@ -3,12 +3,18 @@
 Each function takes the applied field first (tesla) and returns the critical
 current in ampere. ``period_T`` is always the field that threads one flux
 quantum through the effective magnetic area, ``Phi0 / A_eff``.
+
+The closed-form models are defined one per file in :mod:`jjpattern.physics.models`;
+this module keeps the general Dynes-Fulton integral and, for older callers,
+name-based views of that registry.
 """
 
 from __future__ import annotations
 
 import numpy as np
-from scipy import integrate, special
+from scipy import integrate
+
+from .models.registry import ModelView, PeriodicNames, get_model
 
 # The kernel matrix of ``profile_pattern`` is built in chunks of this many
 # field points so that long sweeps times fine profiles stay within memory.
@@ -29,28 +35,11 @@ def with_floor(ic_A, floor_A=0.0):
     return np.hypot(ic_A, floor_A)
 
 
-def rectangular_pattern(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0):
-    """Uniform rectangular junction: ``Ic0 |sin(pi u) / (pi u)|``, ``u = (B - B0) / period``."""
-    u = reduced_flux(field_T, period_T, field_offset_T)
-    return with_floor(ic0_A * np.abs(np.sinc(u)), floor_A)
-
-
-def circular_pattern(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0):
-    """Uniform circular junction: ``Ic0 |2 J1(pi u) / (pi u)|``.
-
-    Here ``A_eff`` is the diameter times the magnetic thickness, so the nodes
-    sit at ``u = j_{1,k} / pi`` (zeros of J1) and are not equally spaced.
-    """
-    x = np.pi * reduced_flux(field_T, period_T, field_offset_T)
-    small = np.abs(x) < 1e-8
-    safe = np.where(small, 1.0, x)
-    shape = np.where(small, 1.0, 2.0 * special.j1(safe) / safe)
-    return with_floor(ic0_A * np.abs(shape), floor_A)
-
-
-def circular_node_flux(count):
-    """Reduced flux ``u`` of the first ``count`` circular-pattern nodes, ``j_{1,k} / pi``."""
-    return special.jn_zeros(1, count) / np.pi
+#: The closed-form patterns; each lives in its own file under ``physics/models``.
+rectangular_pattern = get_model("rectangular").formula
+circular_pattern = get_model("circular").formula
+circular_node_flux = get_model("circular").node_flux
+two_channel_pattern = get_model("two-channel").formula
 
 
 def profile_pattern(field_T, x_over_length, j_A, period_T=1.0, field_offset_T=0.0):
@@ -85,36 +74,16 @@ def profile_pattern(field_T, x_over_length, j_A, period_T=1.0, field_offset_T=0.
     return out.reshape(np.shape(field_T)) if np.ndim(field_T) else float(out[0])
 
 
-def two_channel_pattern(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
-                        asymmetry=0.0):
-    """Two narrow parallel channels (a SQUID-like interferometer) with unequal currents.
-
-    ``Ic = (I1 + I2) sqrt(cos^2(pi u) + a^2 sin^2(pi u))`` with the asymmetry
-    ``a = (I1 - I2) / (I1 + I2)``; ``period_T`` is the field per flux quantum
-    through the area between the channels. The pattern is periodic, so the offset
-    is only defined modulo one period.
-    """
-    u = reduced_flux(field_T, period_T, field_offset_T)
-    shape = np.sqrt(np.cos(np.pi * u) ** 2 + (asymmetry * np.sin(np.pi * u)) ** 2)
-    return with_floor(ic0_A * shape, floor_A)
-
-
-#: Closed-form patterns by geometry name; the fit layer wraps each one.
-PATTERNS = {
-    "rectangular": rectangular_pattern,
-    "circular": circular_pattern,
-    "two-channel": two_channel_pattern,
-}
-#: Patterns that repeat without decay: no main lobe to locate.
-PERIODIC = {"two-channel"}
+#: Closed-form patterns by geometry name, a read-only view of the model registry.
+PATTERNS = ModelView(lambda spec: spec.formula)
+#: Names of the patterns that repeat without decay (no main lobe to locate).
+PERIODIC = PeriodicNames()
 
 
 def node_flux(geometry, count):
-    """Reduced flux of the first ``count`` nodes on one side of the centre."""
-    if geometry == "rectangular":
-        return np.arange(1, count + 1, dtype=float)
-    if geometry == "circular":
-        return circular_node_flux(count)
-    if geometry == "two-channel":
-        return np.arange(count, dtype=float) + 0.5
-    raise ValueError(f"unknown geometry {geometry!r}")
+    """Reduced flux of the first ``count`` nodes on one side of the centre.
+
+    Raises :class:`~jjpattern.errors.InputError` (a ``ValueError``) for an unknown
+    geometry.
+    """
+    return get_model(geometry).node_flux(count)
