@@ -13,8 +13,7 @@ from . import __version__
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
 
-#: Names offered on the command line; the registries check them again when used.
-MODEL_NAMES = ("rectangular", "circular", "two-channel")
+#: Criteria offered on the command line; the extraction checks them again when used.
 CRITERION_NAMES = ("auto", "voltage", "dvdi-peak", "dvdi-threshold", "resistance")
 
 
@@ -76,10 +75,13 @@ def _analysis_parent() -> argparse.ArgumentParser:
     group.add_argument("--planar", action="store_true",
                        help="a planar thin-film junction (flux-focusing period estimate)")
     group = parent.add_argument_group("fitting and diagnostics")
-    group.add_argument("--model", "--geometry", dest="model", choices=MODEL_NAMES,
-                       default="rectangular",
-                       help="pattern model: the junction's shape; two-channel is a SQUID-like "
-                            "pair of channels (default: rectangular)")
+    from .physics.models import get_model, model_names
+
+    names = model_names()
+    group.add_argument("--model", "--geometry", dest="model", choices=names,
+                       default="rectangular", metavar="MODEL",
+                       help="pattern model (default: rectangular): " + "; ".join(
+                           f"{n}: {get_model(n).description}" for n in names))
     group.add_argument("--node-floor", choices=("auto", "on", "off"), default="auto",
                        help="fit a floor for lifted nodes; auto keeps it when it helps "
                             "(default: auto)")

@@ -93,6 +93,8 @@ class FitResult:
     asymmetry: float | None = None
     asymmetry_stderr: float | None = None
     best_params: dict = field(default_factory=dict)
+    extra_params: dict = field(default_factory=dict)
+    extra_stderr: dict = field(default_factory=dict)
     field_T: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     ic_A: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
 
@@ -101,6 +103,8 @@ class FitResult:
         """Copy the recorded parts of a live :class:`jjpattern.fit.result.PatternFit`."""
         numbers = fit.to_dict()
         return cls(**numbers, best_params=plain(dict(fit.best_params)),
+                   extra_params=plain(dict(getattr(fit, "extra_params", {}))),
+                   extra_stderr=plain(dict(getattr(fit, "extra_stderr", {}))),
                    field_T=np.asarray(fit.field_T, dtype=float).copy(),
                    ic_A=np.asarray(fit.ic_A, dtype=float).copy())
 
@@ -111,6 +115,8 @@ class FitResult:
     def to_dict(self) -> dict:
         out = plain(self.numbers())
         out["best_params"] = plain(self.best_params)
+        out["extra_params"] = plain(self.extra_params)
+        out["extra_stderr"] = plain(self.extra_stderr)
         out["points"] = {"field_T": plain(self.field_T), "ic_A": plain(self.ic_A)}
         return out
 
@@ -119,6 +125,8 @@ class FitResult:
         points = data.get("points") or {}
         numbers = {k: data.get(k) for k in FIT_KEYS if k in data}
         return cls(**numbers, best_params=dict(data.get("best_params") or {}),
+                   extra_params=dict(data.get("extra_params") or {}),
+                   extra_stderr=dict(data.get("extra_stderr") or {}),
                    field_T=np.asarray(points.get("field_T", []), dtype=float),
                    ic_A=np.asarray(points.get("ic_A", []), dtype=float))
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ..physics.models import get_model
 from .display import (
     AREA_UNITS,
     CURRENT_UNITS,
@@ -10,16 +11,6 @@ from .display import (
     format_measure,
     pick_unit,
 )
-
-MODEL_TEXT = {
-    "rectangular": ("the Fraunhofer pattern of a rectangular junction with uniform current "
-                    "density, Ic(B) = Ic0 |sin(pi Phi/Phi0) / (pi Phi/Phi0)|"),
-    "circular": ("the Airy pattern of a circular junction with uniform current density, "
-                 "Ic(B) = Ic0 |2 J1(pi Phi/Phi0) / (pi Phi/Phi0)|"),
-    "two-channel": ("the interference pattern of two parallel channels with unequal "
-                    "critical currents, Ic(B) = Ic0 sqrt(cos^2(pi Phi/Phi0) + a^2 "
-                    "sin^2(pi Phi/Phi0)) with a = (I1 - I2)/(I1 + I2)"),
-}
 
 REFERENCES = {
     "lm": "K. Levenberg, Q. Appl. Math. 2, 164 (1944); D. W. Marquardt, J. Soc. Ind. Appl. "
@@ -118,7 +109,9 @@ def methods_paragraph(result, field_calibration: str) -> str:
     if result.extraction is not None:
         out.append(_extraction_text(result.extraction, cited))
     fits = result.fits
-    model = MODEL_TEXT[fits[0].model]
+    spec = get_model(fits[0].model)
+    model = spec.methods_text + "".join(f" [{key}]" for key in spec.references)
+    cited += list(spec.references)
     branches = " and ".join(f.branch for f in fits)
     floor = any(f.node_floor_A is not None for f in fits)
     out.append(
@@ -193,8 +186,11 @@ def methods_paragraph(result, field_calibration: str) -> str:
                       else "") + ".")
         cited += ["ab"] + (["bcs"] if "BCS" in icrn.get("gap_from", "") else [])
     text = " ".join(out)
-    numbered = {key: i + 1 for i, key in enumerate(dict.fromkeys(cited))}
+    # Numbered in the order the text first cites them.
+    order = sorted(set(cited), key=lambda key: text.find(f"[{key}]"))
+    numbered = {key: i + 1 for i, key in enumerate(k for k in order if f"[{k}]" in text)}
     for key, n in numbered.items():
         text = text.replace(f"[{key}]", f"[{n}]")
-    refs = "\n".join(f"[{n}] {REFERENCES[key]}" for key, n in numbered.items())
+    known = {**REFERENCES, **spec.references}
+    refs = "\n".join(f"[{n}] {known[key]}" for key, n in numbered.items())
     return f"{text}\n\nReferences\n{refs}\n"
