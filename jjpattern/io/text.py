@@ -139,11 +139,14 @@ class _Rows:
 
     def __init__(self, body, delim, names, source, first_line):
         self.body, self.delim, self.names, self.source = body, delim, names, source
+        # Spaces around cells do not count; in a tab-separated file a tab is a cell boundary
+        # even at the start of a line (an empty first cell), as pandas reads it.
+        self.blank = " " if delim == "\t" else " \t"
         self.first_line = first_line  # file line number of body line 0
         self._lines = None
         self._rows = 0
 
-    def _read(self, body, as_text):
+    def _read(self, body, as_text, width):
         import csv
         import io
 
@@ -152,6 +155,8 @@ class _Rows:
         options = dict(sep=r"\s+" if self.delim is None else self.delim, header=None,
                        engine="c", quoting=csv.QUOTE_NONE, skip_blank_lines=True,
                        skipinitialspace=True, keep_default_na=False)
+        if width:  # safe only once every row is known to have at most this many cells
+            options.update(names=list(range(width)), index_col=False)
         if as_text:
             options.update(dtype=object, na_filter=False)
         else:
@@ -159,12 +164,12 @@ class _Rows:
         # Bytes, not StringIO: StringIO holds four bytes per character.
         return pd.read_csv(io.BytesIO(body.encode("utf-8")), encoding="utf-8", **options)
 
-    def _frame(self, body):
+    def _frame(self, width=None):
         """(frame, numeric) or (None, _) when pandas finds rows of different lengths."""
         import pandas as pd
 
         try:
-            return self._read(body, as_text=False), True
+            return self._read(self.body, False, width), True
         except pd.errors.EmptyDataError:
             raise InputError(f"{self.source}: the file has a header but no data rows") from None
         except pd.errors.ParserError:
@@ -172,20 +177,19 @@ class _Rows:
         except ValueError:
             pass  # a cell that is not a number: read as text, find it below
         try:
-            return self._read(body, as_text=True), False
+            return self._read(self.body, True, width), False
         except pd.errors.ParserError:
             return None, False
 
     def columns(self) -> dict:
-        frame, numeric = self._frame(self.body)
+        n = len(self.names)
+        frame, numeric = self._frame()
         if frame is None:
             self._check_lengths(self._data_lines())
-            if self.delim is not None:  # only some rows end with a delimiter: drop it
-                ending = re.compile(rf"{re.escape(self.delim)}[ \t]*$", re.MULTILINE)
-                frame, numeric = self._frame(ending.sub("", self.body))
+            # Every row has n cells or n + 1 with the last empty: some end with a delimiter.
+            frame, numeric = self._frame(width=n + 1)
             if frame is None:
                 raise self._unreadable()
-        n = len(self.names)
         if len(frame) == 0:
             raise InputError(f"{self.source}: the file has a header but no data rows")
         self._rows = len(frame)
@@ -215,8 +219,8 @@ class _Rows:
     def _data_lines(self) -> list[tuple[int, str]]:
         """(file line number, text) of each row pandas reads, in order."""
         if self._lines is None:
-            self._lines = [(self.first_line + i, line)
-                           for i, line in enumerate(self.body.split("\n")) if line.strip(" \t")]
+            self._lines = [(self.first_line + i, line) for i, line
+                           in enumerate(self.body.split("\n")) if line.strip(self.blank)]
         return self._lines
 
     def _where(self, row: int) -> str:
@@ -228,11 +232,10 @@ class _Rows:
     def _check_lengths(self, lines) -> None:
         n = len(self.names)
         for number, line in lines:
-            stripped = line.strip()
             if self.delim is None:
-                cells = stripped.split()
+                cells = line.split()
             else:
-                cells = stripped.split(self.delim)
+                cells = line.strip(self.blank).split(self.delim)
                 if len(cells) == n + 1 and not cells[-1].strip():
                     cells.pop()  # a trailing delimiter
             if len(cells) != n:
