@@ -105,7 +105,8 @@ def parse_table(text: str, source: str) -> tuple[dict, dict]:
     metadata : dict
         ``# key: value`` lines before the header.
     columns : dict
-        Header name to float array in file order (missing cells are NaN), or
+        Header name to a float array in file order (missing cells are NaN; may be
+        read-only, a view of the parsed table), or
         to the message naming the first cell that is not a number: only the
         columns a sweep uses must be numeric (a status column may hold words).
     """
@@ -146,7 +147,7 @@ class _Rows:
         self._lines = None
         self._rows = 0
 
-    def _read(self, body, as_text, width):
+    def _read(self, as_text, width):
         import csv
         import io
 
@@ -162,14 +163,15 @@ class _Rows:
         else:
             options.update(dtype=np.float64, na_values=_NA_TOKENS)
         # Bytes, not StringIO: StringIO holds four bytes per character.
-        return pd.read_csv(io.BytesIO(body.encode("utf-8")), encoding="utf-8", **options)
+        return pd.read_csv(io.BytesIO(self.body.encode("utf-8")), encoding="utf-8",
+                           **options)
 
     def _frame(self, width=None):
         """(frame, numeric) or (None, _) when pandas finds rows of different lengths."""
         import pandas as pd
 
         try:
-            return self._read(self.body, False, width), True
+            return self._read(False, width), True
         except pd.errors.EmptyDataError:
             raise InputError(f"{self.source}: the file has a header but no data rows") from None
         except pd.errors.ParserError:
@@ -177,7 +179,7 @@ class _Rows:
         except ValueError:
             pass  # a cell that is not a number: read as text, find it below
         try:
-            return self._read(self.body, True, width), False
+            return self._read(True, width), False
         except pd.errors.ParserError:
             return None, False
 
