@@ -102,7 +102,7 @@ def tables(draw):
     return "\n".join(lines) + draw(st.sampled_from(["", "\n"]))
 
 
-@settings(max_examples=200, deadline=None)
+@settings(max_examples=120, deadline=None)
 @given(text=tables())
 def test_pandas_reading_agrees_with_a_plain_parser(text):
     expected = reference(text)

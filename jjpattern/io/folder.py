@@ -28,7 +28,7 @@ NAME = "folder"
 
 def sniff(source) -> bool:
     """A folder (there are no bytes of its own)."""
-    return source.raw is None
+    return source.is_folder
 
 
 def read(source, settings, kind: str = "auto") -> IVMap:

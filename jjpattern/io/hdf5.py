@@ -26,8 +26,8 @@ SUFFIXES = (".h5", ".hdf5", ".hdf")
 
 def sniff(source) -> bool:
     """The HDF5 signature at the start, or an HDF5 suffix."""
-    return source.raw is not None and (source.raw.startswith(SIGNATURE)
-                                       or source.suffix in SUFFIXES)
+    return not source.is_folder and (source.raw.startswith(SIGNATURE)
+                                     or source.suffix in SUFFIXES)
 
 
 def read(source, settings, kind: str = "auto"):

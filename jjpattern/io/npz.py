@@ -20,7 +20,7 @@ NAME = "npz"
 
 def sniff(source) -> bool:
     """The zip signature at the start, or the ``.npz`` suffix."""
-    return source.raw is not None and (source.raw.startswith(b"PK") or source.suffix == ".npz")
+    return not source.is_folder and (source.raw.startswith(b"PK") or source.suffix == ".npz")
 
 
 def read(source, settings, kind: str = "auto"):

@@ -29,7 +29,7 @@ _COMMENT_LINE = re.compile(r"^[ \t]*#.*$", re.MULTILINE)
 
 def sniff(source) -> bool:
     """Any file is tried as text (the binary formats are sniffed first)."""
-    return source.raw is not None
+    return not source.is_folder
 
 
 def read(source, settings, kind: str = "auto"):
