@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from ..settings import ReadSettings
 from .maps import IVMap
+from .registry import reader_for
 from .source import Source, folder_sha256, open_source
 from .sweep import MIN_POINTS, Branch, Sweep
 
@@ -41,8 +42,6 @@ def read(path, settings: ReadSettings | None = None, *, kind: str = "auto") -> S
         In SI units, with the SHA-256 of the input (for a folder, of its file
         names and contents).
     """
-    from .registry import reader_for
-
     source = open_source(path)
     return reader_for(source).read(source, settings or ReadSettings(), kind)
 

@@ -32,7 +32,11 @@ _DVDI_NAMES = {"dvdi", "dv/di", "dv_di", "dvdi_lockin", "r_diff", "rdiff", "dv/d
 
 @dataclass(frozen=True)
 class IVMap:
-    """A raw map: ``signal[i, k]`` measured at ``field_T[i]`` and ``bias_A[i, k]``."""
+    """A raw map: ``signal[i, k]`` measured at ``field_T[i]`` and ``bias_A[i, k]``.
+
+    ``bias_A`` is usually one row broadcast over the map (read-only, stride 0
+    along the field); test with ``bias_A.strides[0] == 0``.
+    """
 
     path: str
     sha256: str | None
