@@ -30,6 +30,27 @@ def _hdf5_empty(tmp_path):
     return str(path)
 
 
+def _hdf5_map_of_words(tmp_path):
+    path = tmp_path / "words.h5"
+    with h5py.File(path, "w") as f:
+        f.create_dataset("field", data=np.arange(3.0)).attrs["units"] = "mT"
+        f.create_dataset("bias", data=np.arange(4.0)).attrs["units"] = "uA"
+        f.create_dataset("voltage", data=np.full((3, 4), b"high")).attrs["units"] = "uV"
+    return str(path)
+
+
+def _npy_as_npz(tmp_path):
+    path = tmp_path / "one.npz"
+    with open(path, "wb") as handle:
+        np.save(handle, np.arange(20.0))
+    return str(path)
+
+
+def _empty_folder(tmp_path):
+    (tmp_path / "ivs").mkdir()
+    return str(tmp_path / "ivs")
+
+
 CASES = {
     "missing file": (lambda t: str(t / "nope.csv"), "file not found"),
     "empty file": (lambda t: _write(t, "e.csv", ""), "empty"),
@@ -58,6 +79,11 @@ CASES = {
     "hdf5 without units": (_hdf5_missing_units, "has no unit"),
     "corrupt npz": (lambda t: _write(t, "c.npz", "PK not really"), "not a readable .npz"),
     "binary junk": (lambda t: _write(t, "j.dat", "\x00\x01\x02" * 50), "binary"),
+    "word in a later row": (lambda t: _write(t, "w.csv", "B (mT),Ic (uA)\n" + GOOD_ROWS
+                                             + "\n3.1,lost\n"), "line 63, column 'Ic (uA)'"),
+    "map of words": (_hdf5_map_of_words, "not numbers"),
+    "empty folder": (_empty_folder, "holds no I-V files"),
+    "npz that is one array": (_npy_as_npz, "not an archive"),
 }
 
 

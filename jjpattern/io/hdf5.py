@@ -1,16 +1,55 @@
-"""HDF5 sweeps through h5py.
+"""HDF5 through h5py, from the bytes already read (the file is not opened again).
 
-Default layout: 1-D datasets at the root named like the columns of a text
-file (``field``, ``ic``, ``ic_pos``, ``ic_neg`` ...), each with a ``units``
-attribute (``"mT"``, ``"uA"``); metadata from the file's root attributes.
-``field_col`` / ``ic_cols`` name other dataset paths.
+Sweep layout: 1-D datasets at the root named like the columns of a text file
+(``field``, ``ic``, ``ic_pos``, ``ic_neg`` ...), each with a ``units``
+attribute (``"mT"``, ``"uA"``). Map layout: ``field``, ``bias`` and a 2-D
+``voltage`` or ``dvdi`` (see :mod:`jjpattern.io.maps`). A 2-D dataset at the
+root makes the file a map. Metadata come from the root attributes;
+``field_col`` / ``ic_cols`` / ``bias_col`` / ``signal_col`` name other
+dataset paths.
 """
 
 from __future__ import annotations
 
+import io
+
 import numpy as np
 
 from ..errors import InputError
+from .maps import choose_kind, from_arrays, pick_column
+from .sweep import build_sweep
+
+NAME = "hdf5"
+SIGNATURE = b"\x89HDF\r\n\x1a\n"
+SUFFIXES = (".h5", ".hdf5", ".hdf")
+
+
+def sniff(source) -> bool:
+    """The HDF5 signature at the start, or an HDF5 suffix."""
+    return not source.is_folder and (source.raw.startswith(SIGNATURE)
+                                     or source.suffix in SUFFIXES)
+
+
+def read(source, settings, kind: str = "auto"):
+    """A Sweep from 1-D datasets, or an IVMap when the root holds a 2-D dataset."""
+    import h5py
+
+    try:
+        # BytesIO shares the bytes that were hashed: what is read is what was hashed.
+        handle = h5py.File(io.BytesIO(source.raw), "r")
+    except (OSError, ValueError) as exc:
+        raise InputError(f"{source.path}: not a readable HDF5 file "
+                         f"({exc.__class__.__name__})") from None
+    with handle:
+        metadata = {k: _text(v) for k, v in handle.attrs.items()}
+        # h5py builds an object per lookup (slow, ~0.5 ms): look each dataset up once.
+        root = {k: v for k, v in handle.items() if isinstance(v, h5py.Dataset)}
+        has_map = any(v.ndim == 2 for v in root.values())
+        if choose_kind(kind, settings, has_map) == "map":
+            return _map(handle, root, source, settings, metadata)
+        columns, units = _columns(handle, root, source.path, settings)
+    return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
+                       units=units, metadata=metadata, where="dataset")
 
 
 def _text(value) -> str:
@@ -21,50 +60,78 @@ def _text(value) -> str:
     return str(value)
 
 
-def read_columns(path: str, source: str, paths=()) -> tuple[dict, dict, dict]:
-    """Read 1-D datasets, their units and the root attributes.
+def _unit(ds) -> str | None:
+    attrs = ds.attrs
+    for key in ("units", "unit"):
+        if key in attrs:
+            return _text(attrs[key])
+    return None
 
-    Returns ``(columns, units, metadata)``; with ``paths`` only those datasets.
-    """
+
+def _dataset(handle, name, path):
     import h5py
 
-    try:
-        handle = h5py.File(path, "r")
-    except OSError as exc:
-        raise InputError(f"{source}: not a readable HDF5 file ({exc.__class__.__name__})") from None
+    found = handle.get(name)
+    if not isinstance(found, h5py.Dataset):
+        raise InputError(f"{path}: no dataset at {name!r}; check the path")
+    return found
+
+
+def _floats(ds, path) -> np.ndarray:
+    """The dataset as float64, converted by HDF5 while reading (no second copy)."""
+    if ds.dtype.kind not in "iuf":
+        raise InputError(f"{path}: dataset {ds.name!r} holds {ds.dtype}, not numbers")
+    if ds.dtype == np.float64:
+        return np.asarray(ds[()])
+    return np.asarray(ds.astype(np.float64)[()])
+
+
+def _columns(handle, root, path, settings) -> tuple[dict, dict]:
+    """1-D numeric datasets (all at the root, or the named ones) and their units."""
+    explicit = ([settings.field_col] if settings.field_col else []) + list(settings.ic_cols)
+    if explicit and not (settings.field_col and settings.ic_cols):
+        raise InputError(f"{path}: give both --field-col and --ic-col as dataset paths, "
+                         "or neither")
+    if explicit:
+        selected = {name: _dataset(handle, name, path) for name in explicit}
+    else:
+        selected = root
+        if not selected:
+            raise InputError(f"{path}: the HDF5 file holds no datasets at its root")
     columns: dict[str, np.ndarray] = {}
     units: dict[str, str] = {}
-    with handle:
-        metadata = {k: _text(v) for k, v in handle.attrs.items()}
-        if paths:
-            selected = []
-            for p in paths:
-                if p not in handle or not isinstance(handle[p], h5py.Dataset):
-                    raise InputError(f"{source}: no dataset at {p!r}; check the path")
-                selected.append(p)
-        else:
-            selected = [k for k, v in handle.items() if isinstance(v, h5py.Dataset)]
-            if not selected:
-                raise InputError(f"{source}: the HDF5 file holds no datasets at its root")
-        for name in selected:
-            ds = handle[name]
-            if ds.ndim != 1 or ds.dtype.kind not in "iuf":
-                if paths:
-                    raise InputError(
-                        f"{source}: dataset {name!r} is not a 1-D numeric array "
-                        f"(shape {ds.shape}, type {ds.dtype})"
-                    )
-                continue
-            columns[name] = np.asarray(ds[()], dtype=float)
-            unit = ds.attrs.get("units", ds.attrs.get("unit"))
-            if unit is not None:
-                units[name] = _text(unit)
+    for name, ds in selected.items():
+        if ds.ndim != 1 or ds.dtype.kind not in "iuf":
+            if explicit:
+                raise InputError(f"{path}: dataset {name!r} is not a 1-D numeric array "
+                                 f"(shape {ds.shape}, type {ds.dtype})")
+            continue
+        columns[name] = _floats(ds, path)
+        unit = _unit(ds)
+        if unit is not None:
+            units[name] = unit
     if not columns:
-        raise InputError(f"{source}: the HDF5 file holds no 1-D numeric datasets at its root")
-    lengths = {c.size for c in columns.values()}
-    if len(lengths) > 1:
-        raise InputError(
-            f"{source}: the datasets have different lengths "
-            f"({', '.join(f'{k}: {v.size}' for k, v in columns.items())})"
-        )
-    return columns, units, metadata
+        raise InputError(f"{path}: the HDF5 file holds no 1-D numeric datasets at its root")
+    if len({c.size for c in columns.values()}) > 1:
+        raise InputError(f"{path}: the datasets have different lengths "
+                         f"({', '.join(f'{k}: {v.size}' for k, v in columns.items())})")
+    return columns, units
+
+
+def _map(handle, root, source, settings, metadata):
+    """The map datasets (recognised at the root, or named), read once each."""
+    path = source.path
+    names, found = {}, {}
+    for role, explicit in (("field", settings.field_col), ("bias", settings.bias_col),
+                           ("signal", settings.signal_col)):
+        if explicit:
+            names[role], found[role] = explicit, _dataset(handle, explicit, path)
+        else:
+            names[role] = pick_column(list(root), role, None, path, f"{role} dataset")
+            found[role] = root[names[role]]
+    arrays = {role: _floats(ds, path) for role, ds in found.items()}
+    units = {names[role]: unit for role, ds in found.items()
+             if (unit := _unit(ds)) is not None}
+    return from_arrays(arrays["field"], arrays["bias"], arrays["signal"], units, names,
+                       source=path, sha256=source.sha256, metadata=metadata,
+                       settings=settings, owned=True)

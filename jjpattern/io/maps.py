@@ -1,8 +1,10 @@
-"""Raw V(I, B) maps: HDF5 arrays, long-form text tables, or a folder of I-V files.
+"""Raw V(I, B) maps in SI, built from arrays or a long table (the readers do the files).
 
-Every reader ends in :class:`IVMap`: one row per field step, the bias in
+Every map reader ends in :class:`IVMap`: one row per field step, the bias in
 acquisition order along each row (NaN-padded where rows differ in length),
-and the measured voltage (V) or differential resistance dV/dI (ohm).
+and the measured voltage (V) or differential resistance dV/dI (ohm). When
+every row has the same bias values the bias is one row broadcast over the
+map (stride 0 along the field), which extraction uses as its fast path.
 
 HDF5 default layout: 1-D ``field`` (n_field) and ``bias`` (n_bias, or 2-D
 (n_field, n_bias) when the bias differs per row), and 2-D ``voltage`` or
@@ -11,15 +13,17 @@ HDF5 default layout: 1-D ``field`` (n_field) and ``bias`` (n_bias, or 2-D
 
 from __future__ import annotations
 
-import os
-import re
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from ..errors import InputError
+from ..settings import ReadSettings
 from .sweep import field_values_T, is_field_name, numeric, role_key
 from .units import current_factor, resistance_factor, split_header, voltage_factor
+
+#: Former name of the read settings, kept for callers not yet moved to ReadSettings.
+MapOptions = ReadSettings
 
 _BIAS_NAMES = {"i", "bias", "i_bias", "ibias", "current", "i_dc", "idc", "i_set", "iset"}
 _VOLTAGE_NAMES = {"v", "voltage", "vdc", "v_dc", "u", "v_meas"}
@@ -28,7 +32,11 @@ _DVDI_NAMES = {"dvdi", "dv/di", "dv_di", "dvdi_lockin", "r_diff", "rdiff", "dv/d
 
 @dataclass(frozen=True)
 class IVMap:
-    """A raw map: ``signal[i, k]`` measured at ``field_T[i]`` and ``bias_A[i, k]``."""
+    """A raw map: ``signal[i, k]`` measured at ``field_T[i]`` and ``bias_A[i, k]``.
+
+    ``bias_A`` is usually one row broadcast over the map (read-only, stride 0
+    along the field); test with ``bias_A.strides[0] == 0``.
+    """
 
     path: str
     sha256: str | None
@@ -62,7 +70,8 @@ def looks_like_map(names) -> bool:
     return "bias" in roles and bool(roles & {"voltage", "dvdi"})
 
 
-def _pick(names, role, explicit, source, what):
+def pick_column(names, role, explicit, source, what) -> str:
+    """The column (or dataset) of a role: the one named, or the one recognised."""
     if explicit:
         for n in names:
             if n == explicit or split_header(n)[0] == explicit:
@@ -90,25 +99,23 @@ def _signal_kind(name: str, unit: str | None) -> str:
     return "dvdi" if unit and "ohm" in unit.lower() or unit in ("\u03a9",) else "voltage"
 
 
-def _signal_si(raw, kind, unit, where):
+def _signal_factor(kind, unit, where) -> float:
     if kind == "dvdi":
-        return raw * resistance_factor(unit, where)
-    return raw * voltage_factor(unit, where)
+        return resistance_factor(unit, where)
+    return voltage_factor(unit, where)
 
 
-@dataclass
-class MapOptions:
-    """Column / dataset choices and units for raw maps (all optional)."""
-
-    field_col: str | None = None
-    bias_col: str | None = None
-    signal_col: str | None = None
-    field_unit: str | None = None
-    current_unit: str | None = None
-    signal_unit: str | None = None
-    coil_T_per_A: float | None = None
-    transpose: bool = False
-    field_from_name: str | None = None
+def choose_kind(kind: str, settings: ReadSettings, looks_like_a_map: bool) -> str:
+    """``'sweep'`` or ``'map'``: as asked, else from explicit columns, else from the data."""
+    if kind not in ("auto", "sweep", "map"):
+        raise ValueError(f"kind must be 'auto', 'sweep' or 'map', not {kind!r}")
+    if kind != "auto":
+        return kind
+    if settings.ic_cols:
+        return "sweep"
+    if settings.bias_col or settings.signal_col:
+        return "map"
+    return "map" if looks_like_a_map else "sweep"
 
 
 def _units(unit_of, name, given, source, what, option):
@@ -118,22 +125,32 @@ def _units(unit_of, name, given, source, what, option):
     return unit
 
 
-def from_long_table(columns: dict, *, source, sha256, metadata, opts: MapOptions) -> IVMap:
+def share_bias(bias_A: np.ndarray) -> np.ndarray:
+    """A 2-D bias whose rows are all equal (NaN padding included) as one broadcast row."""
+    if bias_A.ndim != 2 or bias_A.shape[0] < 2 or bias_A.strides[0] == 0:
+        return bias_A
+    first = bias_A[0]
+    same = (bias_A == first) | (np.isnan(bias_A) & np.isnan(first))
+    return np.broadcast_to(first, bias_A.shape) if same.all() else bias_A
+
+
+def from_long_table(columns: dict, *, source, sha256, metadata,
+                    settings: ReadSettings) -> IVMap:
     """Pivot a long table (one row per field and bias point, any order) into a map."""
     names = list(columns)
-    fcol = _pick(names, "field", opts.field_col, source, "field column")
-    bcol = _pick(names, "bias", opts.bias_col, source, "bias column")
-    scol = _pick(names, "signal", opts.signal_col, source, "voltage or dV/dI column")
+    fcol = pick_column(names, "field", settings.field_col, source, "field column")
+    bcol = pick_column(names, "bias", settings.bias_col, source, "bias column")
+    scol = pick_column(names, "signal", settings.signal_col, source, "voltage or dV/dI column")
     unit_of = lambda n: split_header(n)[1]  # noqa: E731
-    f_unit = _units(unit_of, fcol, opts.field_unit, source, "column", "--field-unit")
-    b_unit = _units(unit_of, bcol, opts.current_unit, source, "column", "--current-unit")
-    s_unit = _units(unit_of, scol, opts.signal_unit, source, "column", "--signal-unit")
+    f_unit = _units(unit_of, fcol, settings.field_unit, source, "column", "--field-unit")
+    b_unit = _units(unit_of, bcol, settings.current_unit, source, "column", "--current-unit")
+    s_unit = _units(unit_of, scol, settings.signal_unit, source, "column", "--signal-unit")
     kind = _signal_kind(scol, s_unit)
     field_T = field_values_T(numeric(columns, fcol, "column"), f_unit,
-                             f"{source}: column {fcol!r}", opts.coil_T_per_A)
+                             f"{source}: column {fcol!r}", settings.coil_T_per_A)
     bias = numeric(columns, bcol, "column") * current_factor(b_unit, f"{source}: column {bcol!r}")
-    signal = _signal_si(numeric(columns, scol, "column"), kind, s_unit,
-                        f"{source}: column {scol!r}")
+    signal = numeric(columns, scol, "column") * _signal_factor(kind, s_unit,
+                                                              f"{source}: column {scol!r}")
     keep = np.isfinite(field_T)
     field_T, bias, signal = field_T[keep], bias[keep], signal[keep]
     if field_T.size == 0:
@@ -148,12 +165,49 @@ def from_long_table(columns: dict, *, source, sha256, metadata, opts: MapOptions
     s2 = np.full_like(b2, np.nan)
     b2[inverse[order], col] = bias[order]
     s2[inverse[order], col] = signal[order]
-    return IVMap(source, sha256, steps, b2, s2, kind, dict(metadata), "long table")
+    return IVMap(source, sha256, steps, share_bias(b2), s2, kind, dict(metadata), "long table")
+
+
+def _permute_rows(values, order) -> None:
+    """``values[:] = values[order]`` through one row buffer instead of a second map."""
+    done = np.zeros(order.size, dtype=bool)
+    for start in np.flatnonzero(order != np.arange(order.size)):
+        if done[start]:
+            continue
+        saved, i = values[start].copy(), start
+        while order[i] != start:  # follow the cycle: row i takes row order[i]
+            values[i], done[i], i = values[order[i]], True, order[i]
+        values[i], done[i] = saved, True
+
+
+def _rows_si(values, order, factor, owned):
+    """Rows in field order, C-contiguous, times ``factor``; at most one copy.
+
+    ``owned`` arrays (just read from a file) are reordered and scaled in place.
+    """
+    if not values.flags.c_contiguous:
+        values, owned = np.ascontiguousarray(values), True
+    if order is not None:
+        if owned and values.flags.writeable:
+            _permute_rows(values, order)
+        else:
+            values, owned = values[order], True
+    if factor == 1.0:
+        return values
+    if owned:
+        values *= factor
+        return values
+    return values * factor
 
 
 def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, source, sha256,
-                metadata, opts: MapOptions) -> IVMap:
-    """Build a map from HDF5-style arrays, transposing (n_bias, n_field) layouts."""
+                metadata, settings: ReadSettings, owned: bool = False) -> IVMap:
+    """Build a map from HDF5-style arrays, transposing (n_bias, n_field) layouts.
+
+    A 1-D bias (or a 2-D one with equal rows) stays one row broadcast over the
+    map. With ``owned`` the float64 arrays belong to the caller no longer and
+    are scaled in place instead of copied.
+    """
     field_raw = np.asarray(field_raw, dtype=float).ravel()
     bias_raw = np.asarray(bias_raw, dtype=float)
     sig = np.asarray(signal_raw, dtype=float)
@@ -161,7 +215,7 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     if sig.ndim != 2:
         raise InputError(f"{source}: {names['signal']!r} must be 2-D, found shape {sig.shape}")
     layout = "field x bias"
-    if opts.transpose or (sig.shape[0] != n_f and sig.shape[1] == n_f):
+    if settings.transpose or (sig.shape[0] != n_f and sig.shape[1] == n_f):
         sig = sig.T
         bias_raw = bias_raw.T if bias_raw.ndim == 2 else bias_raw
         layout = "bias x field (transposed on reading)"
@@ -172,128 +226,29 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
         if bias_raw.size != sig.shape[1]:
             raise InputError(f"{source}: {names['bias']!r} has {bias_raw.size} values but the "
                              f"map has {sig.shape[1]} bias points per row")
-        bias_raw = np.broadcast_to(bias_raw, sig.shape)
     elif bias_raw.shape != sig.shape:
         raise InputError(f"{source}: {names['bias']!r} has shape {bias_raw.shape}, the map "
                          f"{sig.shape}; they must match")
     where = f"{source}: dataset"
-    f_unit = _units(units.get, names["field"], opts.field_unit, source, "dataset",
+    f_unit = _units(units.get, names["field"], settings.field_unit, source, "dataset",
                     "--field-unit")
-    b_unit = _units(units.get, names["bias"], opts.current_unit, source, "dataset",
+    b_unit = _units(units.get, names["bias"], settings.current_unit, source, "dataset",
                     "--current-unit")
-    s_unit = _units(units.get, names["signal"], opts.signal_unit, source, "dataset",
+    s_unit = _units(units.get, names["signal"], settings.signal_unit, source, "dataset",
                     "--signal-unit")
     kind = _signal_kind(names["signal"], s_unit)
     field_T = field_values_T(field_raw, f_unit, f"{where} {names['field']!r}",
-                             opts.coil_T_per_A)
-    bias = bias_raw * current_factor(b_unit, f"{where} {names['bias']!r}")
-    signal = _signal_si(sig, kind, s_unit, f"{where} {names['signal']!r}")
+                             settings.coil_T_per_A)
+    b_factor = current_factor(b_unit, f"{where} {names['bias']!r}")
+    s_factor = _signal_factor(kind, s_unit, f"{where} {names['signal']!r}")
     order = np.argsort(field_T, kind="stable")
-    return IVMap(source, sha256, field_T[order], np.array(bias[order]), signal[order], kind,
-                 dict(metadata), layout)
-
-
-def read_hdf5_map(path: str, sha256, opts: MapOptions) -> IVMap:
-    """Read the default HDF5 map layout (or the named dataset paths)."""
-    import h5py
-
-    from .hdf5 import _text
-
-    try:
-        handle = h5py.File(path, "r")
-    except OSError as exc:
-        raise InputError(f"{path}: not a readable HDF5 file ({exc.__class__.__name__})") from None
-    with handle:
-        datasets = {k: v for k, v in handle.items() if isinstance(v, h5py.Dataset)}
-        names = {}
-        for role, explicit in (("field", opts.field_col), ("bias", opts.bias_col),
-                               ("signal", opts.signal_col)):
-            if explicit:
-                if explicit not in handle or not isinstance(handle[explicit], h5py.Dataset):
-                    raise InputError(f"{path}: no dataset at {explicit!r}; check the path")
-                names[role] = explicit
-            else:
-                names[role] = _pick(list(datasets), role, None, path, f"{role} dataset")
-        arrays = {r: handle[n][()] for r, n in names.items()}
-        units = {n: _text(handle[n].attrs[a]) for n in names.values()
-                 for a in ("units", "unit") if a in handle[n].attrs}
-        metadata = {k: _text(v) for k, v in handle.attrs.items()}
-    return from_arrays(arrays["field"], arrays["bias"], arrays["signal"], units, names,
-                       source=path, sha256=sha256, metadata=metadata, opts=opts)
-
-
-def hdf5_has_map(path: str) -> bool:
-    """True when the file's root holds a 2-D dataset (a raw map rather than a sweep)."""
-    import h5py
-
-    try:
-        with h5py.File(path, "r") as handle:
-            return any(isinstance(v, h5py.Dataset) and v.ndim == 2 for v in handle.values())
-    except OSError:
-        return False
-
-
-def _field_of_file(path, metadata, opts: MapOptions):
-    """The field of one I-V file, from its name (``--field-from-name``) or a metadata line."""
-    name = os.path.basename(path)
-    if opts.field_from_name:
-        match = re.search(opts.field_from_name, name)
-        if not match:
-            raise InputError(f"{path}: the file name does not match --field-from-name "
-                             f"{opts.field_from_name!r}")
-        text = match.groupdict().get("field") or match.group(1)
-        unit = opts.field_unit
-        if not unit:
-            raise InputError(f"{path}: a field taken from the file name needs --field-unit")
-        return float(text), unit
-    for key, value in metadata.items():
-        k_name, k_unit = split_header(key)
-        if is_field_name(k_name, coil=opts.coil_T_per_A is not None):
-            parts = value.split()
-            unit = k_unit or (parts[1] if len(parts) > 1 else None) or opts.field_unit
-            try:
-                return float(parts[0]), unit
-            except (ValueError, IndexError):
-                raise InputError(f"{path}: metadata {key!r} = {value!r} is not a field value"
-                                 ) from None
-    raise InputError(f"{path}: no field value; add a line '# field: 1.25 mT' or pass "
-                     "--field-from-name with a pattern for the file name")
-
-
-def read_iv_folder(folder: str, opts: MapOptions) -> IVMap:
-    """One I-V file per field step; the field from a metadata line or the file name."""
-    import hashlib
-
-    from .text import decode, parse_table
-
-    files = sorted(os.path.join(folder, f) for f in os.listdir(folder)
-                   if not f.startswith(".") and os.path.isfile(os.path.join(folder, f)))
-    if not files:
-        raise InputError(f"{folder}: the folder holds no I-V files")
-    rows, fields, digest, meta0 = [], [], hashlib.sha256(), {}
-    for path in files:
-        with open(path, "rb") as handle:
-            raw = handle.read()
-        digest.update(raw)
-        metadata, columns, _ = parse_table(decode(raw, path), path)
-        value, unit = _field_of_file(path, metadata, opts)
-        if not unit:
-            raise InputError(f"{path}: the field value has no unit; pass --field-unit")
-        columns = {**columns, "__field__": np.full(len(next(iter(columns.values()))), value)}
-        one = from_long_table(columns, source=path, sha256=None, metadata=metadata,
-                              opts=MapOptions(**{**opts.__dict__, "field_col": "__field__",
-                                                 "field_unit": unit}))
-        rows.append((one.bias_A[0], one.signal[0], one.kind))
-        fields.append(one.field_T[0])
-        meta0 = meta0 or metadata
-    kinds = {k for _, _, k in rows}
-    if len(kinds) > 1:
-        raise InputError(f"{folder}: some files hold voltage and others dV/dI; use one kind")
-    width = max(r[0].size for r in rows)
-    bias = np.full((len(rows), width), np.nan)
-    signal = np.full_like(bias, np.nan)
-    for i, (b, s, _) in enumerate(rows):
-        bias[i, :b.size], signal[i, :s.size] = b, s
-    order = np.argsort(fields, kind="stable")
-    return IVMap(folder, digest.hexdigest(), np.asarray(fields)[order], bias[order],
-                 signal[order], kinds.pop(), meta0, "folder of I-V files")
+    if np.array_equal(order, np.arange(n_f)):
+        order = None  # already in field order: no copy
+    else:
+        field_T = field_T[order]
+    signal = _rows_si(sig, order, s_factor, owned)
+    if bias_raw.ndim == 1:
+        bias = np.broadcast_to(bias_raw * b_factor, signal.shape)
+    else:
+        bias = share_bias(_rows_si(bias_raw, order, b_factor, owned))
+    return IVMap(source, sha256, field_T, bias, signal, kind, dict(metadata), layout)

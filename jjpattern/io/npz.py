@@ -1,4 +1,4 @@
-"""NumPy ``.npz`` sweeps, read with ``allow_pickle=False``.
+"""NumPy ``.npz`` sweeps, read from the bytes already read, with ``allow_pickle=False``.
 
 Keys are column names with their unit (``B_mT``, ``Ic_uA``); an optional
 ``metadata`` key holds a JSON object as a string.
@@ -6,20 +6,41 @@ Keys are column names with their unit (``B_mT``, ``Ic_uA``); an optional
 
 from __future__ import annotations
 
+import io
 import json
 import zipfile
 
 import numpy as np
 
 from ..errors import InputError
+from .sweep import build_sweep
+
+NAME = "npz"
 
 
-def read_columns(path: str, source: str) -> tuple[dict, dict]:
-    """Return ``(columns, metadata)`` from an ``.npz`` archive."""
+def sniff(source) -> bool:
+    """The zip signature at the start, or the ``.npz`` suffix."""
+    return not source.is_folder and (source.raw.startswith(b"PK") or source.suffix == ".npz")
+
+
+def read(source, settings, kind: str = "auto"):
+    """A Sweep from the archive's 1-D numeric arrays (an .npz holds no raw maps)."""
+    if kind == "map":
+        raise InputError(f"{source.path}: an .npz file holds an Ic(B) sweep, not a raw map; "
+                         "save the map as HDF5 or as a long text table")
+    columns, metadata = read_columns(source.raw, source.path)
+    return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
+                       metadata=metadata, where="array")
+
+
+def read_columns(raw: bytes, source: str) -> tuple[dict, dict]:
+    """Return ``(columns, metadata)`` from the bytes of an ``.npz`` archive."""
     try:
-        archive = np.load(path, allow_pickle=False)
-    except (OSError, ValueError, zipfile.BadZipFile) as exc:
+        archive = np.load(io.BytesIO(raw), allow_pickle=False)
+    except (OSError, ValueError, EOFError, zipfile.BadZipFile) as exc:
         raise InputError(f"{source}: not a readable .npz file ({exc})") from None
+    if not isinstance(archive, np.lib.npyio.NpzFile):
+        raise InputError(f"{source}: not a readable .npz file (a single array, not an archive)")
     columns: dict[str, np.ndarray] = {}
     metadata: dict = {}
     with archive:
@@ -30,6 +51,8 @@ def read_columns(path: str, source: str) -> tuple[dict, dict]:
                 raise InputError(
                     f"{source}: array {key!r} needs pickle, which is refused for safety"
                 ) from None
+            except (OSError, EOFError, zipfile.BadZipFile) as exc:
+                raise InputError(f"{source}: array {key!r} cannot be read ({exc})") from None
             if key == "metadata":
                 try:
                     metadata = dict(json.loads(str(value)))
@@ -38,7 +61,7 @@ def read_columns(path: str, source: str) -> tuple[dict, dict]:
                         f"{source}: 'metadata' must be a JSON object stored as a string"
                     ) from None
             elif value.ndim == 1 and value.dtype.kind in "iuf":
-                columns[key] = value.astype(float)
+                columns[key] = value.astype(float, copy=False)
     if not columns:
         raise InputError(f"{source}: the .npz file holds no 1-D numeric arrays")
     if len({v.size for v in columns.values()}) > 1:

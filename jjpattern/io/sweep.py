@@ -9,6 +9,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..sampling import tidy
+from ..settings import ReadSettings
 from .units import current_factor, field_factor, split_header
 
 #: A fit needs at least this many usable points per branch.
@@ -133,28 +134,30 @@ def build_sweep(
     columns: dict,
     *,
     source: str,
+    sha256: str | None = None,
+    settings: ReadSettings | None = None,
     units: dict | None = None,
     metadata: dict | None = None,
-    field_col: str | None = None,
-    ic_cols=(),
-    field_unit: str | None = None,
-    current_unit: str | None = None,
-    sha256: str | None = None,
     where: str = "column",
-    coil_T_per_A: float | None = None,
 ) -> Sweep:
     """Pick the field and Ic columns, convert to SI and clean each branch.
 
     Parameters
     ----------
     columns : dict
-        Column (or dataset) name to 1-D array of raw numbers, in file order.
+        Column (or dataset) name to 1-D array of raw numbers, in file order,
+        or to the message naming its first cell that is not a number.
+    settings : ReadSettings, optional
+        ``field_col``, ``ic_cols``, ``field_unit``, ``current_unit`` and
+        ``coil_T_per_A`` override recognition from the names.
     units : dict, optional
         Units given apart from the names (HDF5 attributes); otherwise taken
         from the names (``'B (mT)'``, ``'B_mT'``).
-    field_col, ic_cols, field_unit, current_unit
-        Explicit choices that override recognition.
     """
+    settings = settings or ReadSettings()
+    field_col, ic_cols = settings.field_col, settings.ic_cols
+    field_unit, current_unit = settings.field_unit, settings.current_unit
+    coil_T_per_A = settings.coil_T_per_A
     units = units or {}
     names = list(columns)
     if field_col is not None:

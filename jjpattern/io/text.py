@@ -1,4 +1,12 @@
-"""Delimited text sweeps (CSV, TSV, semicolon or whitespace) with a header row."""
+"""Delimited text (CSV, TSV, semicolon or whitespace) with a header row, read by pandas.
+
+Layout: optional ``# key: value`` metadata lines, one header row naming the
+columns with their units (``B (mT)``, ``Ic_uA``), then rows of numbers. Blank
+lines and lines starting with ``#`` are skipped anywhere; a delimiter at the
+end of a row is allowed. The same reader serves Ic(B) tables and long-table
+raw maps (one row per field and bias point). pandas parses the rows; the
+file and line of any problem are found afterwards, only when there is one.
+"""
 
 from __future__ import annotations
 
@@ -7,9 +15,31 @@ import re
 import numpy as np
 
 from ..errors import InputError
+from .maps import choose_kind, from_long_table, looks_like_map
+from .sweep import build_sweep
+
+NAME = "text"
 
 _META = re.compile(r"^#\s*(?P<key>[A-Za-z][\w .\-/]*?)\s*[:=]\s*(?P<value>.*?)\s*$")
 _MISSING = {"", "nan", "na", "n/a", "none", "null", "-", "--"}
+# pandas matches missing-value markers exactly; other spellings take the slow path.
+_NA_TOKENS = sorted({v for m in _MISSING for v in (m, m.upper(), m.title())} | {"NaN"})
+_COMMENT_LINE = re.compile(r"^[ \t]*#.*$", re.MULTILINE)
+
+
+def sniff(source) -> bool:
+    """Any file is tried as text (the binary formats are sniffed first)."""
+    return not source.is_folder
+
+
+def read(source, settings, kind: str = "auto"):
+    """A Sweep from an Ic(B) table, or an IVMap from a long table of bias and voltage."""
+    metadata, columns = parse_table(decode(source.raw, source.path), source.path)
+    if choose_kind(kind, settings, looks_like_map(columns)) == "map":
+        return from_long_table(columns, source=source.path, sha256=source.sha256,
+                               metadata=metadata, settings=settings)
+    return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
+                       metadata=metadata)
 
 
 def decode(raw: bytes, source: str) -> str:
@@ -24,9 +54,8 @@ def decode(raw: bytes, source: str) -> str:
 
 def split_whitespace_header(line: str) -> list[str]:
     """Split a whitespace header, keeping ``'B (mT)'`` together as one name."""
-    tokens = line.split()
     merged: list[str] = []
-    for tok in tokens:
+    for tok in line.split():
         if merged and tok[:1] in "([":
             merged[-1] = f"{merged[-1]} {tok}"
         else:
@@ -49,103 +78,182 @@ def _is_number(text: str) -> bool:
     return True
 
 
-def parse_table(text: str, source: str) -> tuple[dict, dict[str, np.ndarray], list[int]]:
-    """Parse metadata comments, the header and numeric rows.
+def _head(text: str, source: str) -> tuple[dict, int, str, int]:
+    """Metadata, the header's line number and text, and where the rows start."""
+    metadata: dict[str, str] = {}
+    pos, number = 0, 0
+    while pos <= len(text):
+        end = text.find("\n", pos)
+        end = len(text) if end < 0 else end
+        number += 1
+        stripped = text[pos:end].strip()
+        if stripped.startswith("#"):
+            match = _META.match(stripped)
+            if match:
+                metadata[match.group("key").strip()] = match.group("value")
+        elif stripped:
+            return metadata, number, stripped, end + 1
+        pos = end + 1
+    raise InputError(f"{source}: the file is empty (no header row and no data)")
+
+
+def parse_table(text: str, source: str) -> tuple[dict, dict]:
+    """Parse metadata comments, the header and the numeric rows.
 
     Returns
     -------
     metadata : dict
         ``# key: value`` lines before the header.
     columns : dict
-        Header name to float array (missing cells are NaN), or to the message
-        naming the first cell that is not a number.
-    line_numbers : list of int
-        The file line of each data row, for messages.
+        Header name to a float array in file order (missing cells are NaN; may be
+        read-only, a view of the parsed table), or
+        to the message naming the first cell that is not a number: only the
+        columns a sweep uses must be numeric (a status column may hold words).
     """
-    metadata: dict[str, str] = {}
-    lines = text.splitlines()
-    header_at = None
-    for i, line in enumerate(lines):
-        stripped = line.strip()
-        if not stripped:
-            continue
-        if stripped.startswith("#"):
-            match = _META.match(stripped)
-            if match:
-                metadata[match.group("key").strip()] = match.group("value")
-            continue
-        header_at = i
-        break
-    if header_at is None:
-        raise InputError(f"{source}: the file is empty (no header row and no data)")
-    header_line = lines[header_at].strip()
-    delim = _delimiter(header_line)
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    metadata, header_no, header, start = _head(text, source)
+    delim = _delimiter(header)
     if delim is None:
-        names = split_whitespace_header(header_line)
+        names = split_whitespace_header(header)
     else:
-        names = [n.strip().strip('"').strip("'") for n in header_line.split(delim)]
+        names = [n.strip().strip('"').strip("'") for n in header.split(delim)]
     if all(_is_number(n) for n in names if n):
-        raise InputError(
-            f"{source}: line {header_at + 1} is numbers, not a header; add a header row "
-            "such as 'B (mT), Ic (uA)'"
-        )
+        raise InputError(f"{source}: line {header_no} is numbers, not a header; add a header "
+                         "row such as 'B (mT), Ic (uA)'")
     if len(names) < 2:
-        raise InputError(
-            f"{source}: only one column ({names[0]!r}); a sweep needs a field column and "
-            "at least one critical-current column"
-        )
+        raise InputError(f"{source}: only one column ({names[0]!r}); a sweep needs a field "
+                         "column and at least one critical-current column")
     if len(set(names)) < len(names):
-        raise InputError(f"{source}: the header repeats a column name: {header_line!r}")
-
-    rows: list[list[str]] = []
-    numbers: list[int] = []
-    for i in range(header_at + 1, len(lines)):
-        stripped = lines[i].strip()
-        if not stripped or stripped.startswith("#"):
-            continue
-        cells = stripped.split() if delim is None else [c.strip() for c in stripped.split(delim)]
-        if delim is not None and len(cells) == len(names) + 1 and cells[-1] == "":
-            cells.pop()  # a trailing delimiter
-        if len(cells) != len(names):
-            raise InputError(
-                f"{source}: line {i + 1} has {len(cells)} fields but the header has "
-                f"{len(names)}; fix or delete that row"
-            )
-        rows.append(cells)
-        numbers.append(i + 1)
-    if not rows:
-        raise InputError(f"{source}: the file has a header but no data rows")
-    columns = _columns(rows, names, numbers, source)
+        raise InputError(f"{source}: the header repeats a column name: {header!r}")
+    body = text[start:]
+    if "#" in body:
+        body = _COMMENT_LINE.sub("", body)  # blanked, so line numbers still count
+    columns = _Rows(body, delim, names, source, header_no + 1).columns()
     if all(isinstance(v, str) for v in columns.values()):
         raise InputError(next(iter(columns.values())))  # prose, not a table of numbers
-    return metadata, columns, numbers
+    return metadata, columns
 
 
-def _columns(rows, names, numbers, source) -> dict:
-    """Float array per column; a column with a non-number holds the message instead.
+class _Rows:
+    """The rows after the header: parsed by pandas, checked against the file's lines."""
 
-    Only the columns a sweep uses must be numeric (a status column may hold words).
-    """
-    try:
-        data = np.array(rows, dtype=float)
-        return {n: data[:, k] for k, n in enumerate(names)}
-    except ValueError:
-        pass
-    out = {}
-    for c, name in enumerate(names):
-        values = np.empty(len(rows))
-        for r, cells in enumerate(rows):
-            cell = cells[c]
-            try:
-                values[r] = float(cell)
-            except ValueError:
-                if cell.strip().strip('"').lower() in _MISSING:
-                    values[r] = np.nan
-                    continue
-                values = (
-                    f"{source}: line {numbers[r]}, column {name!r}: {cell!r} is not a number; "
-                    "expected a header row followed by rows of numbers"
-                )
-                break
-        out[name] = values
-    return out
+    def __init__(self, body, delim, names, source, first_line):
+        self.body, self.delim, self.names, self.source = body, delim, names, source
+        # Spaces around cells do not count; in a tab-separated file a tab is a cell boundary
+        # even at the start of a line (an empty first cell), as pandas reads it.
+        self.blank = " " if delim == "\t" else " \t"
+        self.first_line = first_line  # file line number of body line 0
+        self._lines = None
+        self._rows = 0
+
+    def _read(self, as_text, width):
+        import csv
+        import io
+
+        import pandas as pd
+
+        options = dict(sep=r"\s+" if self.delim is None else self.delim, header=None,
+                       engine="c", quoting=csv.QUOTE_NONE, skip_blank_lines=True,
+                       skipinitialspace=True, keep_default_na=False)
+        if width:  # safe only once every row is known to have at most this many cells
+            options.update(names=list(range(width)), index_col=False)
+        if as_text:
+            options.update(dtype=object, na_filter=False)
+        else:
+            options.update(dtype=np.float64, na_values=_NA_TOKENS)
+        # Bytes, not StringIO: StringIO holds four bytes per character.
+        return pd.read_csv(io.BytesIO(self.body.encode("utf-8")), encoding="utf-8",
+                           **options)
+
+    def _frame(self, width=None):
+        """(frame, numeric) or (None, _) when pandas finds rows of different lengths."""
+        import pandas as pd
+
+        try:
+            return self._read(False, width), True
+        except pd.errors.EmptyDataError:
+            raise InputError(f"{self.source}: the file has a header but no data rows") from None
+        except pd.errors.ParserError:
+            return None, True
+        except ValueError:
+            pass  # a cell that is not a number: read as text, find it below
+        try:
+            return self._read(True, width), False
+        except pd.errors.ParserError:
+            return None, False
+
+    def columns(self) -> dict:
+        n = len(self.names)
+        frame, numeric = self._frame()
+        if frame is None:
+            self._check_lengths(self._data_lines())
+            # Every row has n cells or n + 1 with the last empty: some end with a delimiter.
+            frame, numeric = self._frame(width=n + 1)
+            if frame is None:
+                raise self._unreadable()
+        if len(frame) == 0:
+            raise InputError(f"{self.source}: the file has a header but no data rows")
+        self._rows = len(frame)
+        if frame.shape[1] != n:
+            extra = frame.iloc[:, n:]
+            empty = extra.isna() if numeric else extra.isna() | (extra == "")
+            if frame.shape[1] != n + 1 or not empty.to_numpy().all():
+                self._check_lengths(self._data_lines())
+                raise self._unreadable()
+            frame = frame.iloc[:, :n]
+        last = frame.iloc[:, -1]
+        short = np.flatnonzero((last.isna() if numeric else last.isna() | (last == ""))
+                               .to_numpy())
+        if short.size:
+            lines = self._data_lines()
+            self._check_lengths([lines[i] for i in short] if len(lines) == len(frame)
+                                else lines)
+        if numeric:
+            return {name: frame.iloc[:, k].to_numpy(dtype=float)
+                    for k, name in enumerate(self.names)}
+        return {name: self._numbers(frame.iloc[:, k], name) for k, name in enumerate(self.names)}
+
+    def _unreadable(self) -> InputError:
+        return InputError(f"{self.source}: the rows cannot be read as a table of "
+                          f"{len(self.names)} columns; check the delimiters")
+
+    def _data_lines(self) -> list[tuple[int, str]]:
+        """(file line number, text) of each row pandas reads, in order."""
+        if self._lines is None:
+            self._lines = [(self.first_line + i, line) for i, line
+                           in enumerate(self.body.split("\n")) if line.strip(self.blank)]
+        return self._lines
+
+    def _where(self, row: int) -> str:
+        lines = self._data_lines()
+        if len(lines) == self._rows:
+            return f"line {lines[row][0]}"
+        return f"data row {row + 1}"  # pandas split the lines differently: no line number
+
+    def _check_lengths(self, lines) -> None:
+        n = len(self.names)
+        for number, line in lines:
+            if self.delim is None:
+                cells = line.split()
+            else:
+                cells = line.strip(self.blank).split(self.delim)
+                if len(cells) == n + 1 and not cells[-1].strip():
+                    cells.pop()  # a trailing delimiter
+            if len(cells) != n:
+                raise InputError(f"{self.source}: line {number} has {len(cells)} fields but "
+                                 f"the header has {n}; fix or delete that row")
+
+    def _numbers(self, cells, name):
+        """Floats of a column read as text, or the message about its first non-number."""
+        import pandas as pd
+
+        text = cells.astype(str).str.strip()
+        values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)
+        missing = text.str.strip('"').str.lower().isin(_MISSING).to_numpy()
+        bad = np.flatnonzero(np.isnan(values) & ~missing)
+        if bad.size == 0:
+            return values
+        cell = text.iloc[bad[0]]
+        return (f"{self.source}: {self._where(bad[0])}, column {name!r}: {cell!r} is not a "
+                "number; expected a header row followed by rows of numbers")
