@@ -109,10 +109,10 @@ class Catalog:
         path = os.path.abspath(os.fspath(source_path)) if source_path else None
         fields = docs.labels(doc, labels, path)
         fields.update(recorded_utc=utc_now(), recorded_by=user_name(), origin="")
-        with self._transaction():
-            return self._insert(doc, fields)
+        with self.transaction():
+            return self.insert_document(doc, fields)
 
-    def _insert(self, doc: dict, fields: dict) -> Recorded:
+    def insert_document(self, doc: dict, fields: dict) -> Recorded:
         """Insert inside an open transaction unless the (input, settings) pair is present."""
         c = self.conn
         key = (docs.input_sha256(doc), docs.settings_sha256(doc))
@@ -160,19 +160,20 @@ class Catalog:
              for f in doc.get("flags", [])])
         return Recorded(self.path, record_id, True, changes, previous)
 
-    def _transaction(self):
+    def transaction(self):
         return _Transaction(self.conn)
 
     def add_documents(self, documents, *, source: str, labels: dict | None = None) -> dict:
         """Record many documents ``(doc, source_path)`` in one transaction; log the import."""
         added = present = 0
-        with self._transaction():
+        with self.transaction():
             for doc, path in documents:
+                doc = checked_document(doc, path or source)
                 fields = docs.labels(doc, labels, path)
                 fields.update(recorded_utc=utc_now(), recorded_by=user_name(), origin="")
-                done = self._insert(doc, fields)
+                done = self.insert_document(doc, fields)
                 added, present = added + done.created, present + (not done.created)
-            self._log_import(source, "", added, present)
+            self.log_import(source, "", added, present)
         return {"added": added, "present": present}
 
     def merge(self, other_path: str) -> dict:
@@ -198,18 +199,18 @@ class Catalog:
             rows = src.execute(f"SELECT {', '.join(cols)}, {origin}, document FROM records "
                                "ORDER BY id")
             added = present = 0
-            with self._transaction():
+            with self.transaction():
                 for row in rows:
                     fields = dict(zip(cols + ["origin"], row[:-1], strict=True))
                     fields["origin"] = fields["origin"] or other_id
-                    done = self._insert(docs.unpack(row[-1]), fields)
+                    done = self.insert_document(docs.unpack(row[-1]), fields)
                     added, present = added + done.created, present + (not done.created)
-                self._log_import(other_path, other_id, added, present)
+                self.log_import(other_path, other_id, added, present)
         finally:
             src.close()
         return {"added": added, "present": present}
 
-    def _log_import(self, source, source_id, added, present) -> None:
+    def log_import(self, source, source_id, added, present) -> None:
         self.conn.execute(
             "INSERT INTO imports (source, source_catalog_id, imported_utc, imported_by, "
             "records_added, records_present) VALUES (?, ?, ?, ?, ?, ?)",
@@ -308,6 +309,14 @@ class Catalog:
             target.execute("PRAGMA journal_mode = DELETE")
         finally:
             target.close()
+
+
+def checked_document(doc, where) -> dict:
+    """``doc`` when it reads as a result document; an error naming ``where`` if not."""
+    try:
+        return docs.as_document(doc)
+    except (InputError, TypeError, KeyError, ValueError) as exc:
+        raise InputError(f"{where}: not a usable result document ({exc})") from None
 
 
 class _Transaction:
