@@ -40,8 +40,10 @@ def result(*, junction="KT14-J03", chip="KT-14", cooldown="CD-07", date=None,
     if sha is None:
         sha = hashlib.sha256(repr((metadata, sorted(numbers.items()),
                                    [f.numbers() for f in fits])).encode()).hexdigest()
+    used = sum(f.points_used for f in fits)
     return Result(input={"path": path or f"{junction}_{cooldown}.csv", "sha256": sha,
-                         "rows_read": 25, "metadata": metadata},
+                         "rows_read": 25, "field_column": "B (mT)", "points_used": used,
+                         "points_dropped": 0, "duplicates_merged": 0, "metadata": metadata},
                   fits=fits, flags=list(flags), settings=settings or Settings(),
                   method={"fit": "made by hand for a test"},
                   generated_utc="2026-11-30T10:00:00Z")

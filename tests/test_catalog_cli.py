@@ -141,6 +141,11 @@ def test_names_verbatim_and_helpful_errors(tmp_path, capsys):
     assert {r["junction"] for r in rows} == {hostile, "KT14-J03"}
     assert next(r for r in rows if r["junction"] == hostile)["latest_drift"] == [
         "ic0-changed"]
+    assert main(["catalog", "show", "2", "--catalog", cat]) == 0
+    shown = capsys.readouterr().out
+    assert f"record 2: junction {hostile}, chip KT-14, cooldown CD-2" in shown
+    assert "DRIFT ic0-changed" in shown and "Ic0 changed by -36.17 %" in shown
+    assert "flags: none" in shown  # the analysis summary follows
     assert main(["history", "J1", "--catalog", str(tmp_path / "none.sqlite")]) == 2
     assert "no catalog there" in capsys.readouterr().err
     assert not (tmp_path / "none.sqlite").exists()

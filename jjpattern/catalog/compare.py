@@ -83,7 +83,7 @@ def compare_sides(side_a: dict, side_b: dict, *, label_a: str = "A", label_b: st
     chips = {str(((d.get("input") or {}).get("metadata") or {}).get("chip", ""))
              for side in (side_a, side_b) for d in side.values()}
     chip = chips.pop() if len(chips) == 1 else ""
-    chip_level = chip_flags(results, tol, chip=chip, cooldown=label_b) if len(pairs) > 1 else []
+    chip_level = chip_flags(results, tol, chip=chip) if len(pairs) > 1 else []
     return {"a": label_a, "b": label_b, "tolerances": asdict(tol), "junctions": junctions,
             "only_in_a": only_a, "only_in_b": only_b,
             "chip": [f.to_dict() for f in chip_level]}

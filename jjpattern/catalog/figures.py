@@ -35,7 +35,8 @@ def history_figure(history: dict):
     units["field_offset_T"] = units["period_T"]
     fig, axes = plt.subplots(3, 1, sharex=True, figsize=(7.0, 6.4), layout="constrained")
     x = np.arange(len(records))
-    branches = sorted({f["branch"] for f in fits})
+    # positive first, as in the pattern figure
+    branches = sorted({f["branch"] for f in fits}, key=lambda b: (b != "positive", b))
     shift = {b: (i - (len(branches) - 1) / 2) * 0.08 for i, b in enumerate(branches)}
     for ax, (key, err_key, name, code) in zip(axes, _PANELS, strict=True):
         unit, factor = units[key]
@@ -108,7 +109,12 @@ def compare_figure(comparison: dict):
     axes[-1].set_xticks(np.arange(len(names)))
     axes[-1].set_xticklabels(names, rotation=45, ha="right", fontsize=8)
     axes[-1].set_xlim(-0.6, len(names) - 0.4)
-    fig.suptitle(f"B: {comparison['b']}\nagainst A: {comparison['a']}", fontsize=9)
+    title = f"B: {comparison['b']}\nagainst A: {comparison['a']}"
+    for flag in comparison["chip"]:
+        e = flag["evidence"]
+        title += (f"\nchip-wide: {e['quantity']} {e['direction']} in {e['junctions_changed']} "
+                  f"of {e['junctions_compared']} junctions")
+    fig.suptitle(title, fontsize=9)
     return fig
 
 

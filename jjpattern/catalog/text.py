@@ -39,7 +39,9 @@ def drift_line(flag: dict) -> str:
         size = e.get("median_relative_change")
         size = (f"median {100 * size:+.1f} %" if size is not None
                 else f"median {e.get('median_change_periods', 0):+.2f} periods")
-        return (f"chip {e.get('chip')!r} {e.get('cooldown')!r}: {e['quantity']} "
+        where = (f"cooldown {e['cooldown']}" if e.get("cooldown") is not None
+                 else "from A to B")
+        return (f"chip {e.get('chip') or '(unnamed)'}, {where}: {e['quantity']} "
                 f"{e['direction']} in {e['junctions_changed']} of {e['junctions_compared']} "
                 f"junctions compared ({size}): look for a common cause first")
     sigma = e.get("significance_sigma")
