@@ -25,8 +25,8 @@ def add_catalog_options(parent: argparse.ArgumentParser) -> None:
     group.add_argument("--no-catalog", action="store_true",
                        help="record nothing in any catalog this time")
     group.add_argument("--catalog-label", metavar="KEY=VALUE", action="append", default=[],
-                       help="junction, chip, cooldown, date or temperature_K for the catalog "
-                            "where the file's metadata lacks them; repeat for several")
+                       help="junction, chip, cooldown, date or temperature_K for the catalog, "
+                            "in place of the file's metadata; repeat for several")
 
 
 def _tolerance_parent() -> argparse.ArgumentParser:

@@ -130,6 +130,10 @@ def test_names_verbatim_and_helpful_errors(tmp_path, capsys):
     assert main(["history", hostile, "--catalog", cat, "--json"]) == 0
     history = json.loads(capsys.readouterr().out)
     assert history["junction"] == hostile and len(history["records"]) == 2
+    assert main(["history", hostile, "--catalog", cat, "--json", "--ic0-tolerance", "40%"]) == 0
+    assert json.loads(capsys.readouterr().out)["records"][1]["drift"] == []  # -36 % < 40 %
+    assert main(["history", hostile, "--catalog", cat, "--ic0-tolerance", "five"]) == 2
+    assert "--ic0-tolerance 'five': not a number" in capsys.readouterr().err
     assert main(["history", "KT14-J3", "--catalog", cat]) == 2
     assert "similar names: KT14-J03" in capsys.readouterr().err
     assert main(["history", "KT14-J03", "--catalog", cat]) == 2
