@@ -10,6 +10,7 @@ import os
 import sys
 
 from . import __version__
+from .cli_catalog import add_catalog_commands, add_catalog_options, record_after_run
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
 
@@ -95,6 +96,7 @@ def _analysis_parent() -> argparse.ArgumentParser:
     group.add_argument("--figures", metavar="FORMATS",
                        help="figure files in a report folder, e.g. png,pdf,svg (default png; "
                             "the page itself embeds PNG)")
+    add_catalog_options(parent)
     return parent
 
 
@@ -139,6 +141,7 @@ def build_parser() -> argparse.ArgumentParser:
                          help="where to write the extracted Ic(B) table")
     extract.add_argument("--plot", metavar="FILE", help="write the map figure")
 
+    add_catalog_commands(sub)
     demo = sub.add_parser("demo", help="analyse the bundled demo sweeps",
                           description="Run the whole analysis on the bundled demo chip.")
     demo.add_argument("--out", metavar="DIR", default="jjpattern-demo",
@@ -226,7 +229,8 @@ def _is_saved_result(path: str) -> bool:
 def run_report(args) -> int:
     from .report.bundle import write_report
 
-    if _is_saved_result(args.path):
+    saved = _is_saved_result(args.path)
+    if saved:
         from .result import Result
 
         result, ivmap = Result.read(args.path), None
@@ -241,6 +245,7 @@ def run_report(args) -> int:
     paths = write_report(result, args.out, args.argv,
                          ivmap=ivmap if result.extraction is not None else None)
     print(f"report written to {paths['report.html']}")
+    record_after_run(args, result, source_path=None if saved else args.path)
     return EXIT_OK
 
 
@@ -276,6 +281,8 @@ def run_analyze(args) -> int:
             print(f"\nfigure written to {path}")
         if report:
             print(f"\nreport written to {report['report.html']}")
+    record_after_run(args, result, source_path=args.path,
+                     echo=lambda s: print(s, file=sys.stderr if args.json else sys.stdout))
     return EXIT_OK
 
 
@@ -331,7 +338,7 @@ def main(argv=None) -> int:
     handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
                 "demo": run_demo}
     try:
-        return handlers[args.command](args)
+        return getattr(args, "handler", handlers.get(args.command))(args)
     except InputError as exc:
         print(f"jjpattern: {exc}", file=sys.stderr)
         return EXIT_INPUT

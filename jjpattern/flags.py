@@ -114,6 +114,37 @@ CATALOGUE = {
         "The robust loss down-weighted points that sit far from the pattern (often premature "
         "switching or glitches, which read low). Look at them in the residual plot.",
     ),
+    # Drift between measurements of the same junction (the history catalog). Each compares
+    # a record with the junction's previous measurement; the evidence names both records.
+    "ic0-changed": (
+        "warning",
+        "Ic0 differs from the junction's previous measurement by more than its uncertainty "
+        "and the tolerance. Compare the measurement temperatures first (Ic0 falls as the "
+        "temperature rises); at the same temperature a lower Ic0 usually means an ageing "
+        "barrier (oxide growth, interdiffusion) or damage from handling or electrostatic "
+        "discharge.",
+    ),
+    "period-changed": (
+        "warning",
+        "The field period differs from the previous measurement by more than its uncertainty "
+        "and the tolerance. A junction's magnetic thickness rarely changes: suspect the field "
+        "calibration (coil constant, magnet, sample position or tilt) or flux trapped in the "
+        "electrodes that changes flux focusing.",
+    ),
+    "offset-moved": (
+        "warning",
+        "The field offset moved by more than the tolerance (a fraction of a period) and its "
+        "uncertainty since the previous measurement: flux trapped in the junction or its "
+        "electrodes, or a remanent field of the magnet. Warm above Tc and cool in zero field, "
+        "or demagnetise the magnet, and remeasure.",
+    ),
+    "chip-drift": (
+        "warning",
+        "Many junctions of the chip changed in the same direction between the same two "
+        "cooldowns. A common cause (field calibration, magnet remanence, measurement "
+        "temperature, a different set-up) is more likely than every junction changing; rule "
+        "those out before blaming the junctions.",
+    ),
 }
 
 
