@@ -289,13 +289,13 @@ def run_analyze(args) -> int:
 def run_extract(args) -> int:
     from .extract.engine import extract
     from .io import load_map
-    from .pipeline import _map_options, extraction_block
+    from .pipeline import extraction_block
     from .report.bundle import extraction_table_csv
     from .report.files import write_text
 
     _check_plots(args.plot)
     settings = settings_from_args(args)
-    ivmap = load_map(args.path, _map_options(settings))
+    ivmap = load_map(args.path, settings.read)
     extraction = extract(ivmap, criterion=settings.extract.criterion,
                          threshold=settings.extract.threshold)
     block = extraction_block(extraction)

@@ -45,31 +45,11 @@ def analyze(source, settings: Settings | None = None, *, command=None, **keyword
 def analyze_input(source, settings: Settings | None = None, *, command=None,
                   **keywords) -> Analysed:
     """Like :func:`analyze`, but keep the data read (for the raw-map figure)."""
-    from .io import open_input
+    from .io import read
 
     settings = keyword_settings(settings, **keywords)
-    data = open_input(os.fspath(source), sweep_options=_sweep_options(settings),
-                      map_options=_map_options(settings))
+    data = read(os.fspath(source), settings.read)
     return Analysed(analyze_data(data, settings, command=command), data)
-
-
-def _sweep_options(settings: Settings) -> dict:
-    r = settings.read
-    options = {"field_col": r.field_col, "ic_cols": tuple(r.ic_cols),
-               "field_unit": r.field_unit, "current_unit": r.current_unit}
-    if r.coil_T_per_A:
-        options["coil_T_per_A"] = r.coil_T_per_A
-    return options
-
-
-def _map_options(settings: Settings):
-    from .io.maps import MapOptions
-
-    r = settings.read
-    return MapOptions(field_col=r.field_col, bias_col=r.bias_col, signal_col=r.signal_col,
-                      field_unit=r.field_unit, current_unit=r.current_unit,
-                      signal_unit=r.signal_unit, transpose=r.transpose,
-                      field_from_name=r.field_from_name, coil_T_per_A=r.coil_T_per_A)
 
 
 def analyze_data(data, settings: Settings | None = None, *, command=None) -> Result:

@@ -183,6 +183,13 @@ class Result:
     tool: dict = field(default_factory=lambda: {"name": "jjpattern", "version": __version__})
     generated_utc: str = field(default_factory=lambda: datetime.datetime.now(
         datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"))
+    #: The settings hash as computed when the analysis ran (a later tool version would
+    #: compute another one for the same settings, since the version is part of it).
+    settings_sha256: str = ""
+
+    def __post_init__(self):
+        if not self.settings_sha256:
+            self.settings_sha256 = self.settings.hash()
 
     @property
     def metadata(self) -> dict:
@@ -211,7 +218,7 @@ class Result:
             "flags": [f.to_dict() for f in self.flags],
             "tool": self.tool,
             "settings": self.settings.to_dict(),
-            "settings_sha256": self.settings.hash(),
+            "settings_sha256": self.settings_sha256,
             "method": self.method,
             TIMESTAMP_KEY: self.generated_utc,
         }
@@ -244,7 +251,8 @@ class Result:
             flags=[_flag_from_dict(f) for f in doc.get("flags", [])],
             settings=Settings.from_dict(doc.get("settings")),
             **{k: doc[k] for k in ("method", "extraction", "icrn", "geometry", "provenance",
-                                   "tool", TIMESTAMP_KEY) if k in doc and k in known},
+                                   "tool", TIMESTAMP_KEY, "settings_sha256")
+               if k in doc and k in known},
             current_density=doc.get("current_density") or {},
         )
 

@@ -2,6 +2,13 @@
 overhead on the 2-core machine), set before numpy is imported by any test module."""
 
 import os
+import tempfile
 
 for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_name, "1")
+
+# No test may record into a developer's own catalog: the default catalog lives under the
+# user's data directory, and JJPATTERN_CATALOG would switch recording on for every run.
+os.environ.pop("JJPATTERN_CATALOG", None)
+os.environ["XDG_DATA_HOME"] = os.path.join(
+    tempfile.mkdtemp(prefix="jjpattern-tests-"), "data")

@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 
 from jjpattern.errors import InputError
-from jjpattern.io import IVMap, Sweep, folder_sha256, load, load_map, open_input, read
-from jjpattern.io.maps import MapOptions, from_arrays
+from jjpattern.io import IVMap, Sweep, folder_sha256, load, load_map, read
+from jjpattern.io.maps import from_arrays
 from jjpattern.io.registry import READERS, reader_for
 from jjpattern.io.source import open_source
 from jjpattern.settings import ReadSettings
@@ -113,13 +113,12 @@ def test_explicit_bias_column_means_a_map(tmp_path):
     assert got.signal[1, 4] == pytest.approx(1e-6)
 
 
-def test_old_entry_points_still_answer(tmp_path):
+def test_load_and_load_map_force_the_kind(tmp_path):
     b = _sweep_csv(tmp_path / "s.csv")
-    sweep = open_input(tmp_path / "s.csv", sweep_options={"ic_cols": ["Ic"]}, map_options=None)
+    sweep = load(tmp_path / "s.csv", ic_cols=["Ic"])
     assert sweep.branches[0].field_T[-1] == pytest.approx(b[-1] * 1e-3)
-    assert MapOptions is ReadSettings
     _map_h5(tmp_path / "m.h5", np.arange(3.0), np.arange(4.0), np.zeros((3, 4)))
-    assert load_map(tmp_path / "m.h5", MapOptions(signal_unit="mV")).signal.shape == (3, 4)
+    assert load_map(tmp_path / "m.h5", ReadSettings(signal_unit="mV")).signal.shape == (3, 4)
     with pytest.raises(InputError, match="is a folder, not a sweep file"):
         load(tmp_path)
 

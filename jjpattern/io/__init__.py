@@ -3,8 +3,7 @@
 :func:`read` is the entry point: it opens the input once (bytes read and
 hashed once, :mod:`jjpattern.io.source`), lets :mod:`jjpattern.io.registry`
 pick the reader, and returns an Ic(B) sweep or a raw V(I, B) map.
-:func:`load`, :func:`load_map` and :func:`open_input` are the former entry
-points, kept as thin wrappers.
+:func:`load` (a sweep) and :func:`load_map` (a raw map) force the kind.
 """
 
 from __future__ import annotations
@@ -15,7 +14,7 @@ from .registry import reader_for
 from .source import Source, folder_sha256, open_source
 from .sweep import MIN_POINTS, Branch, Sweep
 
-__all__ = ["read", "load", "load_map", "open_input", "Sweep", "Branch", "IVMap", "Source",
+__all__ = ["read", "load", "load_map", "Sweep", "Branch", "IVMap", "Source",
            "ReadSettings", "MIN_POINTS", "folder_sha256", "open_source"]
 
 
@@ -71,16 +70,3 @@ def load(path, *, field_col=None, ic_cols=(), field_unit=None, current_unit=None
 def load_map(path, options: ReadSettings | None = None) -> IVMap:
     """Load a raw V(I, B) map: HDF5, long text table or folder (``read(..., kind="map")``)."""
     return read(path, options, kind="map")
-
-
-def open_input(path, *, sweep_options: dict, map_options: ReadSettings | None = None):
-    """A :class:`Sweep` or an :class:`IVMap`, as :func:`read` decides.
-
-    ``sweep_options`` holds :func:`load`'s keywords; set ones override
-    ``map_options``.
-    """
-    import dataclasses
-
-    given = {k: (tuple(v) if k == "ic_cols" else v) for k, v in sweep_options.items() if v}
-    settings = dataclasses.replace(map_options or ReadSettings(), **given)
-    return read(path, settings)
