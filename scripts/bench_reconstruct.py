@@ -1,10 +1,15 @@
 """Speed of the support-constrained current-density retrieval, against the former loop.
 
-The baseline is the former implementation, kept here verbatim in spirit: complex
-matrix-vector products, one retrieval per resample in a Python loop. Both run
-in this process on the same pattern (a 40 % linear gradient, the case that
-triggers the support method) with the same generator seed, and the largest
-difference of their profiles and bands is printed beside the timings.
+The baseline is the former implementation, kept here: complex matrix-vector
+products, one retrieval per resample in a Python loop. The current one (real
+products on the support only, all resamples as one batch of matrix products)
+is timed beside it, in this process, on the same pattern (a 40 % linear
+gradient, the case that triggers the support method) with the same generator
+seed; the largest difference of the profiles and bands is printed too.
+
+Both use BLAS. On a loaded machine BLAS threads wait for each other at every
+call, which slows both by several times; compare with OPENBLAS_NUM_THREADS=1.
+The load average is printed with the figures.
 
 Run: python scripts/bench_reconstruct.py [--points 1200] [--lobes 8] [--repeats 3]
 """
@@ -12,6 +17,7 @@ Run: python scripts/bench_reconstruct.py [--points 1200] [--lobes 8] [--repeats 
 from __future__ import annotations
 
 import argparse
+import os
 import time
 
 import numpy as np
@@ -81,7 +87,9 @@ def main():
     low_old, high_old = np.percentile(band_old, [16, 84], axis=0)
     scale = np.max(np.abs(j_old))
     print(f"support retrieval, {args.points} points, {args.lobes} lobes each side, "
-          f"150 + 16 x 50 iterations, best of {args.repeats}")
+          f"150 + 16 x 50 iterations, best of {args.repeats}; "
+          f"OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS', 'unset')}, "
+          f"load average {os.getloadavg()[0]:.1f}")
     print(f"  former loop (complex, per resample): {1e3 * t_old:8.1f} ms")
     print(f"  batched (real, all resamples)     : {1e3 * t_new:8.1f} ms "
           f"= {t_old / t_new:.1f} x faster")
