@@ -207,3 +207,28 @@ def test_methods_text_states_the_criterion_and_level(kind, criterion, threshold,
     assert list(block["methods_references"]) == refs
     if refs:
         assert "Savitzky" in block["methods_references"]["sg"]
+
+
+def test_only_criteria_that_use_rn_need_it():
+    # dV/dI of the RSJ curve, Rn |I| / sqrt(I^2 - Ic^2) above Ic (derivative of the
+    # Stewart-McCumber formula), zero below; the high-bias part (where Rn is read) is lost.
+    rng = np.random.default_rng(7)
+    field = np.linspace(-3e-3, 3e-3, 41)
+    ic = ideal(field, "rectangular", 10e-6, 1e-3, 0.0)
+    bias = bias_sweep(16e-6, 1601, "out-and-back")
+    with np.errstate(all="ignore"):
+        excess = bias[None, :] ** 2 - ic[:, None] ** 2
+        dvdi = np.where(excess > 0, RN * np.abs(bias) / np.sqrt(np.abs(excess)), 0.0)
+    dvdi = np.minimum(dvdi, 50 * RN) + rng.normal(0, 0.05, dvdi.shape)
+    dvdi[:, np.abs(bias) > 0.7 * 16e-6] = np.nan
+    ivmap = IVMap("r.h5", None, field, np.broadcast_to(bias, dvdi.shape), dvdi, "dvdi")
+    ex = extract(ivmap)
+    assert ex.criterion == "dvdi-peak" and ex.rn_ohm is None
+    clear = (ic > 3e-6) & (ic < 0.65 * 16e-6)
+    # The peak sits on the first point above Ic, and the parabola may move it by up to
+    # one step: within two bias steps (80 nA).
+    assert np.max(np.abs(ex.branches[0].ic_A[clear] - ic[clear])) < 0.08e-6
+    with pytest.raises(InputError, match="Rn could not be fitted"):
+        extract(ivmap, criterion="dvdi-threshold")
+    given = extract(ivmap, criterion="dvdi-threshold", threshold=3 * RN)
+    assert np.max(np.abs(given.branches[0].ic_A[clear] - ic[clear])) < 0.08e-6

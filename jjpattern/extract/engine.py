@@ -3,7 +3,8 @@
 Switching is read on sweeps moving away from zero bias, retrapping on
 sweeps moving back; only switching is fitted as Ic. Rows that never switch
 inside the bias window, or are resistive from the first bias step, are
-censored rather than given a number.
+censored rather than given a number. What is compared with what (the
+criterion) comes from :mod:`.registry`; this module only walks the sweeps.
 """
 
 from __future__ import annotations
@@ -111,8 +112,8 @@ class Extraction:
         n_f, n_b = self.ivmap.shape
         what = f"a {n_f} x {n_b} {'voltage' if self.ivmap.kind == 'voltage' else 'dV/dI'} map"
         note, refs = crit.note(self.ivmap.kind)
-        return f"Critical currents were extracted from {what} as {crit.rule(self.threshold)}." \
-            + note, refs
+        text = f"Critical currents were extracted from {what} as {crit.rule(self.threshold)}."
+        return text + note, refs
 
     def to_dict(self) -> dict:
         """A JSON-ready summary without the raw map: the settings, Ic per row, methods text.
@@ -196,12 +197,14 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
 
     Parameters
     ----------
-    criterion : {'auto', 'voltage', 'dvdi-peak', 'dvdi-threshold', 'resistance'}
-        ``auto`` is ``voltage`` for voltage maps and ``dvdi-peak`` for dV/dI maps.
+    criterion : str
+        One of :func:`.registry.criterion_names`: ``auto`` (``voltage`` for
+        voltage maps, ``dvdi-peak`` for dV/dI maps), ``voltage``, ``dvdi-peak``,
+        ``dvdi-threshold``, ``resistance``.
     threshold : float, optional
-        In SI: volt for ``voltage``, ohm for ``dvdi-threshold``, a fraction of
-        Rn for ``resistance``. By default 5 sigma of the zero-voltage-branch
-        noise, 0.5 Rn and 0.05 Rn.
+        Positive, in SI: volt for ``voltage``, ohm for ``dvdi-threshold``, a
+        fraction of Rn for ``resistance``; ``dvdi-peak`` takes none. By default
+        5 sigma of the zero-voltage-branch noise, 0.5 Rn and 0.05 Rn.
     """
     crit = resolve(criterion, ivmap.kind, ivmap.path)
     check_threshold(crit, threshold)
