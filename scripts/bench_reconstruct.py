@@ -1,14 +1,15 @@
 """Speed of the support-constrained current-density retrieval, against the former loop.
 
 The baseline is the former implementation, kept here: complex matrix-vector
-products, one retrieval per resample in a Python loop. The current one (real
-products on the support only, all resamples as one batch of matrix products)
-is timed beside it, in this process, on the same pattern (a 40 % linear
-gradient, the case that triggers the support method) with the same generator
-seed; the largest difference of the profiles and bands is printed too.
+products through BLAS, one retrieval per resample in a Python loop. The
+current one (real products on the even and odd halves of the support, all
+resamples as one batch, in numpy's einsum loop) is timed beside it, in this
+process, on the same pattern (a 40 % linear gradient, the case that triggers
+the support method) with the same generator seed; the largest difference of
+the profiles and bands is printed too.
 
-Both use BLAS. On a loaded machine BLAS threads wait for each other at every
-call, which slows both by several times; compare with OPENBLAS_NUM_THREADS=1.
+On a loaded machine BLAS threads wait for each other at every call, which
+slows the baseline by several times; compare with OPENBLAS_NUM_THREADS=1.
 The load average is printed with the figures.
 
 Run: python scripts/bench_reconstruct.py [--points 1200] [--lobes 8] [--repeats 3]

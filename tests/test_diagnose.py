@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from jjpattern.analysis import analyze_sweep
-from jjpattern.diagnose.reconstruct import node_signs, reconstruct
+from jjpattern.diagnose.reconstruct import _MirrorTransform, node_signs, reconstruct
 from jjpattern.diagnose.run import GeometryInputs
 from jjpattern.diagnose.shape import LONG_RATIO
 from jjpattern.io.sweep import Branch, Sweep
@@ -57,6 +57,23 @@ def test_node_signs_keep_the_sign_at_a_double_zero():
     flips = node_signs(u, np.abs(np.sinc(u)))
     assert np.array_equal(flips, np.where(np.floor(np.abs(u)) % 2 == 1, -1.0, 1.0)) or (
         np.mean(flips == np.where(np.floor(np.abs(u)) % 2 == 1, -1.0, 1.0)) > 0.97)
+
+
+@pytest.mark.parametrize("n_in", [201, 200])
+def test_mirror_transform_is_the_direct_fourier_sum(n_in):
+    # The transform by even and odd halves against the defining sum (common practice),
+    # with and without a point at x = 0.
+    rng = np.random.default_rng(10)
+    x = np.linspace(-0.5, 0.5, n_in)
+    grid = np.linspace(-7.3, 9.1, 333)
+    du = grid[1] - grid[0]
+    j = rng.uniform(0, 1, (3, n_in))
+    t = _MirrorTransform(grid, x, du)
+    re, im = t.forward(j)
+    direct = j @ np.exp(2j * np.pi * np.outer(x, grid)) * (x[1] - x[0])
+    assert np.allclose(re + 1j * im, direct, rtol=0, atol=1e-12 * np.abs(direct).max())
+    back = np.real((re + 1j * im) @ np.exp(-2j * np.pi * np.outer(grid, x)) * du)
+    assert np.allclose(t.inverse(re, im), back, rtol=0, atol=1e-12 * np.abs(back).max())
 
 
 def test_support_reconstruction_sees_an_asymmetric_profile():
