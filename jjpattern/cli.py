@@ -14,8 +14,6 @@ from .cli_catalog import add_catalog_commands, add_catalog_options, record_after
 
 EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
 
-#: Criteria offered on the command line; the extraction checks them again when used.
-CRITERION_NAMES = ("auto", "voltage", "dvdi-peak", "dvdi-threshold", "resistance")
 
 
 def _reading_parent() -> argparse.ArgumentParser:
@@ -43,7 +41,9 @@ def _reading_parent() -> argparse.ArgumentParser:
     group.add_argument("--field-from-name", metavar="REGEX",
                        help="folder of I-V files: read the field from each file name with "
                             "this pattern (a group named field, or the first group)")
-    group.add_argument("--criterion", default="auto", choices=CRITERION_NAMES,
+    from .extract.registry import criterion_names
+
+    group.add_argument("--criterion", default="auto", choices=criterion_names(),
                        help="how Ic is read from each I-V (default: voltage for voltage "
                             "maps, dvdi-peak for dV/dI maps)")
     group.add_argument("--threshold", metavar="VALUE",
@@ -171,7 +171,8 @@ def _figure_formats(text: str) -> tuple[str, ...]:
 
 def settings_from_args(args):
     """The one place where command-line options become :class:`Settings` (SI units)."""
-    from .io.units import coil_constant_T_per_A, parse_threshold
+    from .extract.registry import parse_threshold
+    from .io.units import coil_constant_T_per_A
     from .settings import (
         DiagnoseSettings,
         ExtractSettings,
@@ -287,10 +288,8 @@ def run_analyze(args) -> int:
 
 
 def run_extract(args) -> int:
-    from .extract.engine import extract
+    from .extract.engine import extract, extraction_table_csv
     from .io import load_map
-    from .pipeline import extraction_block
-    from .report.bundle import extraction_table_csv
     from .report.files import write_text
 
     _check_plots(args.plot)
@@ -298,7 +297,7 @@ def run_extract(args) -> int:
     ivmap = load_map(args.path, settings.read)
     extraction = extract(ivmap, criterion=settings.extract.criterion,
                          threshold=settings.extract.threshold)
-    block = extraction_block(extraction)
+    block = extraction.to_dict()
     write_text(args.out, extraction_table_csv(block))
     for b in block["branches"]:
         counts = ", ".join(f"{v} {k}" for k, v in sorted(b["status_counts"].items()))

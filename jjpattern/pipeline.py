@@ -69,7 +69,7 @@ def analyze_data(data, settings: Settings | None = None, *, command=None) -> Res
             # V_th/Rn in quadrature at the nodes comes from the criterion itself.
             floor_A = ex.threshold["value"] / ex.rn_ohm
         sweep = ex.to_sweep()
-        extraction = extraction_block(ex)
+        extraction = ex.to_dict()
         extraction_flags = list(ex.flags)
     else:
         sweep, extraction_flags = data, []
@@ -107,15 +107,6 @@ def _fit_and_diagnose(sweep, settings: Settings, floor_A: float):
                                geometry=junction_inputs(settings, sweep.metadata),
                                criterion_floor_A=floor_A)
     return fits, fit_flags, diagnostics
-
-
-def extraction_block(ex) -> dict:
-    """The extraction summary for the result: settings, counts and the per-row currents."""
-    block = ex.settings()
-    block["field_T"] = ex.field_T
-    for entry, b in zip(block["branches"], ex.branches, strict=True):
-        entry.update(ic_A=b.ic_A, status=[str(s) for s in b.status], retrap_A=b.retrap_A)
-    return block
 
 
 def fit_method(settings: Settings) -> dict:

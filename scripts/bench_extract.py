@@ -15,7 +15,8 @@ import tracemalloc
 
 import numpy as np
 
-from jjpattern.extract.engine import CRITERIA, extract
+from jjpattern.extract.engine import extract
+from jjpattern.extract.registry import criterion_names
 from jjpattern.io.maps import IVMap
 from jjpattern.synthetic import bias_sweep, ideal, rsj_map
 
@@ -43,7 +44,7 @@ def main():
     base = best_of(args.repeats, lambda: np.abs(v).argmax(axis=1))
     print(f"map {v.shape[0]} x {v.shape[1]} ({v.nbytes / 2**20:.1f} MiB), bias {args.mode}; "
           f"baseline np.abs(v).argmax(axis=1): {1e3 * base:.2f} ms")
-    for criterion in CRITERIA:
+    for criterion in criterion_names(auto=False):
         extract(ivmap, criterion=criterion)
         t = best_of(args.repeats, lambda c=criterion: extract(ivmap, criterion=c))
         tracemalloc.start()

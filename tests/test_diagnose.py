@@ -7,7 +7,7 @@ trapezoid integral independent of the Simpson rule in the forward model.
 import numpy as np
 import pytest
 
-from jjpattern.diagnose.reconstruct import node_signs, reconstruct
+from jjpattern.diagnose.reconstruct import _MirrorTransform, node_signs, reconstruct
 from jjpattern.diagnose.shape import LONG_RATIO
 from jjpattern.io.sweep import Branch, Sweep
 from jjpattern.physics import geometry as geo
@@ -31,7 +31,8 @@ def test_symmetric_reconstruction_round_trip(profile, edge):
     # Known pairs (Bracewell): uniform <-> |sinc|, Gaussian <-> Gaussian; edges carrying
     # 3x the bulk hold 0.6 / 1.4 = 0.43 of the current in their outer 10 % each side.
     rng = np.random.default_rng(1)
-    case = profile_case(rng, profile, lobes=10, n_points=1601, noise_fraction=0.005,
+    # 36 points per period; the resolution is set by the 10 lobes, not by the sampling.
+    case = profile_case(rng, profile, lobes=10, n_points=801, noise_fraction=0.005,
                         offset_fraction=0.0)
     d = reconstruct(case.field_T, case.ic_A, case.period_T, case.field_offset_T,
                     case.noise_A, rng, method="symmetric", resamples=50)
@@ -58,9 +59,26 @@ def test_node_signs_keep_the_sign_at_a_double_zero():
         np.mean(flips == np.where(np.floor(np.abs(u)) % 2 == 1, -1.0, 1.0)) > 0.97)
 
 
+@pytest.mark.parametrize("n_in", [201, 200])
+def test_mirror_transform_is_the_direct_fourier_sum(n_in):
+    # The transform by even and odd halves against the defining sum (common practice),
+    # with and without a point at x = 0.
+    rng = np.random.default_rng(10)
+    x = np.linspace(-0.5, 0.5, n_in)
+    grid = np.linspace(-7.3, 9.1, 333)
+    du = grid[1] - grid[0]
+    j = rng.uniform(0, 1, (3, n_in))
+    t = _MirrorTransform(grid, x, du)
+    re, im = t.forward(j)
+    direct = j @ np.exp(2j * np.pi * np.outer(x, grid)) * (x[1] - x[0])
+    assert np.allclose(re + 1j * im, direct, rtol=0, atol=1e-12 * np.abs(direct).max())
+    back = np.real((re + 1j * im) @ np.exp(-2j * np.pi * np.outer(grid, x)) * du)
+    assert np.allclose(t.inverse(re, im), back, rtol=0, atol=1e-12 * np.abs(back).max())
+
+
 def test_support_reconstruction_sees_an_asymmetric_profile():
     rng = np.random.default_rng(2)
-    x = np.linspace(-0.5, 0.5, 4001)
+    x = np.linspace(-0.5, 0.5, 2001)  # the step at x = 0.1 falls on a grid point
     step = np.where(x < 0.1, 1.0, 0.3)
     field = np.linspace(-8e-3, 8e-3, 1201)
     u = field / 1e-3

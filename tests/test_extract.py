@@ -15,8 +15,9 @@ from jjpattern.cli import main
 from jjpattern.errors import InputError
 from jjpattern.extract.engine import extract
 from jjpattern.io import load, load_map
-from jjpattern.io.maps import IVMap, MapOptions
+from jjpattern.io.maps import IVMap
 from jjpattern.pipeline import analyze_data as analyze_map
+from jjpattern.settings import ReadSettings
 from jjpattern.synthetic import bias_sweep, ideal, rsj_map
 
 RN = 12.0
@@ -202,7 +203,7 @@ def test_folder_of_iv_files_with_field_from_metadata_or_name(tmp_path):
                              zip(bias, ivmap.signal[i], strict=True))
             (folder / f"iv_{i:03d}_B{b * 1e3:+.4f}mT.txt").write_text(
                 head + "I (uA)\tV (uV)\n" + body + "\n")
-        opts = MapOptions(field_from_name=r"B(?P<field>[-+0-9.]+)mT",
+        opts = ReadSettings(field_from_name=r"B(?P<field>[-+0-9.]+)mT",
                           field_unit="mT") if name_field else None
         got = extract(load_map(folder, opts))
         assert np.allclose(got.field_T, ivmap.field_T, atol=1e-9)

@@ -81,14 +81,71 @@ def _grid(u, ic, symmetric):
     return grid, values, du
 
 
-def _retrieve(modulus, forward, inverse, start, support, iterations):
-    """Error reduction: alternate the measured modulus and a non-negative, confined J."""
-    j = np.where(support, np.clip(start, 0.0, None), 0.0)
+class _MirrorTransform:
+    """Fourier transform of a real J(x) on a grid symmetric about x = 0, and back.
+
+    cos(2 pi u x) sees only the even part of J and sin(2 pi u x) only the odd
+    part, so each needs the x > 0 half of the grid: real arithmetic on half the
+    points, an eighth of the work of complex products over the whole grid.
+    """
+
+    def __init__(self, grid, x, du):
+        self.n, self.h = x.size, x.size // 2
+        self.dx, self.du = x[1] - x[0], du
+        phase = 2.0 * np.pi * np.outer(x[self.n - self.h:], grid)  # (h, n_u), x > 0
+        self.cos, self.sin = np.cos(phase), np.sin(phase)
+        self.cos_t, self.sin_t = self.cos.T.copy(), self.sin.T.copy()
+
+    def forward(self, j):
+        """Real and imaginary parts of sum_x J(x) exp(2 pi i u x) dx, each (m, n_u)."""
+        n, h = self.n, self.h
+        upper, lower = j[:, n - h:], j[:, h - 1::-1]  # J(x) and J(-x) for x > 0
+        re = _product(upper + lower, self.cos)
+        if n % 2:
+            re += j[:, h:h + 1]  # x = 0
+        return re * self.dx, _product(upper - lower, self.sin) * self.dx
+
+    def inverse(self, re, im):
+        """Re sum_u (re + i im)(u) exp(-2 pi i u x) du on the grid, (m, n)."""
+        n, h = self.n, self.h
+        even = _product(re, self.cos_t) * self.du
+        odd = _product(im, self.sin_t) * self.du
+        j = np.empty((re.shape[0], n))
+        j[:, n - h:] = even + odd
+        j[:, :h] = (even - odd)[:, ::-1]
+        if n % 2:
+            j[:, h] = re.sum(axis=1) * self.du
+        return j
+
+
+def _product(a, b):
+    """``a @ b`` in numpy's own loop rather than threaded BLAS.
+
+    A retrieval makes a few hundred small products, and on a loaded machine
+    BLAS threads wait for each other at every one: on the shared 2-core test
+    machine the batched retrieval took 1.7 s through BLAS against 0.5 s here
+    (at most 2x faster through single-threaded BLAS on an idle machine).
+    """
+    return np.einsum("ij,jk->ik", a, b)
+
+
+def _retrieve(modulus, transform, start, iterations):
+    """Error reduction: alternate the measured modulus and a non-negative J on the support.
+
+    ``modulus`` is (m, n_u): m retrievals from the same start run together,
+    one batch of products per iteration. Returns J on the support, (m, n_in).
+    """
+    j = np.clip(np.broadcast_to(start, (modulus.shape[0], start.size)), 0.0, None)
     for _ in range(iterations):
-        spectrum = forward @ j
-        spectrum = modulus * np.exp(1j * np.angle(spectrum))
-        j = np.real(inverse @ spectrum)
-        j = np.where(support, np.clip(j, 0.0, None), 0.0)
+        re, im = transform.forward(j)
+        size = np.hypot(re, im)
+        # A zero of the spectrum has no phase: it takes the modulus as a real number.
+        zero = size == 0.0
+        scale = modulus / np.where(zero, 1.0, size)
+        re *= scale
+        im *= scale
+        re[zero] = modulus[zero]
+        j = np.clip(transform.inverse(re, im), 0.0, None)
     return j
 
 
@@ -115,25 +172,29 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
     grid, values, du = _grid(u, ic, symmetric)
     window = sps.windows.tukey(grid.size, WINDOW_ALPHA)
     x = np.linspace(-X_SPAN, X_SPAN, n_x)
-    inverse = np.exp(-2j * np.pi * np.outer(x, grid)) * du
+    phase = 2.0 * np.pi * np.outer(grid, x)
+    # J(x) = Re sum_u F(u) exp(-2 pi i u x) du: for a real F only the cosine counts.
+    cosine = np.cos(phase)
     signs = node_signs(grid, values)
     # Mirror averaging halves the variance of each point of the symmetric method.
     scale = noise_A / np.sqrt(2.0) if symmetric else noise_A
     if symmetric:
-        j = np.real(inverse @ (values * signs * window))
+        j = (values * signs * window) @ cosine * du
         noisy = values[None, :] + rng.normal(0.0, scale, (resamples, values.size))
-        band = np.real((noisy * signs * window) @ inverse.T)
+        band = (noisy * signs * window) @ cosine * du
     else:
         support = np.abs(x) <= 0.5
-        forward = np.exp(2j * np.pi * np.outer(grid, x)) * (x[1] - x[0])
-        start = np.real(inverse @ (values * signs * window))
+        transform = _MirrorTransform(grid, x[support], du)
+        start = (values * signs * window) @ cosine[:, support] * du
         # A small tilt breaks the mirror symmetry of the start so the retrieval can move.
-        start = start * (1.0 + 0.3 * x)
-        j = _retrieve(values, forward, inverse, start, support, iterations)
+        start = start * (1.0 + 0.3 * x[support])
+        j = np.zeros(n_x)
+        j[support] = _retrieve(values[None, :], transform, start, iterations)[0]
         count = min(resamples, 16)
         noisy = values[None, :] + rng.normal(0.0, scale, (count, values.size))
-        band = np.array([_retrieve(np.abs(s), forward, inverse, j, support, iterations // 3)
-                         for s in noisy])
+        # All resamples at once, each started from the profile found above.
+        band = np.zeros((count, n_x))
+        band[:, support] = _retrieve(np.abs(noisy), transform, j[support], iterations // 3)
     low, high = np.percentile(band, [16, 84], axis=0)
     return {
         "method": method,
@@ -154,24 +215,27 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
 
 def profile_numbers(x, j, band=None) -> dict:
     """Edge fraction (outer 10 % each side; 0.2 uniform), centre of mass and non-uniformity."""
-    inside = np.abs(x) <= 0.5
-
-    def numbers(prof):
-        p = np.clip(prof, 0.0, None)
-        total = np.trapezoid(p[inside], x[inside])
-        left = np.trapezoid(np.where(inside & (x <= -0.4), p, 0.0), x)
-        right = np.trapezoid(np.where(inside & (x >= 0.4), p, 0.0), x)
-        centre = np.trapezoid(p[inside] * x[inside], x[inside]) / total
-        core = np.abs(x) <= 0.4
-        spread = np.std(p[core]) / np.mean(p[core])
-        return np.array([(left + right) / total, left / total, right / total, centre, spread])
-
-    main = numbers(j)
+    main = _numbers(x, j[None, :])[0]
     out = dict(zip(("edge_fraction", "edge_fraction_left", "edge_fraction_right",
                     "centre_of_mass_over_length", "nonuniformity"), main.tolist(), strict=True))
     if band is not None:
-        spread = np.std([numbers(b) for b in band], axis=0)
+        spread = np.std(_numbers(x, np.asarray(band)), axis=0)
         out.update(dict(zip(("edge_fraction_stderr", "edge_fraction_left_stderr",
                              "edge_fraction_right_stderr", "centre_of_mass_stderr",
                              "nonuniformity_stderr"), spread.tolist(), strict=True)))
     return out
+
+
+def _numbers(x, profiles):
+    """The five numbers of :func:`profile_numbers` for each row of ``profiles`` (m, n_x)."""
+    inside = np.abs(x) <= 0.5
+    p = np.clip(profiles, 0.0, None)
+    xi, pi = x[inside], p[:, inside]
+    total = np.trapezoid(pi, xi, axis=1)
+    left = np.trapezoid(np.where(inside & (x <= -0.4), p, 0.0), x, axis=1)
+    right = np.trapezoid(np.where(inside & (x >= 0.4), p, 0.0), x, axis=1)
+    centre = np.trapezoid(pi * xi, xi, axis=1) / total
+    core = p[:, np.abs(x) <= 0.4]
+    spread = np.std(core, axis=1) / np.mean(core, axis=1)
+    return np.stack([(left + right) / total, left / total, right / total, centre, spread],
+                    axis=1)

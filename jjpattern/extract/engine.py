@@ -3,7 +3,8 @@
 Switching is read on sweeps moving away from zero bias, retrapping on
 sweeps moving back; only switching is fitted as Ic. Rows that never switch
 inside the bias window, or are resistive from the first bias step, are
-censored rather than given a number.
+censored rather than given a number. What is compared with what (the
+criterion) comes from :mod:`.registry`; this module only walks the sweeps.
 """
 
 from __future__ import annotations
@@ -19,14 +20,19 @@ from ..io.maps import IVMap
 from ..io.sweep import MIN_POINTS, Branch, Sweep
 from ..sampling import tidy
 from . import criteria as cr
+from .registry import (  # noqa: F401 (the defaults are part of this module's interface)
+    DVDI_FRACTION,
+    RESISTANCE_FRACTION,
+    VOLTAGE_SIGMAS,
+    MapData,
+    check_threshold,
+    criterion_names,
+    get_criterion,
+    resolve,
+)
 
-CRITERIA = ("voltage", "dvdi-peak", "dvdi-threshold", "resistance")
-#: Default voltage threshold in units of the zero-voltage-branch noise.
-VOLTAGE_SIGMAS = 5.0
-#: Default dV/dI threshold as a fraction of Rn.
-DVDI_FRACTION = 0.5
-#: Default V/I threshold as a fraction of Rn.
-RESISTANCE_FRACTION = 0.05
+#: The registered criteria (``auto`` aside), as the command line lists them.
+CRITERIA = criterion_names(auto=False)
 #: A row with less than this fraction of finite points is skipped.
 MIN_FINITE_FRACTION = 0.5
 #: Retrapping over switching below this means a hysteretic (underdamped) junction.
@@ -100,25 +106,71 @@ class Extraction:
         return Sweep(self.ivmap.path, self.ivmap.sha256, tuple(out), dict(self.ivmap.metadata),
                      "field", int(self.field_T.size))
 
+    def methods_text(self) -> tuple[str, dict]:
+        """The criterion's sentence for a methods section, and the references it cites."""
+        crit = get_criterion(self.criterion)
+        n_f, n_b = self.ivmap.shape
+        what = f"a {n_f} x {n_b} {'voltage' if self.ivmap.kind == 'voltage' else 'dV/dI'} map"
+        note, refs = crit.note(self.ivmap.kind)
+        text = f"Critical currents were extracted from {what} as {crit.rule(self.threshold)}."
+        return text + note, refs
+
+    def to_dict(self) -> dict:
+        """A JSON-ready summary without the raw map: the settings, Ic per row, methods text.
+
+        NaN becomes ``None``. A report can render it alone, and
+        :func:`extraction_table_csv` makes the table from it.
+        """
+        s = self.settings()
+        text, refs = self.methods_text()
+        out = {key: s[key] for key in ("criterion", "threshold", "signal", "layout",
+                                       "map_shape", "amplifier_offset_V",
+                                       "zero_branch_noise_V", "normal_resistance_ohm",
+                                       "rows_skipped")}
+        out["field_T"] = self.field_T
+        out["branches"] = [
+            {**summary, "ic_A": b.ic_A, "status": [str(v) for v in b.status],
+             "retrap_A": b.retrap_A}
+            for summary, b in zip(s["branches"], self.branches, strict=True)]
+        out["methods_text"] = text
+        out["methods_references"] = refs
+        return _plain(out)
+
     def table_csv(self) -> str:
         """The extracted table, SI units in the header, censored values left empty."""
-        cols = ["field_T"]
-        data = [self.field_T]
-        for b in self.branches:
-            short = "pos" if b.name == "positive" else "neg"
-            cols += [f"ic_{short}_A", f"status_{short}", f"iretrap_{short}_A"]
-            data += [b.ic_A, b.status, b.retrap_A]
-        lines = [",".join(cols)]
-        for i in range(self.field_T.size):
-            cells = []
-            for column in data:
-                v = column[i]
-                if isinstance(v, str):
-                    cells.append(v)
-                else:
-                    cells.append("" if not np.isfinite(v) else repr(float(v)))
-            lines.append(",".join(cells))
-        return "\n".join(lines) + "\n"
+        return extraction_table_csv(self.to_dict())
+
+
+def _plain(value):
+    """Python lists, floats and dicts for JSON, NaN and infinities as ``None``."""
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return [_plain(v) for v in (value.tolist() if isinstance(value, np.ndarray) else value)]
+    if isinstance(value, (float, np.floating)):
+        return float(value) if np.isfinite(value) else None
+    if isinstance(value, np.integer):
+        return int(value)
+    return value
+
+
+def extraction_table_csv(block: dict) -> str:
+    """The extracted table from an :meth:`Extraction.to_dict` block.
+
+    SI units in the header, one line per kept field row, censored values
+    (``None``) left empty.
+    """
+    cols = ["field_T"]
+    data = [block["field_T"]]
+    for b in block["branches"]:
+        short = "pos" if b["branch"] == "positive" else "neg"
+        cols += [f"ic_{short}_A", f"status_{short}", f"iretrap_{short}_A"]
+        data += [b["ic_A"], b["status"], b["retrap_A"]]
+    lines = [",".join(cols)]
+    for row in zip(*data, strict=True):
+        lines.append(",".join("" if v is None else v if isinstance(v, str) else repr(float(v))
+                              for v in row))
+    return "\n".join(lines) + "\n"
 
 
 def _hysteretic(branches) -> bool:
@@ -145,20 +197,17 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
 
     Parameters
     ----------
-    criterion : {'auto', 'voltage', 'dvdi-peak', 'dvdi-threshold', 'resistance'}
-        ``auto`` is ``voltage`` for voltage maps and ``dvdi-peak`` for dV/dI maps.
+    criterion : str
+        One of :func:`.registry.criterion_names`: ``auto`` (``voltage`` for
+        voltage maps, ``dvdi-peak`` for dV/dI maps), ``voltage``, ``dvdi-peak``,
+        ``dvdi-threshold``, ``resistance``.
     threshold : float, optional
-        In SI: volt for ``voltage``, ohm for ``dvdi-threshold``, a fraction of
-        Rn for ``resistance``. By default 5 sigma of the zero-voltage-branch
-        noise, 0.5 Rn and 0.05 Rn.
+        Positive, in SI: volt for ``voltage``, ohm for ``dvdi-threshold``, a
+        fraction of Rn for ``resistance``; ``dvdi-peak`` takes none. By default
+        5 sigma of the zero-voltage-branch noise, 0.5 Rn and 0.05 Rn.
     """
-    if criterion == "auto":
-        criterion = "voltage" if ivmap.kind == "voltage" else "dvdi-peak"
-    if criterion not in CRITERIA:
-        raise InputError(f"unknown criterion {criterion!r}; use {', '.join(CRITERIA)}")
-    if ivmap.kind == "dvdi" and criterion in ("voltage", "resistance"):
-        raise InputError(f"{ivmap.path}: the map holds dV/dI, so the {criterion} criterion "
-                         "cannot be used; choose dvdi-peak or dvdi-threshold")
+    crit = resolve(criterion, ivmap.kind, ivmap.path)
+    check_threshold(crit, threshold)
     bias, sig = ivmap.bias_A, ivmap.signal
     finite = np.isfinite(sig) & (np.isfinite(bias[:1]) if cr.shared(bias) else np.isfinite(bias))
     dense = bool(finite.all())
@@ -184,10 +233,10 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     rn_rows = cr.normal_resistance(sig, bias, ivmap.kind)
     rn = float(np.nanmedian(rn_rows)) if np.isfinite(rn_rows).any() else None
 
-    quantity, level, info = _quantity(criterion, threshold, ivmap, sig, offsets, bias, noise,
-                                      rn)
-    # A dV/dI computed here is NaN near the turns of the sweep, even on a dense map.
-    dense = dense and not (criterion.startswith("dvdi") and ivmap.kind == "voltage")
+    data = MapData(ivmap.path, ivmap.kind, sig, bias, offsets, noise, rn)
+    level, info = crit.level(data, threshold)
+    quantity = crit.quantity(data)
+    dense = dense and not crit.gaps_near_turns(ivmap.kind)
     branches = []
     for name, sign in (("positive", 1.0), ("negative", -1.0)):
         def part(b, sign=sign, out=True):
@@ -195,68 +244,21 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
             return moving & (sign * b > 0)
 
         branches.append(_branch(
-            name, criterion, quantity, level, bias, cr.select(bias, part, dense),
+            name, crit, quantity, level, bias, cr.select(bias, part, dense),
             cr.select(bias, lambda b, p=part: p(b, out=False), dense)))
-    result = Extraction(ivmap, field_T, branches, criterion, info, offset, noise, rn,
+    result = Extraction(ivmap, field_T, branches, crit.name, info, offset, noise, rn,
                         int((~keep).sum()))
     result.flags = _flags(result)
     return result
 
 
-def _quantity(criterion, threshold, ivmap, sig, offsets, bias, noise, rn):
-    """The quantity compared with the level, the level, and how the level was chosen."""
-    if criterion == "voltage":
-        if threshold is None:
-            if not noise or not np.isfinite(noise):
-                raise InputError(f"{ivmap.path}: the zero-voltage noise could not be "
-                                 "estimated; give the threshold with --threshold")
-            level, how = VOLTAGE_SIGMAS * noise, f"{VOLTAGE_SIGMAS:g} x zero-branch noise"
-        else:
-            level, how = float(threshold), "given"
-        return cr.Deviation(sig, offsets), level, {"value": level, "unit": "V", "chosen": how}
-    if rn is None and (threshold is None or criterion == "resistance"):
-        raise InputError(f"{ivmap.path}: Rn could not be fitted from the high-bias part; "
-                         "give --threshold")
-    if criterion == "resistance":
-        frac = RESISTANCE_FRACTION if threshold is None else float(threshold)
-        # V/I is pure noise near zero bias: only voltages above the noise count.
-        floor = VOLTAGE_SIGMAS * noise
-        ratio = np.subtract(sig, offsets[:, None])  # the one full copy of the map
-        quiet = (ratio <= floor) & (ratio >= -floor)
-        with np.errstate(all="ignore"):
-            np.divide(ratio, bias, out=ratio)
-        ratio[quiet] = 0.0
-        return ratio, frac * rn, {"value": frac * rn, "unit": "ohm", "fraction_of_rn": frac,
-                                  "voltage_floor_V": floor,
-                                  "chosen": "given" if threshold is not None else "default"}
-    # A derivative does not see the offset; it is the one new map-sized array.
-    dvdi = sig if ivmap.kind == "dvdi" else cr.differential(sig, bias)
-    dvdi_noise = cr.zero_branch_noise(dvdi, bias)
-    if criterion == "dvdi-peak":
-        return dvdi, None, {"value": None, "unit": "ohm", "chosen": "largest dV/dI",
-                            "derivative": "measured" if ivmap.kind == "dvdi"
-                            else "Savitzky-Golay, quadratic, 7 points"}
-    if threshold is not None:
-        return dvdi, float(threshold), {"value": float(threshold), "unit": "ohm",
-                                        "chosen": "given"}
-    # Half of Rn, but never inside the noise of dV/dI on the supercurrent branch.
-    level = max(DVDI_FRACTION * rn, VOLTAGE_SIGMAS * dvdi_noise)
-    return dvdi, level, {"value": level, "unit": "ohm", "dvdi_noise_ohm": dvdi_noise,
-                         "chosen": f"larger of {DVDI_FRACTION:g} x Rn and "
-                                   f"{VOLTAGE_SIGMAS:g} x dV/dI noise"}
-
-
-def _branch(name, criterion, q, level, bias, out_seg, in_seg) -> BranchExtraction:
+def _branch(name, crit, q, level, bias, out_seg, in_seg) -> BranchExtraction:
     q_out, out = out_seg.take(q)
     q_in, inb = in_seg.take(q)
     b_out, b_in = out_seg.bias(bias), in_seg.bias(bias)
     has_out = np.count_nonzero(out, axis=1) >= 3
-    if criterion == "dvdi-peak":
-        ic, found, first = _peak_status(q_out, b_out, out)
-        ret, r_found, _ = _peak_status(q_in, b_in, inb)
-    else:
-        ic, found, first = cr.crossing(level, q_out, b_out, out, upward=True)
-        ret, r_found, _ = cr.crossing(level, q_in, b_in, inb, upward=False)
+    ic, found, first = crit.locate(q_out, level, b_out, out, upward=True)
+    ret, r_found, _ = crit.locate(q_in, level, b_in, inb, upward=False)
     status = np.where(found & ~first, "ok", np.where(found, "below-step", "above-max"))
     status = np.where(has_out, status, "no-data")
     source = "switching"
@@ -271,17 +273,6 @@ def _branch(name, criterion, q, level, bias, out_seg, in_seg) -> BranchExtractio
         ratio = float(np.median(ret[both] / ic[both]))
     return BranchExtraction(name, ic, status.astype(object), np.where(r_found, ret, np.nan),
                             source, ratio)
-
-
-def _peak_status(q, bias, candidates):
-    current, found, edge = cr.peak(q, bias, candidates)
-    if cr.shared(bias) and candidates.strides == (0, 0):
-        top = np.full(q.shape[0], np.max(np.abs(bias[0]), initial=-1.0))
-    else:
-        top = np.max(np.where(candidates, np.abs(bias), -1.0), axis=1, initial=-1.0)
-    at_top = edge & np.isclose(current, top)
-    # A peak on the largest |I| never came inside the window: censored above, not "ok".
-    return current, found & ~at_top, edge & ~at_top
 
 
 def _flags(result: Extraction) -> list:

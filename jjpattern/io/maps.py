@@ -22,9 +22,6 @@ from ..settings import ReadSettings
 from .sweep import field_values_T, is_field_name, numeric, role_key
 from .units import current_factor, resistance_factor, split_header, voltage_factor
 
-#: Former name of the read settings, kept for callers not yet moved to ReadSettings.
-MapOptions = ReadSettings
-
 _BIAS_NAMES = {"i", "bias", "i_bias", "ibias", "current", "i_dc", "idc", "i_set", "iset"}
 _VOLTAGE_NAMES = {"v", "voltage", "vdc", "v_dc", "u", "v_meas"}
 _DVDI_NAMES = {"dvdi", "dv/di", "dv_di", "dvdi_lockin", "r_diff", "rdiff", "dv/di_lockin"}

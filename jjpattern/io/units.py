@@ -102,37 +102,3 @@ def coil_constant_T_per_A(text: str) -> float:
     if not value > 0:
         raise InputError(f"{where}: the coil constant must be positive")
     return value * per
-
-
-_VALUE_UNIT = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?P<unit>[A-Za-z\u00b5\u03bc\u03a9]*)\s*$")
-
-
-def parse_threshold(text: str | None, criterion: str) -> float | None:
-    """A criterion level in SI: ``'2uV'`` (voltage), ``'5Ohm'`` (dV/dI), ``'0.05'`` (of Rn)."""
-    if text is None:
-        return None
-    where = f"--threshold {text!r}"
-    match = _VALUE_UNIT.match(text)
-    if not match:
-        raise InputError(f"{where}: write a number with its unit, e.g. 2uV or 5Ohm")
-    try:
-        value = float(match.group("value"))
-    except ValueError:
-        raise InputError(f"{where}: {match.group('value')!r} is not a number") from None
-    unit = match.group("unit")
-    if criterion == "resistance":
-        if unit:
-            raise InputError(f"{where}: for the resistance criterion give a fraction of Rn "
-                             "without a unit, e.g. 0.05")
-        return value
-    if criterion == "dvdi-peak":
-        raise InputError(f"{where}: the dvdi-peak criterion takes no threshold")
-    if not unit:
-        raise InputError(f"{where}: give the unit, e.g. 2uV or 5Ohm")
-    if criterion in ("voltage", "auto"):
-        if normalise_unit(unit) not in VOLTAGE_UNITS:
-            raise InputError(f"{where}: the voltage criterion takes a voltage "
-                             f"({VOLTAGE_UNIT_HELP}); for a dV/dI level choose "
-                             "--criterion dvdi-threshold")
-        return value * VOLTAGE_UNITS[normalise_unit(unit)]
-    return value * resistance_factor(unit, where)

@@ -29,24 +29,6 @@ def fit_table_csv(fits) -> str:
     return "\n".join(lines) + "\n"
 
 
-def extraction_table_csv(block: dict) -> str:
-    """The extracted Ic(B) table, SI units in the header, censored values left empty."""
-    cols = ["field_T"]
-    data = [block["field_T"]]
-    for b in block["branches"]:
-        short = "pos" if b["branch"] == "positive" else "neg"
-        cols += [f"ic_{short}_A", f"status_{short}", f"iretrap_{short}_A"]
-        data += [b["ic_A"], b["status"], b["retrap_A"]]
-
-    def cell(v):
-        if isinstance(v, str):
-            return v
-        return "" if v is None or not np.isfinite(v) else repr(float(v))
-
-    rows = zip(*data, strict=True)
-    return "\n".join([",".join(cols)] + [",".join(map(cell, row)) for row in rows]) + "\n"
-
-
 def field_calibration_text(result) -> str:
     """One sentence on how the field axis was obtained."""
     column = "field" if result.extraction is not None else result.input.get("field_column")
@@ -86,6 +68,8 @@ def write_report(result, out_dir: str, argv, ivmap=None) -> dict:
     if result.extraction is not None:
         if ivmap is not None:
             map_png, map_files = figure(map_figure(ivmap, result.extraction), "map")
+        from ..extract.engine import extraction_table_csv
+
         write_text(path("extraction.csv"), extraction_table_csv(result.extraction))
 
     extra_sections = []

@@ -35,30 +35,9 @@ def _junction(meta: dict) -> str:
 
 
 def _extraction_text(ex: dict, cited) -> str:
-    n_f, n_b = ex["map_shape"]
-    threshold = ex["threshold"]
-    level = threshold.get("value")
-    criterion = ex["criterion"]
-    what = f"a {n_f} x {n_b} {'voltage' if ex['signal'] == 'voltage' else 'dV/dI'} map"
-    if criterion == "voltage":
-        rule = (f"the first bias current, on sweeps away from zero bias, at which |V - V0| "
-                f"exceeded {format_measure(level, None, VOLTAGE_UNITS, digits=3)} "
-                f"({threshold['chosen']}), interpolated linearly between the two "
-                "straddling points; the amplifier offset V0 was estimated in each field row "
-                "as the median voltage near zero bias and removed")
-    elif criterion == "resistance":
-        rule = (f"the first bias current at which V/I exceeded "
-                f"{threshold['fraction_of_rn']:g} Rn, with Rn from a linear fit of the "
-                "high-bias part of each I-V curve")
-    elif criterion == "dvdi-threshold":
-        rule = f"the first bias current at which dV/dI exceeded {level:.3g} ohm"
-    else:
-        rule = "the bias current of the largest dV/dI, refined by a parabola through 3 points"
-    text = f"Critical currents were extracted from {what} as {rule}."
-    if ex["signal"] == "voltage" and criterion.startswith("dvdi"):
-        text += (" dV/dI was computed with a 7-point quadratic Savitzky-Golay derivative "
-                 "[sg].")
-        cited.append("sg")
+    # The criterion's own sentence, written by the extraction registry.
+    text = ex["methods_text"]
+    cited += list(ex.get("methods_references") or {})
     censored = {}
     for b in ex["branches"]:
         for key in ("above-max", "below-step"):
@@ -191,6 +170,7 @@ def methods_paragraph(result, field_calibration: str) -> str:
     numbered = {key: i + 1 for i, key in enumerate(k for k in order if f"[{k}]" in text)}
     for key, n in numbered.items():
         text = text.replace(f"[{key}]", f"[{n}]")
-    known = {**REFERENCES, **spec.references}
+    known = {**REFERENCES, **spec.references,
+             **((result.extraction or {}).get("methods_references") or {})}
     refs = "\n".join(f"[{n}] {known[key]}" for key, n in numbered.items())
     return f"{text}\n\nReferences\n{refs}\n"
