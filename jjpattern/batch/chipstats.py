@@ -21,18 +21,22 @@ from ..physics.constants import PHI0_WB
 MAD_TO_SIGMA = 1.4826
 #: A junction is an outlier when its ln(observed / trend) departs this many robust sigma.
 OUTLIER_SIGMA = 5.0
+#: Residuals within this many MAD-sigma enter the clipped standard deviation.
+CLIP_SIGMA = 3.5
 #: Fewest junctions for a chip number, and for the outlier test.
-MIN_JUNCTIONS, MIN_FOR_OUTLIERS = 3, 5
+MIN_JUNCTIONS, MIN_FOR_OUTLIERS = 3, 10
 #: Relative spread of 1/L + 1/W (offset) or of L (intercept check) below which it is not fitted.
 MIN_SIZE_SPREAD = 0.05
 _NUMERIC = ("ic0_A", "ic0_stderr_A", "period_T", "period_stderr_T", "length_m", "width_m",
             "area_m2", "x", "y", "field_offset_T")
 
-CRITERION_TEXT = (f"|ln(observed / chip trend)| more than {OUTLIER_SIGMA:g} robust standard "
-                  f"deviations from the median, the robust standard deviation being "
-                  f"{MAD_TO_SIGMA} x MAD of ln(observed / trend), but never below the median "
-                  f"relative standard error of the junctions; tested with {MIN_FOR_OUTLIERS} or "
-                  "more junctions")
+def criterion_text(threshold: float = OUTLIER_SIGMA) -> str:
+    """The outlier criterion in words, as the summary states it."""
+    return (f"|ln(observed / chip trend)| more than {threshold:g} robust standard deviations "
+            f"from the median; the robust standard deviation is the largest of {MAD_TO_SIGMA} "
+            f"x MAD, the standard deviation of the residuals within {CLIP_SIGMA:g} of that "
+            "(corrected for the fitted parameters) and the median relative standard error of "
+            f"the junctions; tested with {MIN_FOR_OUTLIERS} or more junctions")
 
 
 def _columns(table) -> dict:
@@ -41,14 +45,24 @@ def _columns(table) -> dict:
 
     frame = pd.DataFrame(table)
     n = len(frame)
-    c = {name: pd.to_numeric(frame[name], errors="coerce").to_numpy(dtype=float)
-         if name in frame else np.full(n, np.nan) for name in _NUMERIC}
+    c = {name: _floats(frame[name]) if name in frame else np.full(n, np.nan)
+         for name in _NUMERIC}
     for name, default in (("junction", ""), ("chip", ""), ("status", "ok")):
         c[name] = [default if v is None or (isinstance(v, float) and math.isnan(v)) else str(v)
                    for v in frame[name]] if name in frame else [default] * n
     c["flags"] = [_codes(f) for f in frame["flags"]] if "flags" in frame else [[]] * n
     c["ok"] = np.array([s.lower() == "ok" for s in c["status"]], dtype=bool)
     return c
+
+
+def _floats(column) -> np.ndarray:
+    """A column as floats; text that is not a number (or None) becomes NaN."""
+    import pandas as pd
+
+    try:
+        return column.to_numpy(dtype=float, na_value=np.nan)
+    except (TypeError, ValueError):
+        return pd.to_numeric(column, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
 
 
 def _codes(value) -> list[str]:
@@ -66,13 +80,21 @@ def _num(value):
     return None if value is None or not np.isfinite(value) else float(value)
 
 
-def _robust_sigma(residual, relative_errors=()) -> float:
-    """MAD-based sigma, floored by the median stated relative error (the scatter cannot be
-    smaller than the measurement error, and the MAD of a handful of junctions can be)."""
-    mad = MAD_TO_SIGMA * np.median(np.abs(residual - np.median(residual)))
+def _robust_sigma(residual, relative_errors=(), params: int = 0) -> float:
+    """Scale of the residuals for the outlier test, the largest of three estimates.
+
+    The MAD of a dozen junctions is often 30-40 % low by chance, so it is joined
+    by the standard deviation of the residuals within 3.5 MAD-sigma (corrected for
+    the ``params`` fitted parameters) and by the median stated relative error.
+    """
+    centred = residual - np.median(residual)
+    mad = MAD_TO_SIGMA * np.median(np.abs(centred))
+    inside = centred[np.abs(centred) <= CLIP_SIGMA * mad]
+    clipped = (math.sqrt(float(inside @ inside) / (inside.size - params))
+               if inside.size > params else 0.0)
     errors = np.asarray(relative_errors, dtype=float)
     errors = errors[np.isfinite(errors)]
-    return float(max(mad, np.median(errors) if errors.size else 0.0))
+    return float(max(mad, clipped, np.median(errors) if errors.size else 0.0))
 
 
 def _areas(c, delta_m):
@@ -166,6 +188,7 @@ def _period_fit(c, delta, delta_se, threshold):
            "period_robust_sigma_ln": None, "length_offset_from_period_m": None,
            "length_offset_from_period_stderr_m": None}
     outliers = np.zeros(use.size, bool)
+    out["_tested"] = int(use.sum())
     if use.sum() < MIN_JUNCTIONS:
         return out, outliers, "fewer than 3 analysed junctions with a period and a length"
     period, drawn = c["period_T"][use], c["length_m"][use]
@@ -183,7 +206,7 @@ def _period_fit(c, delta, delta_se, threshold):
     inliers = np.ones(period.size, bool)
     for _ in range(2):
         resid = np.log(trend * (drawn - d) * period)  # ln(observed / trend period)
-        sigma = _robust_sigma(resid, rel)
+        sigma = _robust_sigma(resid, rel, 1)
         if period.size >= MIN_FOR_OUTLIERS:
             inliers = ~_flag_outliers(resid, sigma, threshold)
         trend, se, chi2 = slope(inliers)
@@ -245,15 +268,15 @@ def _jc_fit(c, has_ic, threshold):
            "critical_current_density_junctions": 0, "ic0_robust_sigma_ln": None}
     for robust in (True, False):
         offset = dimension_offset(c, keep, robust)
+        delta = offset["dimension_offset_m"]
         if has_ic.sum() < MIN_JUNCTIONS:
             reasons["critical_current_density"] = "fewer than 3 analysed junctions with Ic0 " \
                 "and an area"
             break
-        delta = offset["dimension_offset_m"]
         jc_each = c["ic0_A"] / _areas(c, delta)
         jc = float(np.median(jc_each[keep])) if delta is None or robust else offset["_jc"]
         resid = np.log(jc_each[has_ic] / jc)
-        sigma = _robust_sigma(resid, rel[has_ic])
+        sigma = _robust_sigma(resid, rel[has_ic], 1 if delta is None else 2)
         if has_ic.sum() >= MIN_FOR_OUTLIERS:
             outliers[has_ic] = _flag_outliers(resid, sigma, threshold)
             keep = has_ic & ~outliers
@@ -313,8 +336,12 @@ def chip_summary(table, *, outlier_sigma: float = OUTLIER_SIGMA) -> dict:
     elif out["length_offset_from_period_m"] is None:
         reasons["length_offset_from_period"] = "the lengths do not vary enough to test " \
             "whether the period scales with 1/L"
-    if has_ic.sum() < MIN_FOR_OUTLIERS:
-        reasons["outliers"] = f"fewer than {MIN_FOR_OUTLIERS} junctions with Ic0: not tested"
+    untested = [f"{name} not tested (fewer than {MIN_FOR_OUTLIERS} junctions with one)"
+                for name, n in (("Ic0", has_ic.sum()), ("period", period["_tested"]))
+                if n < MIN_FOR_OUTLIERS]
+    del out["_tested"]
+    if untested:
+        reasons["outliers"] = "; ".join(untested)
     trends = _trends(c, out)
     entries = _outlier_entries(c, ic_out, c["ic0_A"], trends["expected_ic0_A"],
                                out["ic0_robust_sigma_ln"], "ic0")
@@ -325,7 +352,8 @@ def chip_summary(table, *, outlier_sigma: float = OUTLIER_SIGMA) -> dict:
         field_offset_median_T=float(np.median(offsets)) if offsets.size else None,
         field_offset_robust_sigma_T=_robust_sigma(offsets)
         if offsets.size >= MIN_JUNCTIONS else None,
-        outlier_criterion=CRITERION_TEXT, outlier_threshold_robust_sigma=outlier_sigma,
+        outlier_criterion=criterion_text(outlier_sigma),
+        outlier_threshold_robust_sigma=outlier_sigma,
         outliers=sorted(entries, key=lambda e: (e["junction"], e["quantity"])),
         outlier_junctions=sorted({e["junction"] for e in entries}),
         flag_counts=dict(sorted(Counter(code for f in c["flags"] for code in f).items())),
