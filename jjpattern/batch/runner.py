@@ -37,6 +37,7 @@ class BatchOutcome:
     failed: int = 0
     flagged: int = 0
     seconds: float = 0.0
+    analysis_seconds: float = 0.0
     paths: dict = field(default_factory=dict)
     errors: dict = field(default_factory=dict)
 
@@ -335,7 +336,7 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
         executor, close = _executor(workers, scheduler)
         try:
             _run(executor, _chunks(todo, workers, chunk_size), by_key, bar, take, fail,
-                 write_text, Result)
+                 write_text, Result, outcome)
         except KeyboardInterrupt:
             _stop(executor)
             bar.close()
@@ -355,7 +356,7 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     return outcome
 
 
-def _run(executor, chunks, by_key, bar, take, fail, write_text, result_cls) -> None:
+def _run(executor, chunks, by_key, bar, take, fail, write_text, result_cls, outcome) -> None:
     """Submit the chunks, write each result as it comes back, turn failures into rows."""
     from concurrent.futures import as_completed
 
@@ -369,6 +370,7 @@ def _run(executor, chunks, by_key, bar, take, fail, write_text, result_cls) -> N
                      for job in futures[future]]
         for item in items:
             job = by_key[item["key"]]
+            outcome.analysis_seconds += item.get("seconds", 0.0)
             if item["status"] == "ok":
                 write_text(job["result_path"], item["json"] + "\n")
                 take(job, result_cls.from_json(item["json"]))
