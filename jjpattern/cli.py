@@ -321,7 +321,7 @@ def run_batch(args) -> int:
     from .errors import InputError
 
     if os.path.isdir(args.path):
-        from .batch.runner import starter_manifest
+        from .batch.sniff import starter_manifest
 
         path, entries = starter_manifest(args.path)
         print(f"wrote a starter manifest listing {len(entries)} inputs: {path}")

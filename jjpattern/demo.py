@@ -29,8 +29,10 @@ def chip_manifest() -> str:
     return str(resources.files("jjpattern.demo_data") / CHIP_FOLDER / "manifest.csv")
 
 
-def run_demo(out_dir: str, echo=print, workers: int | None = None) -> list[str]:
-    """Analyse every demo sweep, write JSON and a figure for each, then the demo chip's batch.
+def run_demo(out_dir: str, echo=print, workers: int | None = None,
+             chip: bool = True) -> list[str]:
+    """Analyse every demo sweep, write JSON and a figure for each, then (with ``chip``) run
+    the batch of the demo chip on ``workers`` processes.
 
     Returns the paths written.
     """
@@ -66,6 +68,10 @@ def run_demo(out_dir: str, echo=print, workers: int | None = None) -> list[str]:
                                   ["demo", "--out", out_dir], ivmap=done.data)
             written += list(report.values())
         echo("")
+    if not chip:
+        echo(f"demo results are in {os.path.abspath(out_dir)}")
+        echo(f"report for KT14-J07: {os.path.abspath(report['report.html'])}")
+        return written
     from .batch.runner import run_batch
 
     echo("batch of chip KT-14 (24 junctions, one file broken on purpose):")

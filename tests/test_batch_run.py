@@ -278,6 +278,43 @@ def test_input_hash_is_the_readers(tmp_path, chip):
     assert input_sha256(folder) == load_map(str(folder)).sha256
 
 
+def test_a_worker_that_dies_fails_only_its_junction():
+    from concurrent.futures import Future
+    from concurrent.futures.process import BrokenProcessPool
+
+    from jjpattern.batch import runner
+
+    class Pool:
+        """Runs chunks at once; the job 'crash' breaks the pool as a dying worker does, and
+        every chunk still in a broken pool is lost."""
+
+        broken = False
+
+        def submit(self, fn, jobs):
+            future = Future()
+            if self.broken or any(j["key"] == "crash" for j in jobs):
+                self.broken = True
+                future.set_exception(BrokenProcessPool("a worker died"))
+            else:
+                future.set_result([{"key": j["key"], "status": "ok"} for j in jobs])
+            return future
+
+    fresh = []
+
+    def new_pool():
+        fresh.append(Pool())
+        return fresh[-1], lambda: None
+
+    jobs = [{"key": k, "order": i} for i, k in enumerate(("a", "b", "crash", "c", "d"))]
+    seen = {}
+    runner._run(Pool(), [jobs[:2], jobs[2:4], jobs[4:]], lambda i: seen.update({i["key"]: i}),
+                new_pool)
+    assert {k: v["status"] for k, v in seen.items()} == {
+        "a": "ok", "b": "ok", "crash": "failed", "c": "ok", "d": "ok"}
+    assert "worker process died" in seen["crash"]["error"]
+    assert len(fresh) == 2  # one pool for the lost junctions, one more after the crash
+
+
 def test_result_names_and_progress_bar():
     assert result_stem("KT-14", "J3", "CD-07").startswith("KT-14_J3_CD-07_")
     # Names that differ only in characters a file name cannot hold stay apart.

@@ -76,8 +76,10 @@ def test_demo_writes_results_and_says_where(tmp_path, capsys):
     out = capsys.readouterr().out
     files = sorted(os.listdir(tmp_path / "d"))
     expected = [f"kt14_j{n}.{s}" for n in ("03", "05", "11", "07_map") for s in ("json", "png")]
-    assert files == sorted(expected + ["kt14_j07_map_extraction.png", "report_kt14_j07"])
+    assert files == sorted(expected + ["kt14_j07_map_extraction.png", "report_kt14_j07",
+                                       "chip_kt14"])
     assert str(tmp_path / "d" / "report_kt14_j07" / "report.html") in out
+    assert out.rstrip().endswith(str(tmp_path / "d" / "chip_kt14" / "chip_report.html"))
     assert str(tmp_path / "d") in out
     doc = json.loads((tmp_path / "d" / "kt14_j05.json").read_text())
     assert doc["fits"][0]["model"] == "circular"

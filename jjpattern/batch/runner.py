@@ -56,92 +56,6 @@ def result_stem(chip, junction, cooldown) -> str:
     return f"{safe[:80]}_{hashlib.sha256(key.encode('utf-8')).hexdigest()[:8]}"
 
 
-def can_read(path) -> bool:
-    """Whether jjpattern reads ``path`` as one junction, judged from the first 64 KiB.
-
-    Files: HDF5 and ``.npz`` by signature, delimited text by a header with a
-    field and a critical-current column (or a long-form raw map). Folders: two
-    or more I-V files (bias and voltage columns, no field column).
-    """
-    path = os.fspath(path)
-    if os.path.basename(path).startswith("."):
-        return False
-    if os.path.isdir(path):
-        try:
-            names = [n for n in os.listdir(path) if not n.startswith(".")]
-        except OSError:
-            return False
-        files = [os.path.join(path, n) for n in names if os.path.isfile(os.path.join(path, n))]
-        return len(files) >= 2 and len(files) == len(names) and all(
-            _sniff(f) == "iv" for f in files)
-    return os.path.isfile(path) and _sniff(path) in ("hdf5", "npz", "sweep", "map")
-
-
-def _sniff(path: str) -> str | None:
-    from ..io.maps import looks_like_map
-    from ..io.sweep import ic_branch_hint, is_field_name
-    from ..io.text import split_whitespace_header
-
-    try:
-        with open(path, "rb") as handle:
-            head = handle.read(1 << 16)
-    except OSError:
-        return None
-    suffix = os.path.splitext(path)[1].lower()
-    if head.startswith(b"\x89HDF\r\n\x1a\n"):
-        return "hdf5"
-    if head.startswith(b"PK") and suffix == ".npz":
-        return "npz"
-    if not head.strip() or b"\x00" in head:
-        return None
-    try:
-        text = head.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        text = head.decode("latin-1")
-    lines = [s.strip() for s in text.splitlines() if s.strip() and not s.strip().startswith("#")]
-    if len(lines) < 2:
-        return None
-    delim = next((d for d in (",", "\t", ";") if d in lines[0]), None)
-    names = (split_whitespace_header(lines[0]) if delim is None
-             else [n.strip().strip("\"'") for n in lines[0].split(delim)])
-    first = lines[1].split() if delim is None else lines[1].split(delim)
-    try:
-        float(first[0])
-    except ValueError:
-        return None
-    if len(names) < 2 or all(_is_number(n) for n in names):
-        return None
-    has_field = any(is_field_name(n) or is_field_name(n.split("(")[0].split("[")[0])
-                    for n in names)
-    if looks_like_map(names):
-        return "map" if has_field else "iv"
-    if any(ic_branch_hint(n.split("(")[0].split("[")[0].strip()) is not None for n in names):
-        return "sweep"
-    return None
-
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
-
-
-def starter_manifest(folder, out_path=None) -> tuple[str, list[str]]:
-    """Write ``manifest.csv`` in ``folder`` listing what jjpattern can read there.
-
-    Returns the manifest's path and the entries written.
-    """
-    from .manifest import write_starter_manifest
-
-    out_path = os.fspath(out_path or os.path.join(os.fspath(folder), "manifest.csv"))
-    if os.path.exists(out_path):
-        raise InputError(f"{out_path}: a manifest is already there; run jjpattern batch "
-                         f"{out_path} --out DIR, or remove it to list the folder again")
-    return out_path, write_starter_manifest(folder, out_path, can_read)
-
-
 def _saved(path: str, input_sha: str, settings_hash: str):
     """The saved result at ``path`` when it was made from this input with these settings."""
     from ..result import Result
@@ -222,7 +136,10 @@ def _executor(workers: int, scheduler: str | None):
 
 def _stop(executor) -> None:
     """Stop at once on Ctrl-C: drop queued chunks and end the local workers."""
-    executor.shutdown(wait=False, cancel_futures=True)
+    try:
+        executor.shutdown(wait=False, cancel_futures=True)
+    except TypeError:  # a Dask executor takes no cancel_futures
+        executor.shutdown(wait=False)
     for process in list((getattr(executor, "_processes", None) or {}).values()):
         process.terminate()
 
@@ -233,11 +150,11 @@ def plan(rows, base, out_dir: str, manifest_dir: str, reports: bool, command) ->
 
     xy_unit = "m" if any(r.xy_unit == "m" for r in rows) else ""
     jobs = []
-    for row in rows:
+    for order, row in enumerate(rows):
         stem = result_stem(row.chip, row.junction, row.cooldown)
         settings = row.settings(base)
         relative = os.path.relpath(row.file_path, manifest_dir).replace(os.sep, "/")
-        job = {"key": stem, "path": row.file_path, "settings": settings.to_dict(),
+        job = {"key": stem, "order": order, "path": row.file_path, "settings": settings.to_dict(),
                "settings_sha256": settings.hash(), "command": command,
                "manifest": {"junction": row.junction, "chip": row.chip, "cooldown": row.cooldown,
                             "row": row.row_number, "file": relative},
@@ -334,9 +251,21 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     if todo:
         by_key = {job["key"]: job for job in todo}
         executor, close = _executor(workers, scheduler)
+
+        def on_item(item) -> None:
+            job = by_key[item["key"]]
+            outcome.analysis_seconds += item.get("seconds", 0.0)
+            if item["status"] == "ok":
+                write_text(job["result_path"], item["json"] + "\n")
+                take(job, Result.from_json(item["json"]))
+                bar.update()
+            else:
+                fail(job, item["error"])
+                bar.update(failed=1)
+
         try:
-            _run(executor, _chunks(todo, workers, chunk_size), by_key, bar, take, fail,
-                 write_text, Result, outcome)
+            _run(executor, _chunks(todo, workers, chunk_size), on_item,
+                 None if scheduler else lambda: _executor(1, None))
         except KeyboardInterrupt:
             _stop(executor)
             bar.close()
@@ -356,25 +285,57 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     return outcome
 
 
-def _run(executor, chunks, by_key, bar, take, fail, write_text, result_cls, outcome) -> None:
-    """Submit the chunks, write each result as it comes back, turn failures into rows."""
-    from concurrent.futures import as_completed
+def _run(executor, chunks, on_item, new_executor=None) -> None:
+    """Submit the chunks and hand each item to ``on_item`` as it comes back.
+
+    A chunk whose task raised becomes failed items. When a local worker process
+    dies (a crash in a compiled library, the out-of-memory killer), every chunk
+    still in the pool is lost with it; those junctions are run again one at a
+    time in a fresh pool (``new_executor``), so the one that kills its worker
+    is found and only it fails.
+    """
+    from concurrent.futures import BrokenExecutor, as_completed
 
     futures = {executor.submit(worker.analyse_chunk, chunk): chunk for chunk in chunks}
+    lost = []
     for future in as_completed(futures):
         try:
             items = future.result()
-        except Exception as exc:  # noqa: BLE001 - a lost worker fails its chunk, not the batch
-            items = [{"key": job["key"], "status": "failed",
-                      "error": f"worker lost ({exc.__class__.__name__}: {exc})"}
-                     for job in futures[future]]
+        except BrokenExecutor:
+            lost += futures[future]
+            continue
+        except Exception as exc:  # noqa: BLE001 - a lost task fails its chunk, not the batch
+            items = [_lost(job, exc) for job in futures[future]]
         for item in items:
-            job = by_key[item["key"]]
-            outcome.analysis_seconds += item.get("seconds", 0.0)
-            if item["status"] == "ok":
-                write_text(job["result_path"], item["json"] + "\n")
-                take(job, result_cls.from_json(item["json"]))
-                bar.update()
-            else:
-                fail(job, item["error"])
-                bar.update(failed=1)
+            on_item(item)
+    if lost and new_executor is None:
+        for job in lost:
+            on_item(_lost(job, None))
+    elif lost:
+        _one_by_one(lost, on_item, new_executor)
+
+
+def _lost(job, exc) -> dict:
+    why = "" if exc is None else f" ({exc.__class__.__name__}: {exc})"
+    return {"key": job["key"], "status": "failed",
+            "error": f"the worker analysing this junction was lost{why}"}
+
+
+def _one_by_one(jobs, on_item, new_executor) -> None:
+    from concurrent.futures import BrokenExecutor
+
+    executor, close = new_executor()
+    try:
+        for job in sorted(jobs, key=lambda j: j["order"]):
+            try:
+                items = executor.submit(worker.analyse_chunk, [job]).result()
+            except BrokenExecutor:
+                items = [{"key": job["key"], "status": "failed",
+                          "error": "internal error: the worker process died while analysing "
+                                   "this junction (a crash or the out-of-memory killer)"}]
+                close()
+                executor, close = new_executor()
+            for item in items:
+                on_item(item)
+    finally:
+        close()

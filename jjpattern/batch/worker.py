@@ -49,7 +49,7 @@ def input_sha256(path) -> str:
 
 
 def init_worker() -> None:
-    """Initializer of a local worker process: one BLAS thread, exit with the parent.
+    """Initializer of a local worker process: one BLAS thread, no Ctrl-C, exit with the parent.
 
     The thread caps only work before numpy is imported, which is why this
     module imports nothing heavy. The watchdog ends an orphaned worker when the
@@ -58,7 +58,11 @@ def init_worker() -> None:
     for name in THREAD_VARIABLES:
         os.environ[name] = "1"
     import multiprocessing
+    import signal
     import threading
+
+    # Ctrl-C reaches the whole process group: the batch process stops the pool itself.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
 
     parent = multiprocessing.parent_process()
     if parent is not None:
