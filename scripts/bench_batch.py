@@ -97,11 +97,20 @@ def generate(folder, n_maps, n_tables, n_field, n_bias, n_points, seed):
     return manifest
 
 
-def read_only(rows) -> float:
+def _cpu() -> float:
+    """CPU seconds of this process and of its reaped children (the pool's workers)."""
+    import resource
+
+    own, kids = (resource.getrusage(w) for w in (resource.RUSAGE_SELF,
+                                                 resource.RUSAGE_CHILDREN))
+    return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
+
+
+def read_only(rows) -> tuple[float, float]:
     import h5py
     import pandas as pd
 
-    start = time.perf_counter()
+    start, cpu = time.perf_counter(), _cpu()
     for row in rows:
         if row.file_path.endswith(".h5"):
             with h5py.File(row.file_path, "r") as f:
@@ -109,13 +118,13 @@ def read_only(rows) -> float:
                     f[name][()]
         else:
             pd.read_csv(row.file_path)
-    return time.perf_counter() - start
+    return time.perf_counter() - start, _cpu() - cpu
 
 
-def in_process(rows) -> float:
+def in_process(rows) -> tuple[float, float]:
     from jjpattern import analyze
 
-    total = 0.0
+    total, cpu = 0.0, _cpu()
     for row in rows:
         start = time.perf_counter()
         try:
@@ -123,7 +132,7 @@ def in_process(rows) -> float:
         except Exception:  # noqa: BLE001 - timed like the batch, which records failures
             pass
         total += time.perf_counter() - start
-    return total
+    return total, _cpu() - cpu
 
 
 def main() -> None:
@@ -151,27 +160,34 @@ def main() -> None:
               f"({args.points} points, CSV): {size / 2**20:.0f} MiB, generated in "
               f"{time.perf_counter() - start:.0f} s; {os.cpu_count()} cores")
         rows = read_manifest(manifest)
-        read_only(rows[:5])  # warm the imports
-        t_read = read_only(rows)
+        read_only(rows[:5])  # warm the imports and the page cache
         in_process(rows[:2])
-        t_sum = in_process(rows)
-        walls = {}
+        t_read, c_read = read_only(rows)
+        t_sum, c_sum = in_process(rows)
+        runs = {}
         for workers in (1, 2):
             out = os.path.join(folder, f"out{workers}")
             shutil.rmtree(out, ignore_errors=True)
+            cpu = _cpu()
             outcome = run_batch(manifest, out, workers=workers, progress=False)
-            walls[workers] = outcome
-        w1, w2 = walls[1].seconds, walls[2].seconds
-        print(f"read only (h5py / pandas)        {t_read:8.1f} s")
-        print(f"analysis in this process, sum    {t_sum:8.1f} s   "
-              f"({1e3 * t_sum / len(rows):.0f} ms per junction)")
-        for workers, outcome in walls.items():
-            print(f"batch, {workers} worker{'s' if workers > 1 else ' '}          wall "
-                  f"{outcome.seconds:8.1f} s   (sum inside the workers "
-                  f"{outcome.analysis_seconds:.1f} s; {outcome.last_line()})")
-        print(f"1-worker wall / in-process sum   {w1 / t_sum:8.2f}     (target <= 1.15)")
+            runs[workers] = (outcome, _cpu() - cpu)
+        print("                                    wall        CPU")
+        print(f"read only (h5py / pandas)        {t_read:8.2f} s {c_read:8.2f} s")
+        print(f"analysis in this process, sum    {t_sum:8.1f} s {c_sum:8.1f} s   "
+              f"({1e3 * t_sum / len(rows):.0f} ms wall per junction)")
+        for workers, (outcome, cpu) in runs.items():
+            print(f"batch, {workers} worker{'s' if workers > 1 else ' '}                "
+                  f"{outcome.seconds:8.1f} s {cpu:8.1f} s   (inside the workers' analyses: "
+                  f"wall {outcome.analysis_seconds:.1f} s, CPU "
+                  f"{outcome.analysis_cpu_seconds:.1f} s)")
+        print(runs[2][0].last_line())
+        w1, w2 = runs[1][0].seconds, runs[2][0].seconds
+        print(f"1-worker wall / in-process sum   {w1 / t_sum:8.2f}     (target <= 1.15); "
+              f"CPU ratio {runs[1][1] / c_sum:.2f}")
         print(f"parallel efficiency, 2 workers   {100 * w1 / (2 * w2):8.0f} %   "
               "(target >= 90 %)")
+        print(f"load average during the run: {', '.join(f'{v:.1f}' for v in os.getloadavg())}"
+              " (other processes on the machine share its cores)")
     finally:
         if not args.keep:
             shutil.rmtree(folder, ignore_errors=True)

@@ -26,6 +26,8 @@ FIGURES = (
     ("flags", "Junctions carrying each flag, outliers and failures."),
 )
 _EXTRA_CSS = """
+body { max-width: 76rem; }
+.wide { overflow-x: auto; }
 table.junctions td, table.junctions th { padding: 0.2rem 0.45rem; }
 tr.failed td { background: #fdf0e8; }
 tr.outlier td { background: #fff6df; }
@@ -128,6 +130,10 @@ def _num(value, digits=4) -> str:
     return f"{value:.{digits}g}"
 
 
+def _deviation(d) -> str:
+    return "" if d is None else f"{d:+.0f}" if abs(d) >= 10 else f"{d:+.1f}"
+
+
 def _value(v):
     return None if v is None or (isinstance(v, float) and not math.isfinite(v)) else float(v)
 
@@ -155,7 +161,7 @@ def _junction_rows(part, trends, out_dir: str, reports: bool) -> list[dict]:
                                      _value(r["field_offset_stderr_T"]), FIELD_UNITS)
             if _value(r["field_offset_T"]) is not None else "",
             "outlier": bool(t["outlier_ic0"] or t["outlier_period"]),
-            "notes": r["error"] if r["status"] != "ok" else ", ".join(r["flags"]),
+            "notes": r["error"] if r["status"] != "ok" else "; ".join(r["flags"]),
             "flagged": bool(r["flags"]),
         })
     return out
@@ -187,13 +193,14 @@ def _junction_table(rows: list[dict]) -> str:
         cells = [_num(r["length_m"] and r["length_m"] * 1e6, 3),
                  _num(r["width_m"] and r["width_m"] * 1e6, 3),
                  _num(r["area_m2"] and r["area_m2"] * 1e12, 4), r["period"], r["ic0"],
-                 _num(r["jc"] and r["jc"] / 1e7, 4), *(_num(d, 2) for d in r["dev"]),
+                 _num(r["jc"] and r["jc"] / 1e7, 4), *(_deviation(d) for d in r["dev"]),
                  r["offset"]]
         body.append(f"<tr{cls}><td>{name}</td><td>{esc(r['status'])}</td>"
                     + "".join(f"<td class=num>{esc(c)}</td>" for c in cells)
                     + f"<td>{esc(r['notes'])}</td></tr>")
-    return ("<table class=junctions><tr>" + "".join(f"<th>{esc(h)}</th>" for h in head)
-            + "</tr>" + "".join(body) + "</table>")
+    return ("<div class=wide><table class=junctions><tr>"
+            + "".join(f"<th>{esc(h)}</th>" for h in head) + "</tr>" + "".join(body)
+            + "</table></div>")
 
 
 def _figures(pngs: dict) -> str:

@@ -28,7 +28,11 @@ _TEMP = re.compile(r"\.tmp\d+")
 
 @dataclass
 class BatchOutcome:
-    """What a batch did: counts, the wall time and the files written."""
+    """What a batch did: counts, the wall time and the files written.
+
+    ``analysis_seconds`` and ``analysis_cpu_seconds`` add up the wall and CPU time
+    of the analyses inside the workers (this run's, not the skipped ones).
+    """
 
     out_dir: str
     total: int = 0
@@ -38,6 +42,7 @@ class BatchOutcome:
     flagged: int = 0
     seconds: float = 0.0
     analysis_seconds: float = 0.0
+    analysis_cpu_seconds: float = 0.0
     paths: dict = field(default_factory=dict)
     errors: dict = field(default_factory=dict)
 
@@ -229,6 +234,8 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     def fail(job, error: str) -> None:
         if os.path.exists(job["result_path"]):  # it no longer describes this input
             os.remove(job["result_path"])
+        # Paths relative to the manifest, as in the file column, so the table can move.
+        error = error.replace(job["path"], job["manifest"]["file"])
         table.append(failed_row(job["cells"], error, job["input_sha256"],
                                 job["settings_sha256"]))
         outcome.failed += 1
@@ -255,6 +262,7 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
         def on_item(item) -> None:
             job = by_key[item["key"]]
             outcome.analysis_seconds += item.get("seconds", 0.0)
+            outcome.analysis_cpu_seconds += item.get("cpu_seconds", 0.0)
             if item["status"] == "ok":
                 write_text(job["result_path"], item["json"] + "\n")
                 take(job, Result.from_json(item["json"]))

@@ -97,13 +97,13 @@ def error_text(exc: BaseException) -> str:
 def analyse_job(job: dict) -> dict:
     """Analyse one junction described by ``job`` (see :func:`jjpattern.batch.runner.plan`).
 
-    Returns ``{"key", "status", "json" or "error", "seconds"}``; never raises for
-    a problem with the junction's data.
+    Returns ``{"key", "status", "json" or "error", "seconds", "cpu_seconds"}`` (wall
+    and CPU time of the analysis); never raises for a problem with the junction's data.
     """
     from ..pipeline import analyze_input
     from ..settings import Settings
 
-    start = time.perf_counter()
+    start, cpu = time.perf_counter(), time.process_time()
     try:
         settings = Settings.from_dict(job["settings"])
         done = analyze_input(job["path"], settings, command=job.get("command"))
@@ -121,9 +121,9 @@ def analyse_job(job: dict) -> dict:
         text = result.to_json()
     except Exception as exc:  # noqa: BLE001 - one junction's failure becomes its row
         return {"key": job["key"], "status": "failed", "error": error_text(exc),
-                "seconds": time.perf_counter() - start}
+                "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
     return {"key": job["key"], "status": "ok", "json": text,
-            "seconds": time.perf_counter() - start}
+            "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
 
 
 def analyse_chunk(jobs: list) -> list:
