@@ -99,11 +99,19 @@ def test_planted_outliers_are_caught_with_reasons_and_do_not_pull_the_trend():
     assert s["magnetic_thickness_m"] == pytest.approx(DM, rel=0.02)
     assert s["critical_current_density_A_per_m2"] == pytest.approx(JC, rel=0.03)
     assert s["dimension_offset_m"] == pytest.approx(DELTA, abs=0.05e-6)
+    # A length typed in nm instead of um: smaller than the offset, no trend to compare with.
+    table.loc[table["junction"] == "J070", "length_m"] = 0.2e-6
+    s = chip_summary(table)
+    assert s["outlier_junctions"] == sorted([*planted, "J070"])
+    size = [e for e in s["outliers"] if e["junction"] == "J070"]
+    assert {e["quantity"] for e in size} == {"ic0", "period"}
+    assert all("not larger than the fitted linewidth offset" in e["reason"]
+               and e["ratio_to_trend"] is None for e in size)
     trends = junction_trends(table, s).set_index("junction")
     assert trends.loc["J020", "outlier_ic0"] and not trends.loc["J021", "outlier_ic0"]
     assert trends.loc["J041", "period_deviation_robust_sigma"] > 5
-    assert trends.loc["J005", "expected_ic0_A"] == pytest.approx(
-        by_id["J005"]["expected_ic0_A"])
+    entry = next(e for e in s["outliers"] if e["junction"] == "J005")
+    assert trends.loc["J005", "expected_ic0_A"] == pytest.approx(entry["expected_ic0_A"])
 
 
 def test_false_alarm_rate_on_clean_chips_is_below_one_percent():

@@ -16,6 +16,7 @@ from collections import Counter
 import numpy as np
 
 from ..physics.constants import PHI0_WB
+from .chiptext import OUTCOME_WORDS, criterion_text, methods_text
 
 #: Normal-consistency constant of the median absolute deviation (Rousseeuw & Croux 1993).
 MAD_TO_SIGMA = 1.4826
@@ -29,15 +30,6 @@ MIN_JUNCTIONS, MIN_FOR_OUTLIERS = 3, 10
 MIN_SIZE_SPREAD = 0.05
 _NUMERIC = ("ic0_A", "ic0_stderr_A", "period_T", "period_stderr_T", "length_m", "width_m",
             "area_m2", "x", "y", "field_offset_T")
-
-def criterion_text(threshold: float = OUTLIER_SIGMA) -> str:
-    """The outlier criterion in words, as the summary states it."""
-    return (f"|ln(observed / chip trend)| more than {threshold:g} robust standard deviations "
-            f"from the median; the robust standard deviation is the largest of {MAD_TO_SIGMA} "
-            f"x MAD, the standard deviation of the residuals within {CLIP_SIGMA:g} of that "
-            "(corrected for the fitted parameters) and the median relative standard error of "
-            f"the junctions; tested with {MIN_FOR_OUTLIERS} or more junctions")
-
 
 def _columns(table) -> dict:
     """Plain numpy columns (pandas indexing would cost more than the statistics)."""
@@ -99,13 +91,15 @@ def _robust_sigma(residual, relative_errors=(), params: int = 0) -> float:
 
 def _areas(c, delta_m):
     """Area to compare Ic0 with: ``(L - delta)(W - delta)`` where L and W are given and an
-    offset was fitted, else ``area_m2``, else ``L W``."""
+    offset was fitted, else ``area_m2``, else ``L W``; NaN where not positive (a drawn
+    size no larger than the offset)."""
     length, width = c["length_m"], c["width_m"]
-    drawn = np.where(np.isfinite(c["area_m2"]), c["area_m2"], length * width)
-    if delta_m is None:
-        return drawn
-    sized = np.isfinite(length) & np.isfinite(width)
-    return np.where(sized, (length - delta_m) * (width - delta_m), drawn)
+    area = np.where(np.isfinite(c["area_m2"]), c["area_m2"], length * width)
+    if delta_m is not None:
+        sized = np.isfinite(length) & np.isfinite(width)
+        area = np.where(sized, np.where(np.minimum(length, width) > delta_m,
+                                        (length - delta_m) * (width - delta_m), np.nan), area)
+    return np.where(area > 0, area, np.nan)
 
 
 def dimension_offset(c, use, robust: bool) -> dict:
@@ -172,31 +166,35 @@ def _wls_origin(x, y, sy):
     return slope, math.sqrt(1 / sxx), chi2
 
 
-def _wls_line(x, y, sy):
-    """Weighted straight line: intercept, slope and their covariance (scaled by chi2 > 1)."""
+def _wls_line(x, y, sy, floor):
+    """Weighted straight line: intercept, slope and their covariance, scaled by the
+    reduced chi-square where it exceeds ``floor`` (1 with stated errors, 0 without)."""
     a = np.column_stack([np.ones_like(x), x]) / sy[:, None]
     coef, *_ = np.linalg.lstsq(a, y / sy, rcond=None)
     chi2 = float(np.sum((a @ coef - y / sy) ** 2)) / (x.size - 2)
-    return coef, np.linalg.inv(a.T @ a) * max(1.0, chi2)
+    return coef, np.linalg.inv(a.T @ a) * max(floor, chi2)
 
 
 def _period_fit(c, delta, delta_se, threshold):
     """Magnetic thickness from 1/period = (d_m / Phi0) (L - delta), outliers left out."""
-    use = c["ok"] & (c["period_T"] > 0) & (c["length_m"] > 0)
+    d = delta or 0.0
+    use = c["ok"] & (c["period_T"] > 0) & (c["length_m"] - d > 0)
+    short = c["ok"] & (c["period_T"] > 0) & (c["length_m"] > 0) & ~use
     out = {"magnetic_thickness_m": None, "magnetic_thickness_stderr_m": None,
            "magnetic_thickness_reduced_chisq": None, "magnetic_thickness_junctions": 0,
            "period_robust_sigma_ln": None, "length_offset_from_period_m": None,
            "length_offset_from_period_stderr_m": None}
-    outliers = np.zeros(use.size, bool)
+    outliers = short.copy()  # no trend value: an outlier by itself
     out["_tested"] = int(use.sum())
     if use.sum() < MIN_JUNCTIONS:
         return out, outliers, "fewer than 3 analysed junctions with a period and a length"
     period, drawn = c["period_T"][use], c["length_m"][use]
     rel = c["period_stderr_T"][use] / period
     rel = np.where(np.isfinite(rel) & (rel > 0), rel, np.nan)
-    # A junction without a stated error gets the typical one (all equal if none has one).
-    rel_w = np.where(np.isfinite(rel), rel, np.nanmedian(rel) if np.isfinite(rel).any() else 1)
-    d = delta or 0.0
+    # A junction without a stated error gets the typical one; with none stated, all get
+    # one weight and the scatter alone sets the error (no chi-square to report).
+    stated = bool(np.isfinite(rel).any())
+    rel_w = np.where(np.isfinite(rel), rel, np.nanmedian(rel) if stated else 1.0)
 
     def slope(inl, shift=0.0):
         y = 1 / period[inl]
@@ -211,7 +209,8 @@ def _period_fit(c, delta, delta_se, threshold):
             inliers = ~_flag_outliers(resid, sigma, threshold)
         trend, se, chi2 = slope(inliers)
     outliers[np.flatnonzero(use)[~inliers]] = True
-    se *= math.sqrt(max(1.0, chi2 or 1.0))
+    se *= math.sqrt(max(1.0 if stated else 0.0, chi2 or 1.0))
+    chi2 = chi2 if stated else None
     if delta is not None and delta_se:
         se = math.hypot(se, 0.5 * abs(slope(inliers, delta_se)[0] - slope(inliers, -delta_se)[0]))
     out.update(magnetic_thickness_m=trend * PHI0_WB, magnetic_thickness_stderr_m=se * PHI0_WB,
@@ -220,33 +219,27 @@ def _period_fit(c, delta, delta_se, threshold):
     x = drawn[inliers]
     if inliers.sum() >= MIN_JUNCTIONS and np.std(x) >= MIN_SIZE_SPREAD * np.mean(x):
         y = 1 / period[inliers]
-        (a, b), cov = _wls_line(x, y, rel_w[inliers] * y)
+        (a, b), cov = _wls_line(x, y, rel_w[inliers] * y, 1.0 if stated else 0.0)
         grad = np.array([-1 / b, a / b**2])  # of the offset -a / b
         out["length_offset_from_period_m"] = float(-a / b)
         out["length_offset_from_period_stderr_m"] = float(math.sqrt(grad @ cov @ grad))
     return out, outliers, None
 
 
-_WORDS = {
-    ("ic0", True): "above the chip trend Jc x area: a short or pinhole, a junction larger than "
-                   "drawn, or a wrong size in the manifest",
-    ("ic0", False): "below the chip trend Jc x area: a damaged or partly open barrier, a "
-                    "junction smaller than drawn, or a wrong size in the manifest",
-    ("period", True): "longer than the chip trend Phi0 / (d_m L): a smaller magnetic area "
-                      "(thinner electrodes or a shorter junction) or a wrong length",
-    ("period", False): "shorter than the chip trend Phi0 / (d_m L): flux focused by nearby "
-                       "films, trapped flux, or a wrong length in the manifest",
-}
-
-
 def _outlier_entries(c, mask, observed, expected, sigma, quantity):
     unit = "A" if quantity == "ic0" else "T"
     entries = []
     for i in np.flatnonzero(mask):
+        if not expected[i] > 0:
+            entries.append({"junction": c["junction"][i], "quantity": quantity,
+                            f"observed_{quantity}_{unit}": float(observed[i]),
+                            f"expected_{quantity}_{unit}": None, "ratio_to_trend": None,
+                            "deviation_robust_sigma": None, "reason": OUTCOME_WORDS["size"]})
+            continue
         ratio = observed[i] / expected[i]
         dev = math.log(ratio) / sigma
         text = (f"{'Ic0' if quantity == 'ic0' else 'the period'} is {ratio:.3g} times the chip "
-                f"trend ({dev:+.1f} robust sigma), {_WORDS[quantity, bool(ratio > 1)]}")
+                f"trend ({dev:+.1f} robust sigma), {OUTCOME_WORDS[quantity, bool(ratio > 1)]}")
         if c["flags"][i]:
             text += f"; the junction's own flags: {', '.join(c['flags'][i])}"
         entries.append({"junction": c["junction"][i], "quantity": quantity,
@@ -274,18 +267,22 @@ def _jc_fit(c, has_ic, threshold):
                 "and an area"
             break
         jc_each = c["ic0_A"] / _areas(c, delta)
-        jc = float(np.median(jc_each[keep])) if delta is None or robust else offset["_jc"]
-        resid = np.log(jc_each[has_ic] / jc)
-        sigma = _robust_sigma(resid, rel[has_ic], 1 if delta is None else 2)
+        # A junction no larger than the offset has no trend value: an outlier by itself.
+        sized = has_ic & np.isfinite(jc_each)
+        outliers = has_ic & ~sized
+        jc = float(np.median(jc_each[keep & sized])) if delta is None or robust \
+            else offset["_jc"]
+        resid = np.log(jc_each[sized] / jc)
+        sigma = _robust_sigma(resid, rel[sized], 1 if delta is None else 2)
         if has_ic.sum() >= MIN_FOR_OUTLIERS:
-            outliers[has_ic] = _flag_outliers(resid, sigma, threshold)
-            keep = has_ic & ~outliers
+            outliers[sized] = _flag_outliers(resid, sigma, threshold)
+        keep = has_ic & ~outliers
     else:
         n = int((has_ic & ~outliers).sum())
         # The median's large-sample error, or the fit's (which knows how Jc and delta covary).
         se = jc * (math.sqrt(math.pi / 2) * sigma / math.sqrt(n) if delta is None
                    else offset["_jc_rel_se"])
-        spread = MAD_TO_SIGMA * np.median(np.abs(jc_each[has_ic] - jc)) / jc * 100
+        spread = MAD_TO_SIGMA * np.median(np.abs(jc_each[sized] - jc)) / jc * 100
         out.update(critical_current_density_A_per_m2=jc,
                    critical_current_density_stderr_A_per_m2=se,
                    critical_current_density_spread_percent=float(spread),
@@ -336,8 +333,9 @@ def chip_summary(table, *, outlier_sigma: float = OUTLIER_SIGMA) -> dict:
     elif out["length_offset_from_period_m"] is None:
         reasons["length_offset_from_period"] = "the lengths do not vary enough to test " \
             "whether the period scales with 1/L"
-    untested = [f"{name} not tested (fewer than {MIN_FOR_OUTLIERS} junctions with one)"
-                for name, n in (("Ic0", has_ic.sum()), ("period", period["_tested"]))
+    untested = [f"{name} not tested: fewer than {MIN_FOR_OUTLIERS} junctions have {what}"
+                for name, what, n in (("Ic0", "Ic0 and an area", has_ic.sum()),
+                                      ("period", "a period and a length", period["_tested"]))
                 if n < MIN_FOR_OUTLIERS]
     del out["_tested"]
     if untested:
@@ -352,7 +350,7 @@ def chip_summary(table, *, outlier_sigma: float = OUTLIER_SIGMA) -> dict:
         field_offset_median_T=float(np.median(offsets)) if offsets.size else None,
         field_offset_robust_sigma_T=_robust_sigma(offsets)
         if offsets.size >= MIN_JUNCTIONS else None,
-        outlier_criterion=criterion_text(outlier_sigma),
+        outlier_criterion=criterion_text(outlier_sigma, CLIP_SIGMA, MIN_FOR_OUTLIERS),
         outlier_threshold_robust_sigma=outlier_sigma,
         outliers=sorted(entries, key=lambda e: (e["junction"], e["quantity"])),
         outlier_junctions=sorted({e["junction"] for e in entries}),
@@ -371,8 +369,9 @@ def _trends(c, summary) -> dict:
     with np.errstate(divide="ignore", invalid="ignore"):
         return {"area_used_m2": area, "jc_A_per_m2": c["ic0_A"] / area,
                 "expected_ic0_A": jc * area if jc else nan,
-                "expected_period_T": PHI0_WB / (dm * (c["length_m"] - (delta or 0.0)))
-                if dm else nan}
+                "expected_period_T": PHI0_WB / (dm * np.where(c["length_m"] > (delta or 0.0),
+                                                              c["length_m"] - (delta or 0.0),
+                                                              np.nan)) if dm else nan}
 
 
 def junction_trends(table, summary: dict):
@@ -406,44 +405,3 @@ def chip_summaries(table, **options) -> dict:
         return {"": chip_summary(frame, **options)}
     chips = frame["chip"].fillna("").astype(str)
     return {chip: chip_summary(frame[chips == chip], **options) for chip in sorted(set(chips))}
-
-
-def methods_text(summary: dict) -> str:
-    """A methods paragraph for one chip, written from what :func:`chip_summary` did."""
-    offset = summary.get("dimension_offset_m") is not None
-    length = "L - delta" if offset else "L"
-    why = summary["reasons"]
-    parts = [f"Chip {summary['chip'] or '(unnamed)'}: {summary['junctions_analysed']} of "
-             f"{summary['junctions_total']} junctions were analysed."]
-    if offset:
-        parts.append(
-            "A linewidth offset delta and Jc were fitted as Ic0 = Jc (L - delta)(W - delta) "
-            "to ln Ic0 (the scatter between junctions is multiplicative), ln Jc profiled out "
-            "and delta found on a grid over all sizes the junctions allow: first by least "
-            "absolute deviations to find the outliers, then by least squares without them, "
-            "with errors from the covariance scaled by the residual variance. Jc is that "
-            "fit's value.")
-    else:
-        parts.append("No linewidth offset was fitted (" + why.get(
-            "dimension_offset", "no junction sizes were given") + "); Jc is the median of "
-            "Ic0 / area over the junctions that are not outliers, its standard error "
-            "sqrt(pi/2) sigma / sqrt(n), the median's large-sample error.")
-    parts.append("The spread of Jc is the robust coefficient of variation 1.4826 MAD / median "
-                 "of Ic0 / area (Rousseeuw and Croux, J. Am. Stat. Assoc. 88, 1273 (1993)).")
-    if summary.get("magnetic_thickness_m") is None:
-        parts.append(f"No magnetic thickness: {why.get('magnetic_thickness', '')}.")
-    else:
-        parts.append(
-            f"The magnetic thickness d_m is the slope of 1/period against {length} (the length "
-            f"across the field) through the origin, 1/period = (d_m / Phi0)({length}), by "
-            "weighted least squares with weights from the fitted period errors (Bevington and "
-            "Robinson, Data Reduction and Error Analysis for the Physical Sciences, 3rd ed., "
-            "2003), outliers left out; its standard error is scaled by the square root of the "
-            "reduced chi-square when that exceeds one (Birge, Phys. Rev. 40, 207 (1932))"
-            + (" and includes the error of delta" if offset else "") + ". A straight line "
-            "with a free intercept against the drawn length tests the 1/L scaling; its "
-            "intercept gives the length offset at which the period would diverge.")
-    parts.append(f"Outliers: {summary['outlier_criterion']} (a MAD-based modified z-score, "
-                 "Iglewicz and Hoaglin, How to Detect and Handle Outliers, 1993). Phi0 = h/2e "
-                 "from scipy.constants (CODATA).")
-    return " ".join(parts)

@@ -11,7 +11,6 @@ An empty cell keeps the default. Other columns are kept as text metadata.
 
 from __future__ import annotations
 
-import csv
 import difflib
 import io
 import math
@@ -21,9 +20,12 @@ from dataclasses import dataclass, field, fields
 
 from ..errors import InputError
 from ..settings import Settings
+from .starter import write_starter_manifest
+
+__all__ = ["ManifestRow", "read_manifest", "write_starter_manifest"]
 
 _LENGTH = {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "um": 1e-6, "micron": 1e-6, "nm": 1e-9,
-           "a": 1e-10, "\u00e5": 1e-10}
+           "\u00e5": 1e-10}
 _AREA = {"m2": 1.0, "cm2": 1e-4, "mm2": 1e-6, "um2": 1e-12, "nm2": 1e-18}
 _JC = {"a/m2": 1.0, "a/cm2": 1e4, "ka/cm2": 1e7, "ma/cm2": 10.0, "ua/um2": 1e6,
        "a/um2": 1e12}
@@ -192,9 +194,9 @@ def _classify(header: str, where: str, exact: dict, bases: dict) -> _Column:
     close = difflib.get_close_matches(key, [k for k in exact if "." not in k] + list(bases),
                                       n=1, cutoff=0.85)
     if close or "." in key:
-        hint = f"did you mean {close[0]!r}? " if close else ""
-        raise InputError(f"{where}: column {header!r} is not a setting of jjpattern; {hint}"
-                         "rename it (settings are listed in jjpattern.settings)")
+        hint = f" to {close[0]!r} if that was meant" if close else ""
+        raise InputError(f"{where}: column {header!r} is not a setting of jjpattern; rename "
+                         f"it{hint} (the settings are listed in jjpattern.settings)")
     return _Column(header, "meta")
 
 
@@ -226,8 +228,9 @@ def _columns(headers: list, where: str) -> list[_Column]:
     if len(xy) == 1:
         raise InputError(f"{where}: only one of the columns 'x' and 'y' is given; add the other")
     if xy and (xy[0].unit is None) != (xy[1].unit is None):
-        raise InputError(f"{where}: columns {xy[0].header!r} and {xy[1].header!r}: give both "
-                         "positions with a unit, e.g. 'x (mm)', or both without")
+        raise InputError(f"{where}: only one of the columns {xy[0].header!r} and "
+                         f"{xy[1].header!r} has a unit; give both a unit, e.g. 'x (mm)', or "
+                         "neither")
     return cols
 
 
@@ -381,83 +384,14 @@ def read_manifest(path, *, check_files: bool = True) -> list[ManifestRow]:
                              "relative to the manifest's folder, correct the path")
         key = (row.get("chip"), row["junction"], row.get("cooldown"))
         if key in first_row:
-            raise InputError(f"{where}: chip {key[0]!r}, junction {key[1]!r}, cooldown "
-                             f"{key[2]!r} is already listed in row {first_row[key]}; remove "
-                             "one of the two rows or tell them apart by chip or cooldown")
+            named = ", ".join(f"{k} {v!r}" for k, v in zip(("chip", "junction", "cooldown"), key,
+                                                          strict=True) if v is not None)
+            raise InputError(f"{where}, columns chip, junction and cooldown: {named} is already "
+                             f"listed in row {first_row[key]}; remove one of the two rows or "
+                             "tell them apart by chip or cooldown")
         first_row[key] = number
         out.append(ManifestRow(row_number=number, file_path=file_path, **row))
     if not out:
         raise InputError(f"{path}: the manifest lists no junction; add one row per junction "
                          "below the header")
     return out
-
-
-def _natural(text: str):
-    return [int(p) if p.isdigit() else p.lower() for p in re.split(r"(\d+)", text)]
-
-
-def write_starter_manifest(folder, out_path, can_read) -> list[str]:
-    """Write a manifest listing every readable file or folder under ``folder``.
-
-    A folder that ``can_read`` accepts (a folder of I-V files) is listed as one
-    entry; other folders are searched. Paths are relative to the manifest, in
-    natural order (``j2`` before ``j10``); ``junction`` is guessed from the
-    name, and the size and position columns are left empty to fill in.
-
-    Parameters
-    ----------
-    folder : str or path-like
-        Where the measured files are.
-    out_path : str or path-like
-        The manifest to write; it must not exist yet.
-    can_read : callable
-        ``can_read(path) -> bool``: whether jjpattern can read that file or folder.
-
-    Returns
-    -------
-    list of str
-        The relative paths written, in order.
-    """
-    folder = os.path.abspath(os.fspath(folder))
-    out_path = os.path.abspath(os.fspath(out_path))
-    if not os.path.isdir(folder):
-        raise InputError(f"{folder}: not a folder; give the folder that holds the measurements")
-    if os.path.exists(out_path):
-        raise InputError(f"{out_path}: already exists; choose another name or remove it first")
-    if not os.path.isdir(os.path.dirname(out_path)):
-        raise InputError(f"{out_path}: the folder {os.path.dirname(out_path)} does not exist; "
-                         "create it first")
-    found: list[str] = []
-    visited: set[str] = set()
-
-    def walk(where: str) -> None:
-        real = os.path.realpath(where)
-        if real in visited:  # a symbolic link back up the tree
-            return
-        visited.add(real)
-        for name in sorted(os.listdir(where), key=_natural):
-            entry = os.path.join(where, name)
-            if name.startswith(".") or entry == out_path:
-                continue
-            if can_read(entry):
-                found.append(entry)
-            elif os.path.isdir(entry):
-                walk(entry)
-
-    walk(folder)
-    if not found:
-        raise InputError(f"{folder}: no file or folder that jjpattern can read; check the folder")
-    base = os.path.dirname(out_path)
-    relative = [os.path.relpath(p, base).replace(os.sep, "/") for p in found]
-    stems = [os.path.splitext(os.path.basename(p.rstrip("/")))[0] for p in relative]
-    if len(set(stems)) < len(stems):
-        stems = [os.path.splitext(p)[0].replace("/", "-") for p in relative]
-    tmp = f"{out_path}.tmp{os.getpid()}"
-    with open(tmp, "w", newline="", encoding="utf-8") as handle:
-        writer = csv.writer(handle)
-        writer.writerow(["file", "junction", "chip", "cooldown", "length (um)", "width (um)",
-                         "area (um2)", "x (mm)", "y (mm)"])
-        for rel, stem in zip(relative, stems, strict=True):
-            writer.writerow([rel, stem, "", "", "", "", "", "", ""])
-    os.replace(tmp, out_path)
-    return relative
