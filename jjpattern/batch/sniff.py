@@ -84,7 +84,7 @@ def starter_manifest(folder, out_path=None) -> tuple[str, list[str]]:
 
     Returns the manifest's path and the entries written.
     """
-    from .manifest import write_starter_manifest
+    from .starter import write_starter_manifest
 
     out_path = os.fspath(out_path or os.path.join(os.fspath(folder), "manifest.csv"))
     if os.path.exists(out_path):
