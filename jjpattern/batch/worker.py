@@ -71,6 +71,11 @@ def init_worker() -> None:
             os._exit(3)
 
         threading.Thread(target=watch, name="jjpattern-parent-watch", daemon=True).start()
+    # Import the analysis once, up front, so that no junction's time includes it.
+    from ..diagnose import run as _diagnose  # noqa: F401
+    from ..extract import engine as _extract  # noqa: F401
+    from ..fit import engine as _fit  # noqa: F401
+    from ..io import maps as _maps  # noqa: F401
 
 
 def _one_thread():
