@@ -249,7 +249,7 @@ def test_starter_manifest_lists_what_can_be_read(tmp_path, capsys):
     (data / "ivs_j3").mkdir(parents=True)
     rng = np.random.default_rng(1)
     (data / "j10.csv").write_text(_sweep(rng, 6, False))
-    (data / "j2.tsv").write_text(_sweep(rng, 8, True).replace(",", "\t"))
+    (data / "j2.tsv").write_text("field_mT\tIsw_uA\n0.1\t2.0\n0.2\t1.9\n")
     with h5py.File(data / "j4.h5", "w") as f:
         f.create_dataset("field", data=np.linspace(-1, 1, 50)).attrs["units"] = "mT"
         f.create_dataset("ic", data=np.ones(50)).attrs["units"] = "uA"

@@ -32,6 +32,7 @@ def _sniff(path: str) -> str | None:
     from ..io.maps import looks_like_map
     from ..io.sweep import ic_branch_hint, is_field_name
     from ..io.text import split_whitespace_header
+    from ..io.units import split_header
 
     try:
         with open(path, "rb") as handle:
@@ -62,11 +63,11 @@ def _sniff(path: str) -> str | None:
         return None
     if len(names) < 2 or all(_is_number(n) for n in names):
         return None
-    has_field = any(is_field_name(n) or is_field_name(n.split("(")[0].split("[")[0])
-                    for n in names)
+    bare = [split_header(n)[0] for n in names]  # 'Isw_uA' -> 'Isw', 'B (mT)' -> 'B'
+    has_field = any(is_field_name(n) for n in bare)
     if looks_like_map(names):
         return "map" if has_field else "iv"
-    if any(ic_branch_hint(n.split("(")[0].split("[")[0].strip()) is not None for n in names):
+    if has_field and any(ic_branch_hint(n) is not None for n in bare):
         return "sweep"
     return None
 
