@@ -95,16 +95,22 @@ class Progress:
         tty = getattr(self.stream, "isatty", lambda: False)()
         self.enabled = tty if enabled is None else enabled and tty
         self.start = time.perf_counter()
+        self.first = None  # (time, count) when the first junction came back
 
     def update(self, done: int = 1, failed: int = 0) -> None:
         self.done += done
         self.failed += failed
         if not self.enabled or not self.total:
             return
+        now = time.perf_counter()
+        # The rate since the first junction came back: the workers' start-up is paid once.
+        self.first = self.first or (now, self.done)
+        rate = (now - self.first[0]) / (self.done - self.first[1]) if self.done > self.first[1] \
+            else now - self.start
         width = 28
         filled = int(width * self.done / self.total)
-        elapsed = time.perf_counter() - self.start
-        left = elapsed / self.done * (self.total - self.done) if self.done else 0.0
+        elapsed = now - self.start
+        left = rate * (self.total - self.done)
         self.stream.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {self.done}/{self.total}"
                           f" junctions, {self.failed} failed, {elapsed:.0f} s elapsed, "
                           f"~{left:.0f} s left ")
