@@ -7,7 +7,9 @@ with a manifest, then times, one after the other:
 1. reading the same files with h5py / pandas alone (the floor of any tool);
 2. the sum of the per-junction analysis times, ``jjpattern.analyze`` called in
    this process one file after another;
-3. the batch with 1 worker and with 2 workers (wall time, fresh output folders).
+3. two plain processes analysing one half each (what the two cores give right now,
+   other users of the machine included);
+4. the batch with 1 worker and with 2 workers (wall time, fresh output folders).
 
 Targets: 1-worker wall within 1.15 x the in-process sum; parallel efficiency
 (1-worker wall / (2 x 2-worker wall)) at least 90 %.
@@ -135,6 +137,28 @@ def in_process(rows) -> tuple[float, float]:
     return total, _cpu() - cpu
 
 
+def _half(manifest, index):
+    """Analyse every other junction (``index`` 0 or 1) in this process: one half of a
+    two-process run without the batch machinery."""
+    from jjpattern.batch.manifest import read_manifest
+
+    in_process(read_manifest(manifest)[index::2])
+
+
+def two_halves(manifest) -> float:
+    """Wall time of two plain processes analysing one half each: what two cores give now."""
+    import multiprocessing
+
+    ctx = multiprocessing.get_context("spawn")
+    procs = [ctx.Process(target=_half, args=(manifest, k)) for k in (0, 1)]
+    start = time.perf_counter()
+    for p in procs:
+        p.start()
+    for p in procs:
+        p.join()
+    return time.perf_counter() - start
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--maps", type=int, default=200)
@@ -164,6 +188,7 @@ def main() -> None:
         in_process(rows[:2])
         t_read, c_read = read_only(rows)
         t_sum, c_sum = in_process(rows)
+        t_halves = two_halves(manifest)
         runs = {}
         for workers in (1, 2):
             out = os.path.join(folder, f"out{workers}")
@@ -184,8 +209,12 @@ def main() -> None:
         w1, w2 = runs[1][0].seconds, runs[2][0].seconds
         print(f"1-worker wall / in-process sum   {w1 / t_sum:8.2f}     (target <= 1.15); "
               f"CPU ratio {runs[1][1] / c_sum:.2f}")
+        print(f"two plain processes, half each   {t_halves:8.1f} s              (no batch "
+              "machinery; their start-up and imports included)")
         print(f"parallel efficiency, 2 workers   {100 * w1 / (2 * w2):8.0f} %   "
               "(target >= 90 %)")
+        print(f"  the same for two plain processes {100 * t_sum / (2 * t_halves):6.0f} %   "
+              "(what the machine gives at the moment)")
         print(f"load average during the run: {', '.join(f'{v:.1f}' for v in os.getloadavg())}"
               " (other processes on the machine share its cores)")
     finally:

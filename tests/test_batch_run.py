@@ -227,6 +227,12 @@ def test_cli_batch_strict_and_manifest_errors(chip, tmp_path, capsys):
     out = tmp_path / "x"
     assert main(["batch", chip["manifest"]]) == 2
     assert "--out DIR" in capsys.readouterr().err
+    # One batch per output folder at a time; a lock left by a dead process is taken over.
+    busy = tmp_path / "busy"
+    busy.mkdir()
+    (busy / ".jjpattern-batch.lock").write_text(str(os.getpid()))
+    assert main(["batch", chip["manifest"], "--out", str(busy)]) == 2
+    assert "another batch" in capsys.readouterr().err
     bad = tmp_path / "bad.csv"
     bad.write_text("file,junction,length (um)\nj1.csv,J1,ten\n")
     (tmp_path / "j1.csv").write_text(_read(chip["folder"] / "j1.csv"))

@@ -86,6 +86,38 @@ def _clean_temp(folder: str) -> None:
                 pass
 
 
+LOCK = ".jjpattern-batch.lock"
+
+
+def _lock(out_dir: str) -> str:
+    """Claim ``out_dir`` for this batch: two batches writing one folder would trip over
+    each other's temporary files. A lock left by a killed batch (its process gone) is taken
+    over."""
+    path = os.path.join(out_dir, LOCK)
+    for _ in range(2):
+        try:
+            fd = os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY)
+        except FileExistsError:
+            try:
+                with open(path, encoding="ascii") as handle:
+                    pid = int(handle.read().strip() or 0)
+                os.kill(pid, 0)
+            except (OSError, ValueError):  # no such process: a stale lock
+                try:
+                    os.remove(path)
+                except FileNotFoundError:
+                    pass
+                continue
+            raise InputError(f"{out_dir}: another batch (process {pid}) is writing there; "
+                             "wait for it to finish or choose another --out (or remove "
+                             f"{path} if no batch is running)") from None
+        with os.fdopen(fd, "w", encoding="ascii") as handle:
+            handle.write(str(os.getpid()))
+        return path
+    raise InputError(f"{out_dir}: cannot claim the folder ({path} keeps coming back); "
+                     "remove that file")
+
+
 class Progress:
     """A one-line progress bar on a terminal; silent elsewhere."""
 
@@ -213,12 +245,7 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     command : sequence of str, optional
         The command-line arguments, recorded in every result and the chip report.
     """
-    from ..report.files import write_text
-    from ..result import Result
-    from ..settings import Settings
-    from .chipreport import write_chip_outputs
     from .manifest import read_manifest
-    from .table import failed_row, result_rows, summary_csv, write_parquet
 
     start = time.perf_counter()
     manifest = os.path.abspath(os.fspath(manifest))
@@ -226,6 +253,22 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     rows = read_manifest(manifest)
     workers = max(1, int(workers or os.cpu_count() or 1))
     os.makedirs(os.path.join(out_dir, RESULTS), exist_ok=True)
+    lock = _lock(out_dir)
+    try:
+        return _run_locked(rows, manifest, out_dir, start, settings, workers, scheduler,
+                           reports, svg, chunk_size, progress, command)
+    finally:
+        os.remove(lock)
+
+
+def _run_locked(rows, manifest, out_dir, start, settings, workers, scheduler, reports, svg,
+                chunk_size, progress, command) -> BatchOutcome:
+    from ..report.files import write_text
+    from ..result import Result
+    from ..settings import Settings
+    from .chipreport import write_chip_outputs
+    from .table import failed_row, result_rows, summary_csv, write_parquet
+
     _clean_temp(os.path.join(out_dir, RESULTS))
     outcome = BatchOutcome(out_dir, total=len(rows))
     jobs = plan(rows, settings or Settings(), out_dir, os.path.dirname(manifest), reports,
