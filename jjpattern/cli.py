@@ -1,6 +1,7 @@
 """Command line: arguments mapped onto :class:`~jjpattern.settings.Settings` in one place.
 
-Exit status: 0 analysed (flags or not), 2 bad input or usage, 1 internal error.
+Exit status: 0 analysed (flags or not), 2 bad input or usage, 1 internal error;
+``batch --strict``: 3 when a junction failed.
 """
 
 from __future__ import annotations
@@ -12,7 +13,7 @@ import sys
 from . import __version__
 from .cli_catalog import add_catalog_commands, add_catalog_options, record_after_run
 
-EXIT_OK, EXIT_INTERNAL, EXIT_INPUT = 0, 1, 2
+EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAILED_JUNCTIONS = 0, 1, 2, 3
 
 
 
@@ -142,6 +143,35 @@ def build_parser() -> argparse.ArgumentParser:
     extract.add_argument("--plot", metavar="FILE", help="write the map figure")
 
     add_catalog_commands(sub)
+    batch = sub.add_parser(
+        "batch", parents=[analysis], help="analyse every junction of a manifest (a chip)",
+        description="Analyse every junction listed in a manifest CSV, in parallel and "
+                    "resumably, and write a summary table, chip statistics, chip figures and "
+                    "chip_report.html. Given a folder instead, write a starter manifest "
+                    "listing the files jjpattern can read there, and stop. The analysis "
+                    "options below apply to every junction; the manifest's columns override "
+                    "them per junction.",
+        epilog="Exit status: 0 when the batch ran (failed junctions are rows of the summary), "
+               "2 for a bad manifest or option, 3 with --strict when a junction failed.")
+    batch.add_argument("path", help="the manifest CSV, or a folder to list in a starter "
+                                    "manifest")
+    batch.add_argument("--out", metavar="DIR", help="output folder (needed with a manifest); "
+                                                    "a rerun continues from it")
+    batch.add_argument("--workers", type=int, metavar="N",
+                       help="worker processes (default: the number of cores)")
+    batch.add_argument("--scheduler", metavar="ADDRESS",
+                       help="run on a Dask cluster at this scheduler address instead "
+                            "(needs the [cluster] extra)")
+    batch.add_argument("--reports", action="store_true",
+                       help="also write a report folder per junction under DIR/reports")
+    batch.add_argument("--svg", action="store_true", help="chip figures as SVG too")
+    batch.add_argument("--chunk-size", type=int, metavar="N",
+                       help="junctions sent to a worker at once (default: automatic)")
+    batch.add_argument("--strict", action="store_true",
+                       help="exit with status 3 when any junction failed")
+    batch.add_argument("--quiet", action="store_true",
+                       help="no progress bar and only the last line")
+
     demo = sub.add_parser("demo", help="analyse the bundled demo sweeps",
                           description="Run the whole analysis on the bundled demo chip.")
     demo.add_argument("--out", metavar="DIR", default="jjpattern-demo",
@@ -317,6 +347,41 @@ def run_extract(args) -> int:
     return EXIT_OK
 
 
+def run_batch(args) -> int:
+    from .errors import InputError
+
+    if os.path.isdir(args.path):
+        from .batch.sniff import starter_manifest
+
+        path, entries = starter_manifest(args.path)
+        print(f"wrote a starter manifest listing {len(entries)} inputs: {path}")
+        print("fill in the sizes (length and width across the field, in um) and, if you have "
+              f"them, chip, cooldown and positions; then run: jjpattern batch {path} --out DIR")
+        return EXIT_OK
+    if not args.out:
+        raise InputError(f"{args.path}: give the output folder with --out DIR")
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"--workers {args.workers}: give at least 1")
+    if args.chunk_size is not None and args.chunk_size < 1:
+        raise InputError(f"--chunk-size {args.chunk_size}: give at least 1")
+    from .batch.runner import run_batch as batch
+
+    outcome = batch(args.path, args.out, settings=settings_from_args(args),
+                    workers=args.workers, scheduler=args.scheduler, reports=args.reports,
+                    svg=args.svg, chunk_size=args.chunk_size,
+                    progress=False if args.quiet else None, command=args.argv)
+    if not args.quiet:
+        for name in ("summary.csv", "chip_report.html"):
+            print(f"{name}: {outcome.paths[name]}")
+        for key, error in sorted(outcome.errors.items()):
+            print(f"failed {key}: {error}")
+    from .cli_catalog import record_batch_after_run
+
+    record_batch_after_run(args, os.path.join(outcome.out_dir, "results"))
+    print(outcome.last_line())
+    return EXIT_FAILED_JUNCTIONS if args.strict and outcome.failed else EXIT_OK
+
+
 def run_demo(args) -> int:
     from .demo import run_demo as demo
 
@@ -335,7 +400,7 @@ def main(argv=None) -> int:
     from .errors import InputError
 
     handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
-                "demo": run_demo}
+                "batch": run_batch, "demo": run_demo}
     try:
         return getattr(args, "handler", handlers.get(args.command))(args)
     except InputError as exc:

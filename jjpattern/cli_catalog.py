@@ -397,3 +397,26 @@ def run_import(args) -> int:
               f"{skipped}")
     print(f"catalog {path}")
     return EXIT_OK
+
+
+def record_batch_after_run(args, results_dir: str, echo=print) -> None:
+    """Record every result document of a batch folder, from this one process (the workers
+    never write to the catalog); already-recorded documents are left as they are."""
+    from .catalog import catalog_for_recording, open_catalog
+
+    path = catalog_for_recording(getattr(args, "catalog", None),
+                                 disabled=getattr(args, "no_catalog", False))
+    if path is None or not os.path.isdir(results_dir):
+        return
+    created = present = 0
+    labels = parse_labels(getattr(args, "catalog_label", []))
+    with open_catalog(path) as catalog:
+        for name in sorted(os.listdir(results_dir)):
+            if not name.endswith(".json"):
+                continue
+            with open(os.path.join(results_dir, name), encoding="utf-8") as handle:
+                document = json.load(handle)
+            done = catalog.record(document, labels=labels)
+            created += bool(done.created)
+            present += not done.created
+    echo(f"catalog {path}: {created} new records, {present} already there")

@@ -14,6 +14,8 @@ DEMO_RUNS = (
 )
 #: The demo run that also gets a full report.
 REPORT_RUN = "kt14_j07_map.h5"
+#: The chip of the batch demo (24 junctions of KT-14 after cooldown CD-08) and its manifest.
+CHIP_FOLDER = "chip_kt14"
 
 
 def demo_files() -> dict:
@@ -22,8 +24,15 @@ def demo_files() -> dict:
     return {name: str(root / name) for name, _ in DEMO_RUNS}
 
 
-def run_demo(out_dir: str, echo=print) -> list[str]:
-    """Analyse every demo sweep, write JSON and a figure for each, and say where.
+def chip_manifest() -> str:
+    """Path of the demo chip's manifest (the junction files lie beside it)."""
+    return str(resources.files("jjpattern.demo_data") / CHIP_FOLDER / "manifest.csv")
+
+
+def run_demo(out_dir: str, echo=print, workers: int | None = None,
+             chip: bool = True) -> list[str]:
+    """Analyse every demo sweep, write JSON and a figure for each, then (with ``chip``) run
+    the batch of the demo chip on ``workers`` processes.
 
     Returns the paths written.
     """
@@ -59,6 +68,21 @@ def run_demo(out_dir: str, echo=print) -> list[str]:
                                   ["demo", "--out", out_dir], ivmap=done.data)
             written += list(report.values())
         echo("")
+    if not chip:
+        echo(f"demo results are in {os.path.abspath(out_dir)}")
+        echo(f"report for KT14-J07: {os.path.abspath(report['report.html'])}")
+        return written
+    from .batch.runner import run_batch
+
+    echo("batch of chip KT-14 (24 junctions, one file broken on purpose):")
+    batch = run_batch(chip_manifest(), os.path.join(out_dir, "chip_kt14"), workers=workers,
+                      command=["demo", "--out", out_dir], progress=False)
+    written += list(batch.paths.values())
+    for key, error in sorted(batch.errors.items()):
+        echo(f"  failed {key}: {error}")
+    echo(f"  {batch.last_line()}")
+    echo("")
     echo(f"demo results are in {os.path.abspath(out_dir)}")
     echo(f"report for KT14-J07: {os.path.abspath(report['report.html'])}")
+    echo(f"chip report for KT-14: {batch.paths['chip_report.html']}")
     return written

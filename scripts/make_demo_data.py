@@ -1,8 +1,10 @@
 """Regenerate the demo sweeps in data_demo/ and jjpattern/demo_data/ (deterministic).
 
 The scenario is invented: chip KT-14 of the fictional Kestrel Low-Temperature
-Lab, measured after its seventh cooldown. The patterns are computed here with
-numpy and scipy directly, not with jjpattern, so the demo also checks the tool.
+Lab, measured after its seventh cooldown; then, after the eighth, a grid of 24
+junctions of that chip for the batch demo (chip_kt14/ with its manifest.csv).
+The patterns are computed here with numpy and scipy directly, not with
+jjpattern, so the demo also checks the tool.
 
 Run: python scripts/make_demo_data.py
 """
@@ -98,6 +100,90 @@ def j07(rng, path: pathlib.Path) -> None:
                          compression="gzip", compression_opts=6).attrs["units"] = "uV"
 
 
+#: The chip of the batch demo: magnetic thickness, Jc, and how much narrower than drawn
+#: every junction is (the linewidth offset the chip statistics should find).
+CHIP_D_M, CHIP_JC_A_M2, CHIP_DELTA_M = 236e-9, 3.3e5, 0.3e-6
+CHIP_LENGTHS_UM = (4, 6, 8, 10, 14, 20)
+CHIP_ROW_WIDTH_UM = {"A": None, "B": 4, "C": 10, "D": 6}  # None: square
+CHIP_PITCH_MM = 1.5
+#: Junctions with something wrong, and what (the rest are ordinary uniform junctions).
+CHIP_DEFECTS = {
+    "A06": "broken file: the instrument wrote an error message into the data",
+    "B03": "edge current: the outer 10 % on each side carry 3x the current density",
+    "C02": "flux trapped nearby: the pattern is shifted by 1.3 periods",
+    "D05": "premature switching: Ic0 about half the chip trend, 8 % of points read low",
+    "D06": "long junction: 60 um x 4 um, about 1.2 Josephson depths",
+}
+
+
+def edge_pattern(u, edge_fraction=0.1, edge_ratio=3.0, n=2001):
+    """|integral of J(x) exp(2 pi i u x) dx| / integral J for edges carrying ``edge_ratio`` x
+    the bulk density (the Dynes-Fulton integral, by the trapezoidal rule)."""
+    x = np.linspace(-0.5, 0.5, n)
+    j = np.where(np.abs(x) > 0.5 - edge_fraction, edge_ratio, 1.0)
+    phase = np.exp(2j * np.pi * np.outer(u, x))
+    return np.abs(np.trapezoid(j * phase, x, axis=1)) / np.trapezoid(j, x)
+
+
+def chip_junction(rng, name: str, length_um: float, width_um: float):
+    """One junction's sweep as CSV text; both polarities, |Ic + noise| as measured."""
+    from scipy.constants import e, h
+
+    length = length_um * 1e-6 - CHIP_DELTA_M
+    width = width_um * 1e-6 - CHIP_DELTA_M
+    period_mT = h / (2 * e) / (CHIP_D_M * length) * 1e3
+    ic0_uA = CHIP_JC_A_M2 * np.exp(rng.normal(0, 0.03)) * length * width * 1e6
+    offset_mT = 0.012 + rng.normal(0, 0.004)
+    floor = 0.0
+    if name == "C02":
+        offset_mT += 1.3 * period_mT
+    if name == "D05":
+        ic0_uA *= 0.52
+    if name == "D06":
+        floor = 0.03  # a mildly long junction: nodes lifted by a few per cent
+    b_mT = np.linspace(-5.5, 5.5, 301) * period_mT + (offset_mT if name == "C02" else 0.0)
+    if rng.random() < 0.5:
+        b_mT = b_mT[::-1]  # swept down: the file keeps the sweep order
+    branches = []
+    for sign in (1, -1):
+        u = (b_mT - offset_mT - sign * 0.002 * period_mT) / period_mT
+        shape = edge_pattern(u) if name == "B03" else np.abs(np.sinc(u))
+        ic = ic0_uA * np.sqrt(shape**2 + floor**2)
+        ic = np.abs(ic + rng.normal(0, 0.01 * ic0_uA + 0.02, b_mT.size))
+        if name == "D05":
+            low = rng.random(b_mT.size) < 0.08
+            ic[low] *= rng.uniform(0.5, 0.8, low.sum())  # switched early
+        branches.append(sign * ic)
+    rows = [f"{b:.5f},{p:.4f},{n:.4f}\n" for b, p, n in zip(b_mT, *branches, strict=True)]
+    if name == "A06":
+        rows = rows[:57] + ["ERROR lock-in overload; acquisition stopped\n"]
+    meta = header({"cooldown": "CD-08", "junction": f"KT14-{name}",
+                   "drawn_size": f"{length_um} um x {width_um} um"})
+    return meta + "B (mT),Ic+ (uA),Ic- (uA)\n" + "".join(rows)
+
+
+def chip(target: pathlib.Path) -> None:
+    """The batch demo: 24 junctions on a 4 x 6 grid, their files and the manifest."""
+    rng = np.random.default_rng(20261208)
+    folder = target / "chip_kt14"
+    folder.mkdir(exist_ok=True)
+    lines = ["file,junction,chip,cooldown,length (um),width (um),barrier (nm),electrode (nm),"
+             "x (mm),y (mm),loss,note"]
+    for r, row in enumerate(CHIP_ROW_WIDTH_UM):
+        for c, length_um in enumerate(CHIP_LENGTHS_UM):
+            name = f"{row}{c + 1:02d}"
+            width_um = CHIP_ROW_WIDTH_UM[row] or length_um
+            if name == "D06":
+                length_um, width_um = 60, 4
+            text = chip_junction(rng, name, length_um, width_um)
+            (folder / f"kt14_{name.lower()}.csv").write_text(text, encoding="utf-8")
+            loss = "cauchy" if name == "D05" else ""
+            lines.append(f"kt14_{name.lower()}.csv,{name},KT-14,CD-08,{length_um},{width_um},"
+                         f"1.8,300,{c * CHIP_PITCH_MM:.1f},{r * CHIP_PITCH_MM:.1f},{loss},"
+                         f"\"{CHIP_DEFECTS.get(name, '')}\"")
+    (folder / "manifest.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+
+
 def main() -> None:
     for target in TARGETS:
         target.mkdir(parents=True, exist_ok=True)
@@ -106,6 +192,7 @@ def main() -> None:
         (target / "kt14_j11.tsv").write_text(j11(rng), encoding="utf-8")
         j05(rng, target / "kt14_j05.h5")
         j07(rng, target / "kt14_j07_map.h5")
+        chip(target)
         print(f"wrote {target}")
 
 

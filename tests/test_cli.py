@@ -76,8 +76,23 @@ def test_demo_writes_results_and_says_where(tmp_path, capsys):
     out = capsys.readouterr().out
     files = sorted(os.listdir(tmp_path / "d"))
     expected = [f"kt14_j{n}.{s}" for n in ("03", "05", "11", "07_map") for s in ("json", "png")]
-    assert files == sorted(expected + ["kt14_j07_map_extraction.png", "report_kt14_j07"])
+    assert files == sorted(expected + ["kt14_j07_map_extraction.png", "report_kt14_j07",
+                                       "chip_kt14"])
     assert str(tmp_path / "d" / "report_kt14_j07" / "report.html") in out
+    assert out.rstrip().endswith(str(tmp_path / "d" / "chip_kt14" / "chip_report.html"))
+    # The demo chip's batch finds what scripts/make_demo_data.py put in: d_m = 236 nm,
+    # Jc = 3.3e5 A/m^2, a 0.3 um linewidth offset, A06 broken, D05 with half the Ic0.
+    chip = json.loads((tmp_path / "d" / "chip_kt14" / "chips" / "KT-14" /
+                       "chip_summary.json").read_text())
+    for key, stderr, truth in (
+            ("magnetic_thickness_m", "magnetic_thickness_stderr_m", 236e-9),
+            ("critical_current_density_A_per_m2", "critical_current_density_stderr_A_per_m2",
+             3.3e5),
+            ("dimension_offset_m", "dimension_offset_stderr_m", 0.3e-6)):
+        assert abs(chip[key] - truth) < 3 * chip[stderr]
+    assert (chip["junctions_analysed"], chip["junctions_failed"]) == (23, 1)
+    assert "D05" in chip["outlier_junctions"]
+    assert chip["flag_counts"]["long-junction"] == 1 and chip["flag_counts"]["edge-current"] == 1
     assert str(tmp_path / "d") in out
     doc = json.loads((tmp_path / "d" / "kt14_j05.json").read_text())
     assert doc["fits"][0]["model"] == "circular"
