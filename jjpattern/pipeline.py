@@ -152,6 +152,8 @@ def _by_segment(sweep, settings: Settings, floor_A: float):
         geometry = diagnostics.get("geometry")
         if geometry and merged["geometry"] is None:
             merged["geometry"] = {**geometry, "branch": _label(geometry["branch"], segment)}
+    order = {(b.name, b.segment): k for k, b in enumerate(sweep.branches)}
+    labelled.sort(key=lambda pair: order[(pair[0].branch, pair[1])])  # as in the input block
     return labelled, fit_flags, merged
 
 
