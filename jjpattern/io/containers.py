@@ -196,7 +196,9 @@ def from_named_arrays(arrays: dict, *, source: str, sha256, settings, kind: str,
         field = vector(by_key[roles["field"]])
         bias = by_key[roles["bias"]]
         bias = vector(bias) if _vector_length(bias.shape) else bias
-        return from_arrays(field, bias, by_key[roles["signal"]], local_units, roles,
+        named = {key: local_units.get(key) or split_header(key)[1] for key in roles.values()}
+        named = {key: unit for key, unit in named.items() if unit}
+        return from_arrays(field, bias, by_key[roles["signal"]], named, roles,
                            source=source, sha256=sha256, metadata=metadata or {},
                            settings=local_settings)
     columns = {local[n]: vector(arrays[n]) for n in names if _vector_length(shapes[n])}
