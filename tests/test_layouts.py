@@ -16,6 +16,8 @@ from jjpattern.errors import InputError
 from jjpattern.io import read
 from jjpattern.io.layout import run_labels, sweep_runs
 from jjpattern.pipeline import analyze_data
+from jjpattern.report.methods import methods_paragraph
+from jjpattern.report.summary import render_summary
 from jjpattern.settings import DiagnoseSettings, ReadSettings, Settings
 
 PERIOD_T = 0.45e-3
@@ -232,6 +234,13 @@ def test_up_and_down_are_fitted_apart_and_their_shift_measured(tmp_path):
                        ("field-hysteresis", "negative down")]
     doc = json.loads(result.to_json())
     assert doc["fits"][1]["segment"] == "down" and doc["field_hysteresis"]["pairs"]
+    text = render_summary(result)
+    assert "positive branch, down sweep, rectangular model" in text
+    assert "The field was swept both ways (up, down)" in text
+    assert "positive branch, down sweep against up sweep: offset shift 6" in text
+    methods = methods_paragraph(result, "")
+    assert "each sweep was fitted separately, and 6 points" in methods
+    assert "the down sweep differs from that of the up sweep by 6" in methods
     again = type(result).from_json(result.to_json())
     assert again.to_json() == result.to_json() and again.fits[1].segment == "down"
 

@@ -17,7 +17,7 @@ from .units import CURRENT_UNITS, FIELD_UNITS, RESISTANCE_UNITS, VOLTAGE_UNITS, 
 #: Units that mark a row as the units row (besides those the readers convert).
 _OTHER_UNITS = {"k", "mk", "s", "ms", "us", "min", "h", "hz", "khz", "%", "deg", "\u00b0",
                 "\u00b0c", "c", "a.u.", "au", "arb", "arb.u.", "a.u", "w", "mw", "uw", "dbm",
-                "db", "1", "-", "v/a", "\u03c9", "ohm"}
+                "db", "v/a", "\u03c9", "ohm"}
 _KNOWN_UNITS = ({normalise_unit(u) for u in FIELD_UNITS} | {normalise_unit(u) for u in
                 CURRENT_UNITS} | set(VOLTAGE_UNITS) | set(RESISTANCE_UNITS) | _OTHER_UNITS)
 _NUMBER = re.compile(r"^[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?$")

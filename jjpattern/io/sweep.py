@@ -229,8 +229,8 @@ def build_sweep(
                 "--current-unit"
             )
         values = raw * current_factor(c_unit, f"{source}: {where} {col!r}")
-        for name, magnitudes, dropped, what in _polarities(field_T, values, col, source,
-                                                           where, notes):
+        for name, magnitudes, dropped, what in _polarities(field_T, values, keep, col,
+                                                           source, where, notes):
             if name in found:
                 raise InputError(
                     f"{source}: {where}s {columns_of[name]!r} and {col!r} are both "
@@ -273,11 +273,12 @@ def _field_column(names, settings, source) -> str:
     return found[0]
 
 
-def _polarities(field_T, values, col, source, where, notes):
+def _polarities(field_T, values, keep, col, source, where, notes):
     """``(branch, magnitudes in file order, non-finite rows, what)`` of one current column.
 
     A column named for a branch is that branch; an unnamed one holding both signs
-    is split by sign (zero rows set aside); otherwise its sign names the branch.
+    is split by sign (zero rows set aside, and a side too short to fit set aside with
+    them); otherwise its sign names the branch.
     """
     finite = np.isfinite(field_T) & np.isfinite(values)
     if not finite.any():
@@ -297,19 +298,31 @@ def _polarities(field_T, values, col, source, where, notes):
         return [(name, np.where(finite, values * sign, np.nan), dropped, f"{where} {col!r}")]
     pos, neg = split
     zero = int((finite & (values == 0)).sum())
-    notes.setdefault("signed_columns", []).append({
-        "column": col, "positive_rows": int(pos.sum()), "negative_rows": int(neg.sum()),
-        "zero_rows_set_aside": zero, "nonfinite_rows_set_aside": dropped})
-    return [("positive", np.where(pos, values, np.nan), dropped,
-             f"the positive values of {where} {col!r}"),
-            ("negative", np.where(neg, -values, np.nan), 0,
-             f"the negative values of {where} {col!r}")]
+    note = {"column": col, "positive_rows": int(pos.sum()), "negative_rows": int(neg.sum()),
+            "zero_rows_set_aside": zero, "nonfinite_rows_set_aside": dropped}
+    out = []
+    for name, rows, magnitudes in (("positive", pos, values), ("negative", neg, -values)):
+        if (rows & keep).sum() < MIN_POINTS:
+            note[f"{name}_rows_set_aside"] = int(rows.sum())  # too few for a fit of their own
+            continue
+        out.append((name, np.where(rows, magnitudes, np.nan), 0,
+                    f"the {name} values of {where} {col!r}"))
+    if not out:
+        raise InputError(f"{source}: {where} {col!r} holds too few rows of either sign inside "
+                         f"the field window for a fit (at least {MIN_POINTS} are needed)")
+    out[0] = out[0][:2] + (dropped,) + out[0][3:]
+    notes.setdefault("signed_columns", []).append(note)
+    return out
 
 
 def _segments(field_T, magnitudes, keep, name, col, source, what, dropped):
     """The branch's runs of one field direction, each cleaned, with their directions;
     and the number of rows set aside in short reversals."""
     rows = np.flatnonzero(keep & np.isfinite(field_T) & np.isfinite(magnitudes))
+    if rows.size < MIN_POINTS:
+        window = " inside the field window" if not keep.all() else ""
+        raise InputError(f"{source}: {what} has only {rows.size} usable points{window}; a fit "
+                         f"needs at least {MIN_POINTS}")
     runs, aside = sweep_runs(field_T[rows])
     out = []
     for k, run in enumerate(runs):

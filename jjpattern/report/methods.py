@@ -109,11 +109,16 @@ def _reading_text(result) -> list[str]:
                    + (f" ({count} points)." if count is not None else "."))
     for signed in layout.get("signed_columns", []):
         zero = signed["zero_rows_set_aside"]
-        out.append(f"Positive and negative critical currents recorded in one signed column "
-                   f"({signed['column']}) were separated by their sign"
-                   + (f"; {zero} readings of zero were set aside." if zero else "."))
+        text = (f"Positive and negative critical currents recorded in one signed column "
+                f"({signed['column']}) were separated by their sign"
+                + (f"; {zero} readings of zero were set aside" if zero else ""))
+        for side in ("positive", "negative"):
+            if signed.get(f"{side}_rows_set_aside"):
+                text += (f"; the {signed[f'{side}_rows_set_aside']} {side} readings were too "
+                         "few to fit and were set aside")
+        out.append(text + ".")
     if layout.get("segments"):
-        names = ", ".join(dict.fromkeys(sweep_words(s["segment"]) for s in layout["segments"]))
+        names = ", ".join(dict.fromkeys(s["segment"] for s in layout["segments"]))
         aside = layout.get("points_in_short_reversals")
         out.append(f"The field was swept in both directions ({names}); each sweep was fitted "
                    "separately"

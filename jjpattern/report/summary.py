@@ -63,10 +63,15 @@ def layout_lines(info: dict) -> list[str]:
                 f"{signed['positive_rows']} positive and {signed['negative_rows']} negative "
                 "rows, fitted as two branches")
         aside = signed["zero_rows_set_aside"]
-        out.append(text + (f"; {aside} rows reading zero set aside." if aside else "."))
+        text += f"; {aside} rows reading zero set aside" if aside else ""
+        for side in ("positive", "negative"):
+            if signed.get(f"{side}_rows_set_aside"):
+                text += (f"; the {signed[f'{side}_rows_set_aside']} {side} rows, too few to "
+                         "fit, set aside")
+        out.append(text + ".")
     segments = layout.get("segments")
     if segments:
-        names = ", ".join(dict.fromkeys(sweep_words(s["segment"]) for s in segments))
+        names = ", ".join(dict.fromkeys(s["segment"] for s in segments))
         out.append(f"The field was swept both ways ({names}); each sweep is fitted on its own.")
     if layout.get("points_in_short_reversals"):
         out.append(f"{layout['points_in_short_reversals']} points measured while the field "
