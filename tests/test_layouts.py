@@ -18,6 +18,7 @@ from jjpattern.io.layout import run_labels, sweep_runs
 from jjpattern.pipeline import analyze_data
 from jjpattern.report.methods import methods_paragraph
 from jjpattern.report.summary import render_summary
+from jjpattern.result import Result
 from jjpattern.settings import DiagnoseSettings, ReadSettings, Settings
 
 PERIOD_T = 0.45e-3
@@ -254,8 +255,6 @@ def test_no_hysteresis_put_in_none_flagged(tmp_path):
 
 
 def test_old_documents_without_segments_read_back():
-    from jjpattern.result import Result
-
     doc = json.loads(Result.from_json(json.dumps({
         "schema_version": 1, "input": {"path": "x.csv"}, "settings": {},
         "fits": [{"branch": "positive", "model": "rectangular", "period_T": 1e-3}]})).to_json())
@@ -336,9 +335,8 @@ def test_field_range_and_exclusions_from_the_command_line(tmp_path, capsys):
     ic[glitch] *= 0.6  # premature switching, left out by hand
     path = _write(tmp_path / "g.csv", ["B (mT),Ic (uA)"] + [
         f"{b * 1e3:.6f},{i * 1e6:.6f}" for b, i in zip(field_T, ic, strict=True)])
-    out = tmp_path / "rep"
     assert main(["analyze", str(path), "--field-range", "-1.5mT:1500uT", "--exclude",
-                 "0.40:0.45mT", "--exclude=-0.01:0.01mT", "--json", "--report", str(out)]) == 0
+                 "0.40:0.45mT", "--exclude=-0.01:0.01mT", "--json"]) == 0
     doc = json.loads(capsys.readouterr().out)
     read_settings = doc["settings"]["read"]
     assert read_settings["field_range_T"] == pytest.approx([-1.5e-3, 1.5e-3], rel=1e-12)
@@ -351,7 +349,7 @@ def test_field_range_and_exclusions_from_the_command_line(tmp_path, capsys):
     fitted = np.array(doc["fits"][0]["points"]["field_T"])
     assert fitted.min() >= -1.5e-3 - 1e-12 and not np.any((fitted > 0.4e-3) & (fitted < 0.45e-3))
     assert doc["fits"][0]["ic0_A"] == pytest.approx(TRUTH["positive"][0], rel=0.01)
-    methods = (out / "methods.txt").read_text()
+    methods = methods_paragraph(Result.from_dict(doc), "")
     assert "between -1.5 mT and 1.5 mT were analysed" in methods
     assert "were excluded by hand" in methods
     settings = Settings.from_dict(doc["settings"])
@@ -376,3 +374,12 @@ def test_window_that_leaves_too_little(tmp_path):
         f"{x},{abs(np.sinc(x)) * 10}" for x in np.linspace(-3, 3, 61)])
     with pytest.raises(InputError, match="only 6 usable points inside the field window"):
         read(path, ReadSettings(field_range_T=(0.0, 0.5e-3)))
+
+
+def test_decimal_comma_given_refuses_a_decimal_point(tmp_path):
+    rows = [f"{x:.3f};{abs(np.sinc(x)) * 10:.4f}".replace(".", ",")
+            for x in np.linspace(-3, 3, 41)]
+    rows[5] = rows[5].replace(",", ".")
+    path = _write(tmp_path / "m.csv", ["B (mT);Ic (uA)"] + rows)
+    with pytest.raises(InputError, match="line 7, column 'B \\(mT\\)': '-2.250' is not a number"):
+        read(path, ReadSettings(decimal=","))

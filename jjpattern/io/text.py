@@ -155,10 +155,11 @@ def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict
     if "#" in body:
         body = _COMMENT_LINE.sub("", body)  # blanked, so line numbers still count
     mark = regional.decimal_mark(body, delim, decimal, source, header_no + 1)
-    if mark == "," and delim == ",":
-        body, delim = regional.pair_comma_decimals(body, len(names), source, header_no + 1), ";"
     if mark == ",":
         layout["decimal"] = ","
+    if mark == "," and delim == ",":  # rewritten as ';' between columns, '.' in numbers
+        body, delim = regional.pair_comma_decimals(body, len(names), source, header_no + 1), ";"
+        mark = "."
     columns = _Rows(body, delim, names, source, header_no + 1, mark).columns()
     if all(isinstance(v, str) for v in columns.values()):
         raise InputError(next(iter(columns.values())))  # prose, not a table of numbers
@@ -285,7 +286,10 @@ class _Rows:
         import pandas as pd
 
         text = cells.astype(str).str.strip()
-        numbers = text.str.replace(",", ".", regex=False) if self.decimal == "," else text
+        numbers = text
+        if self.decimal == ",":  # a decimal point is then not a number of this file
+            numbers = text.where(~text.str.contains(".", regex=False), "?").str.replace(
+                ",", ".", regex=False)
         values = pd.to_numeric(numbers, errors="coerce").to_numpy(dtype=float)
         missing = text.str.strip('"').str.lower().isin(_MISSING).to_numpy()
         bad = np.flatnonzero(np.isnan(values) & ~missing)
