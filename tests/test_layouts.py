@@ -383,3 +383,18 @@ def test_decimal_comma_given_refuses_a_decimal_point(tmp_path):
     path = _write(tmp_path / "m.csv", ["B (mT);Ic (uA)"] + rows)
     with pytest.raises(InputError, match="line 7, column 'B \\(mT\\)': '-2.250' is not a number"):
         read(path, ReadSettings(decimal=","))
+
+
+@pytest.mark.parametrize(("text", "expected"), [
+    ("-2:2mT", (-2e-3, 2e-3)),
+    ("-2mT:500uT", (-2e-3, 5e-4)),
+    (":1G", (None, 1e-4)),  # 1 G = 1e-4 T (SI brochure, table of CGS units)
+    ("0.5mT:", (5e-4, None)),
+    (" -1.5 : 1.5 mT ", (-1.5e-3, 1.5e-3)),
+])
+def test_field_interval_parsing(text, expected):
+    from jjpattern.io.units import parse_field_interval
+
+    got = parse_field_interval(text, "--field-range")
+    for g, e in zip(got, expected, strict=True):
+        assert g == (None if e is None else pytest.approx(e, rel=1e-12))

@@ -125,7 +125,14 @@ def sweep_runs(field, min_points: int = MIN_POINTS) -> tuple[list[Run], np.ndarr
         least ``STUB_SPAN_FRACTION`` of the field range.
     aside : ndarray of bool
         Rows in short reversals (stubs) that belong to no run. The last row of
-        a stub, where the field turned into the next run, joins that run.
+        a stub, where the field turned into the next run, joins that run; a
+        single row after the last turn (a point measured again) joins the run
+        before it.
+
+    Two runs of one direction split by a stub are one run when they do not
+    cover the same fields (a glitch inside a pass). When most rows fall in
+    stubs (shuffled fields, a fast zigzag) the order says nothing about the
+    sweep: one run of direction 0 is returned.
     """
     field = np.asarray(field, dtype=float)
     n = field.size

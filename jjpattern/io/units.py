@@ -167,14 +167,9 @@ def parse_field_interval(text: str, option: str) -> tuple[float | None, float | 
     units = {u for _, u in ends if u}
     if not units:
         raise InputError(f"{where}: give the field unit, e.g. -2:2mT ({FIELD_UNIT_HELP})")
-    shared = units.pop() if len(units) == 1 else None
-    out = []
-    for value, unit in ends:
-        if value is None:
-            out.append(None)
-            continue
-        out.append(value * field_factor(unit or shared, where) if unit or shared else None)
-    lo, hi = out
+    shared = units.pop() if len(units) == 1 else None  # two units: each end has its own
+    lo, hi = (None if value is None else value * field_factor(unit or shared, where)
+              for value, unit in ends)
     if lo is not None and hi is not None and not lo < hi:
         raise InputError(f"{where}: the low end must be below the high end")
     return lo, hi
