@@ -105,10 +105,11 @@ def decimal_mark(body: str, delim: str | None, given: str | None, source: str,
         raise InputError(f"--decimal {given!r}: the decimal mark is '.' or ','")
     if given is not None or delim == ",":
         return given or "."
-    comma = _cell_pattern(delim, ",").search(body)
+    # str.find first: the cell patterns take ~0.1 s per MB to rule a mark out.
+    comma = _cell_pattern(delim, ",").search(body) if "," in body else None
     if comma is None:
         return "."
-    point = _cell_pattern(delim, ".").search(body)
+    point = _cell_pattern(delim, ".").search(body) if "." in body else None
     if point is None:
         return ","
     raise InputError(
