@@ -22,7 +22,8 @@ def _reading_parent() -> argparse.ArgumentParser:
     parent = argparse.ArgumentParser(add_help=False)
     group = parent.add_argument_group("reading the file")
     group.add_argument("--field-col", metavar="NAME",
-                       help="field column (or HDF5 dataset path, or .npz key)")
+                       help="field column (or HDF5 dataset path, .mat or netCDF variable, "
+                            "or .npz key)")
     group.add_argument("--ic-col", metavar="NAME", action="append", default=[],
                        help="critical-current column; repeat for a second branch")
     group.add_argument("--field-unit", metavar="UNIT",
@@ -32,9 +33,9 @@ def _reading_parent() -> argparse.ArgumentParser:
     group.add_argument("--coil-constant", metavar="K",
                        help="the field axis is a magnet current; field per current, e.g. "
                             "2.5mT/A")
-    group.add_argument("--decimal", choices=(".", ","),
-                       help="decimal mark of the numbers (default: recognised from the file; "
-                            "a file that could be read either way is refused)")
+    group.add_argument("--decimal", choices=(".", ","), metavar="MARK",
+                       help="decimal mark of the numbers, . or , (default: recognised from "
+                            "the file; a file that could be read either way is refused)")
     group.add_argument("--field-range", metavar="LO:HI",
                        help="use only rows with the field in this interval, e.g. -2:2mT "
                             "(one end may be left empty)")
