@@ -21,7 +21,8 @@ def _reading_parent() -> argparse.ArgumentParser:
     parent = argparse.ArgumentParser(add_help=False)
     group = parent.add_argument_group("reading the file")
     group.add_argument("--field-col", metavar="NAME",
-                       help="field column (or HDF5 dataset path, or .npz key)")
+                       help="field column (or HDF5 dataset path, .mat or netCDF variable, "
+                            "or .npz key)")
     group.add_argument("--ic-col", metavar="NAME", action="append", default=[],
                        help="critical-current column; repeat for a second branch")
     group.add_argument("--field-unit", metavar="UNIT",
@@ -31,6 +32,15 @@ def _reading_parent() -> argparse.ArgumentParser:
     group.add_argument("--coil-constant", metavar="K",
                        help="the field axis is a magnet current; field per current, e.g. "
                             "2.5mT/A")
+    group.add_argument("--decimal", choices=(".", ","), metavar="MARK",
+                       help="decimal mark of the numbers, . or , (default: recognised from "
+                            "the file; a file that could be read either way is refused)")
+    group.add_argument("--field-range", metavar="LO:HI",
+                       help="use only rows with the field in this interval, e.g. -2:2mT "
+                            "(one end may be left empty)")
+    group.add_argument("--exclude", metavar="LO:HI", action="append", default=[],
+                       help="leave out rows with the field in this interval, e.g. "
+                            "0.41:0.43mT (a glitch); repeat for more")
     group = parent.add_argument_group("raw V(I, B) maps")
     group.add_argument("--bias-col", metavar="NAME", help="bias-current column or dataset")
     group.add_argument("--signal-col", metavar="NAME",
@@ -188,6 +198,37 @@ def _lengths(text, option, scale):
         raise InputError(f"{option} {text!r}: not a number; write e.g. 150 or 150,200") from None
 
 
+def _exclusion(text: str) -> tuple[float, float]:
+    from .errors import InputError
+    from .io.units import parse_field_interval
+
+    lo, hi = parse_field_interval(text, "--exclude")
+    if lo is None or hi is None:
+        raise InputError(f"--exclude {text!r}: give both ends, e.g. 0.41:0.43mT (use "
+                         "--field-range to cut one side)")
+    return lo, hi
+
+
+#: Options whose value may start with '-' (a negative field), which argparse takes for an
+#: option of its own unless it is attached with '='.
+_INTERVAL_OPTIONS = ("--field-range", "--exclude")
+
+
+def _attach_interval_values(argv: list) -> list:
+    """``--field-range -2:2mT`` as ``--field-range=-2:2mT``, so that argparse accepts it."""
+    out, k = [], 0
+    while k < len(argv):
+        arg = argv[k]
+        if (arg in _INTERVAL_OPTIONS and k + 1 < len(argv)
+                and str(argv[k + 1]).startswith("-") and ":" in str(argv[k + 1])):
+            out.append(f"{arg}={argv[k + 1]}")
+            k += 2
+            continue
+        out.append(arg)
+        k += 1
+    return out
+
+
 def _figure_formats(text: str) -> tuple[str, ...]:
     from .errors import InputError
 
@@ -202,7 +243,7 @@ def _figure_formats(text: str) -> tuple[str, ...]:
 def settings_from_args(args):
     """The one place where command-line options become :class:`Settings` (SI units)."""
     from .extract.registry import parse_threshold
-    from .io.units import coil_constant_T_per_A
+    from .io.units import coil_constant_T_per_A, parse_field_interval
     from .settings import (
         DiagnoseSettings,
         ExtractSettings,
@@ -221,7 +262,11 @@ def settings_from_args(args):
         current_unit=args.current_unit,
         coil_T_per_A=coil_constant_T_per_A(args.coil_constant) if args.coil_constant else None,
         bias_col=args.bias_col, signal_col=args.signal_col, signal_unit=args.signal_unit,
-        transpose=args.transpose, field_from_name=args.field_from_name)
+        transpose=args.transpose, field_from_name=args.field_from_name,
+        decimal=args.decimal,
+        field_range_T=parse_field_interval(args.field_range, "--field-range")
+        if args.field_range else (),
+        exclude_T=tuple(_exclusion(text) for text in args.exclude))
     extract = ExtractSettings(
         criterion=args.criterion, threshold=parse_threshold(args.threshold, args.criterion),
         gap_J=scaled(args.gap_meV, 1.602176634e-22),  # 1 meV in J (e is exact in SI)
@@ -392,7 +437,7 @@ def run_demo(args) -> int:
 def main(argv=None) -> int:
     parser = build_parser()
     argv = sys.argv[1:] if argv is None else list(argv)
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_attach_interval_values(argv))
     args.argv = argv
     if args.command is None:
         parser.print_help()

@@ -84,6 +84,15 @@ CATALOGUE = {
         "the field calibration for non-linearity, magnet hysteresis, and flux entering the "
         "electrodes at higher fields.",
     ),
+    "field-hysteresis": (
+        "warning",
+        "The pattern swept one way along the field is shifted (or stretched) against the one "
+        "swept the other way, beyond their errors. Usual causes: flux trapped in or screened "
+        "by the superconducting electrodes (it follows the field history), a magnet with "
+        "remanence, or a field readback that lags the field (calibration or sweep-rate lag). "
+        "Each direction is fitted on its own; sweep more slowly, or warm above Tc and "
+        "demagnetise the magnet, and compare.",
+    ),
     "long-junction": (
         "warning",
         "The junction is longer than the Josephson penetration depth, so the current is not "

@@ -5,6 +5,7 @@ Data flow one way: source -> reader -> (extraction) -> fit -> diagnostics -> Res
 
 from __future__ import annotations
 
+import dataclasses
 import os
 from dataclasses import dataclass
 
@@ -26,8 +27,9 @@ def analyze(source, settings: Settings | None = None, *, command=None, **keyword
 
     Parameters
     ----------
-    source : str or path-like
-        An Ic(B) table (text, HDF5, .npz), a raw V(I, B) map, or a folder of I-V files.
+    source : str, path-like, pandas.DataFrame or xarray.Dataset
+        An Ic(B) table (text, HDF5, netCDF, MATLAB .mat, .npz), a raw V(I, B) map, a
+        folder of I-V files, or the data themselves.
     settings : Settings, optional
         Every setting; defaults where omitted.
     command : sequence of str, optional
@@ -45,10 +47,13 @@ def analyze(source, settings: Settings | None = None, *, command=None, **keyword
 def analyze_input(source, settings: Settings | None = None, *, command=None,
                   **keywords) -> Analysed:
     """Like :func:`analyze`, but keep the data read (for the raw-map figure)."""
-    from .io import read
+    from .io import read, read_object
 
     settings = keyword_settings(settings, **keywords)
-    data = read(os.fspath(source), settings.read)
+    if isinstance(source, (str, bytes, os.PathLike)):
+        data = read(os.fspath(source), settings.read)
+    else:
+        data = read_object(source, settings.read)
     return Analysed(analyze_data(data, settings, command=command), data)
 
 
@@ -73,14 +78,18 @@ def analyze_data(data, settings: Settings | None = None, *, command=None) -> Res
         extraction_flags = list(ex.flags)
     else:
         sweep, extraction_flags = data, []
-    fits, fit_flags, diagnostics = _fit_and_diagnose(sweep, settings, floor_A)
+    labelled, fit_flags, diagnostics = _by_segment(sweep, settings, floor_A)
+    fits = [fit for fit, _ in labelled]
+    from .diagnose.hysteresis import field_hysteresis
+
+    hysteresis, hysteresis_flags = field_hysteresis(labelled)
     if extraction is not None:
         icrn = icrn_block(fits, extraction["normal_resistance_ohm"], settings,
                           sweep.metadata)
     return Result(
         input=sweep.summary(),
-        fits=[FitResult.from_fit(f) for f in fits],
-        flags=fit_flags + extraction_flags + diagnostics.get("flags", []),
+        fits=[_fit_result(f, segment) for f, segment in labelled],
+        flags=fit_flags + extraction_flags + diagnostics.get("flags", []) + hysteresis_flags,
         settings=settings,
         method=fit_method(settings),
         extraction=extraction,
@@ -88,6 +97,7 @@ def analyze_data(data, settings: Settings | None = None, *, command=None) -> Res
         current_density=diagnostics.get("current_density") or {},
         geometry=diagnostics.get("geometry"),
         provenance=_provenance(command),
+        field_hysteresis=hysteresis,
     )
 
 
@@ -107,6 +117,51 @@ def _fit_and_diagnose(sweep, settings: Settings, floor_A: float):
                                geometry=junction_inputs(settings, sweep.metadata),
                                criterion_floor_A=floor_A)
     return fits, fit_flags, diagnostics
+
+
+def _label(name, segment):
+    return f"{name} {segment}" if segment and name else name
+
+
+def _by_segment(sweep, settings: Settings, floor_A: float):
+    """:func:`_fit_and_diagnose` for each run of the field sweep (up, down ...) on its own.
+
+    Returns ``([(fit, segment)], fit flags, diagnostics)``; flags, densities and the
+    geometry block name the branch with its segment (``"positive up"``) so that every
+    key stays unique in the document. A sweep in one direction is one run, labelled ``""``.
+    """
+    segments = list(dict.fromkeys(b.segment for b in sweep.branches))
+    if segments == [""]:
+        fits, fit_flags, diagnostics = _fit_and_diagnose(sweep, settings, floor_A)
+        return [(f, "") for f in fits], fit_flags, diagnostics
+    labelled, fit_flags, merged = [], [], {"flags": [], "current_density": {}, "geometry": None}
+
+    def relabel(flag, segment):
+        return dataclasses.replace(flag, branch=_label(flag.branch, segment),
+                                   evidence={**flag.evidence, "segment": segment})
+
+    for segment in segments:
+        part = dataclasses.replace(sweep, branches=tuple(b for b in sweep.branches
+                                                         if b.segment == segment))
+        fits, flags, diagnostics = _fit_and_diagnose(part, settings, floor_A)
+        labelled += [(f, segment) for f in fits]
+        fit_flags += [relabel(f, segment) for f in flags]
+        merged["flags"] += [relabel(f, segment) for f in diagnostics.get("flags", [])]
+        merged["current_density"].update({_label(k, segment): v for k, v in
+                                          (diagnostics.get("current_density") or {}).items()})
+        geometry = diagnostics.get("geometry")
+        if geometry and merged["geometry"] is None:
+            merged["geometry"] = {**geometry, "branch": _label(geometry["branch"], segment)}
+    order = {(b.name, b.segment): k for k, b in enumerate(sweep.branches)}
+    labelled.sort(key=lambda pair: order[(pair[0].branch, pair[1])])  # as in the input block
+    return labelled, fit_flags, merged
+
+
+def _fit_result(fit, segment: str) -> FitResult:
+    """The recorded fit, named by branch and segment (``"positive up"``)."""
+    out = FitResult.from_fit(fit)
+    out.branch, out.segment = _label(out.branch, segment), segment
+    return out
 
 
 def fit_method(settings: Settings) -> dict:

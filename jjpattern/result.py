@@ -22,7 +22,8 @@ from .settings import Settings
 
 #: Keys of one ``fits`` entry in the JSON document, in order (numbers first).
 FIT_KEYS = (
-    "branch", "model", "period_T", "period_stderr_T", "field_offset_T", "field_offset_stderr_T",
+    "branch", "segment", "model", "period_T", "period_stderr_T", "field_offset_T",
+    "field_offset_stderr_T",
     "ic0_A", "ic0_stderr_A", "effective_area_m2", "effective_area_stderr_m2",
     "node_floor_A", "node_floor_stderr_A", "reduced_chisq", "lobes_observed", "nodes_observed",
     "points_used", "points_downweighted", "residual_rms_A", "noise_A", "ic_max_A",
@@ -68,6 +69,9 @@ class FitResult:
 
     branch: str
     model: str
+    #: The run of the field sweep this fit is of (``"up"``, ``"down"``, ``"up 2"``), or ``""``
+    #: for a sweep in one direction; ``branch`` then ends with it (``"positive up"``).
+    segment: str = ""
     period_T: float | None = None
     period_stderr_T: float | None = None
     field_offset_T: float | None = None
@@ -166,6 +170,9 @@ class Result:
         The fit method and its fixed thresholds.
     extraction, icrn, current_density, geometry : dict or None
         Present when the stage ran and had something to say.
+    field_hysteresis : dict or None
+        Up against down sweeps of the field (offset shift, period and Ic0
+        ratios), when the sweep went both ways.
     provenance : dict
         Library versions and the command that reproduces the run.
     """
@@ -180,6 +187,7 @@ class Result:
     current_density: dict = field(default_factory=dict)
     geometry: dict | None = None
     provenance: dict = field(default_factory=dict)
+    field_hysteresis: dict | None = None
     tool: dict = field(default_factory=lambda: {"name": "jjpattern", "version": __version__})
     generated_utc: str = field(default_factory=lambda: datetime.datetime.now(
         datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"))
@@ -222,7 +230,7 @@ class Result:
             "method": self.method,
             TIMESTAMP_KEY: self.generated_utc,
         }
-        for key in ("extraction", "icrn", "current_density", "geometry"):
+        for key in ("extraction", "icrn", "current_density", "geometry", "field_hysteresis"):
             value = getattr(self, key)
             if value:
                 doc[key] = value
@@ -251,7 +259,8 @@ class Result:
             flags=[_flag_from_dict(f) for f in doc.get("flags", [])],
             settings=Settings.from_dict(doc.get("settings")),
             **{k: doc[k] for k in ("method", "extraction", "icrn", "geometry", "provenance",
-                                   "tool", TIMESTAMP_KEY, "settings_sha256")
+                                   "tool", TIMESTAMP_KEY, "settings_sha256",
+                                   "field_hysteresis")
                if k in doc and k in known},
             current_density=doc.get("current_density") or {},
         )

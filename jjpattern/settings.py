@@ -20,7 +20,13 @@ from .errors import InputError
 
 @dataclass(frozen=True)
 class ReadSettings:
-    """How the input file is read: columns, units, layout of raw maps."""
+    """How the input file is read: columns, units, layout of raw maps, the field window.
+
+    ``decimal`` is ``"."`` or ``","`` (``None``: recognised from the file, refused
+    when it is ambiguous). ``field_range_T`` is ``(low, high)`` in tesla, ``None``
+    for an open end; rows outside it are left out. ``exclude_T`` holds
+    ``(low, high)`` intervals whose rows are left out (glitches).
+    """
 
     field_col: str | None = None
     ic_cols: tuple[str, ...] = ()
@@ -32,6 +38,9 @@ class ReadSettings:
     signal_unit: str | None = None
     transpose: bool = False
     field_from_name: str | None = None
+    decimal: str | None = None
+    field_range_T: tuple[float | None, ...] = ()
+    exclude_T: tuple[tuple[float, float], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -108,6 +117,13 @@ def _plain(value):
     return value
 
 
+def _tuples(value):
+    """Lists (from JSON) back to tuples, nested ones included."""
+    if isinstance(value, (list, tuple)):
+        return tuple(_tuples(v) for v in value)
+    return value
+
+
 def _section_from_dict(cls, data, where: str):
     if data is None:
         return cls()
@@ -122,7 +138,7 @@ def _section_from_dict(cls, data, where: str):
     for name, value in data.items():
         default = known[name].default
         if isinstance(default, tuple) and value is not None:
-            value = tuple(value) if isinstance(value, (list, tuple)) else (value,)
+            value = _tuples(value) if isinstance(value, (list, tuple)) else (value,)
         values[name] = value
     return cls(**values)
 

@@ -39,7 +39,7 @@ def _iv_folder(folder, names, fields_mT, rng):
 
 def test_registry_lists_each_reader_once_and_text_last():
     names = [r.NAME for r in READERS]
-    assert names == ["folder", "hdf5", "npz", "text"]
+    assert names == ["folder", "matlab", "netcdf", "hdf5", "npz", "text"]
     assert all(callable(r.sniff) and callable(r.read) for r in READERS)
 
 

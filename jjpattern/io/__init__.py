@@ -8,13 +8,19 @@ pick the reader, and returns an Ic(B) sweep or a raw V(I, B) map.
 
 from __future__ import annotations
 
+import dataclasses
+
+import numpy as np
+
 from ..settings import ReadSettings
+from .layout import field_window
 from .maps import IVMap
+from .objects import read_object as _read_object
 from .registry import reader_for
 from .source import Source, folder_sha256, open_source
 from .sweep import MIN_POINTS, Branch, Sweep
 
-__all__ = ["read", "load", "load_map", "Sweep", "Branch", "IVMap", "Source",
+__all__ = ["read", "read_object", "load", "load_map", "Sweep", "Branch", "IVMap", "Source",
            "ReadSettings", "MIN_POINTS", "folder_sha256", "open_source"]
 
 
@@ -24,8 +30,9 @@ def read(path, settings: ReadSettings | None = None, *, kind: str = "auto") -> S
     Parameters
     ----------
     path : str or path-like
-        A delimited text file, HDF5, ``.npz``, or a folder of I-V files. The
-        format is chosen once, from the content and the suffix.
+        A delimited text file, HDF5, netCDF, MATLAB ``.mat``, ``.npz``, or a
+        folder of I-V files. The format is chosen once, from the content and
+        the suffix.
     settings : ReadSettings, optional
         Columns, units, coil constant and map layout; recognised from the
         names when not given.
@@ -41,8 +48,29 @@ def read(path, settings: ReadSettings | None = None, *, kind: str = "auto") -> S
         In SI units, with the SHA-256 of the input (for a folder, of its file
         names and contents).
     """
+    settings = settings or ReadSettings()
     source = open_source(path)
-    return reader_for(source).read(source, settings or ReadSettings(), kind)
+    return _windowed(reader_for(source).read(source, settings, kind), settings)
+
+
+def read_object(obj, settings: ReadSettings | None = None, *, kind: str = "auto"):
+    """Read a ``pandas.DataFrame`` or an ``xarray.Dataset`` as :func:`read` reads a file."""
+    settings = settings or ReadSettings()
+    return _windowed(_read_object(obj, settings, kind=kind), settings)
+
+
+def _windowed(data, settings: ReadSettings):
+    """A map's rows outside ``field_range_T`` or inside ``exclude_T`` left out (a sweep's
+    rows are left out while it is built, where they are counted)."""
+    if not isinstance(data, IVMap) or not (settings.field_range_T or settings.exclude_T):
+        return data
+    keep, _, _ = field_window(data.field_T, settings.field_range_T, settings.exclude_T)
+    if keep.all():
+        return data
+    bias = (np.broadcast_to(data.bias_A[0], (int(keep.sum()), data.bias_A.shape[1]))
+            if data.bias_A.strides[0] == 0 else data.bias_A[keep])
+    return dataclasses.replace(data, field_T=data.field_T[keep], bias_A=bias,
+                               signal=data.signal[keep])
 
 
 def load(path, *, field_col=None, ic_cols=(), field_unit=None, current_unit=None,

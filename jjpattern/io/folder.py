@@ -48,7 +48,7 @@ def read(source, settings, kind: str = "auto") -> IVMap:
         except OSError as exc:
             raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
         digests.append((name, hashlib.sha256(raw).hexdigest()))
-        metadata, columns = parse_table(decode(raw, path), path)
+        metadata, columns = parse_table(decode(raw, path), path, settings.decimal)
         value, unit = _field_of_file(path, metadata, settings)
         if not unit:
             raise InputError(f"{path}: the field value has no unit; pass --field-unit")

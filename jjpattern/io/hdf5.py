@@ -6,7 +6,11 @@ attribute (``"mT"``, ``"uA"``). Map layout: ``field``, ``bias`` and a 2-D
 ``voltage`` or ``dvdi`` (see :mod:`jjpattern.io.maps`). A 2-D dataset at the
 root makes the file a map. Metadata come from the root attributes;
 ``field_col`` / ``ic_cols`` / ``bias_col`` / ``signal_col`` name other
-dataset paths.
+dataset paths. When the root holds nothing recognised, the one group that does
+is read (:func:`jjpattern.io.containers.find_group`), and a file with none
+is refused with the list of its datasets. A netCDF-4 file (HDF5 inside) goes
+to the netCDF reader when xarray is installed; without it, it is read here
+and netCDF's own attributes are left out of the metadata.
 """
 
 from __future__ import annotations
@@ -16,7 +20,9 @@ import io
 import numpy as np
 
 from ..errors import InputError
+from .containers import find_group, listing, role_of
 from .maps import choose_kind, from_arrays, pick_column
+from .netcdf import INTERNAL_ATTRS, xarray_module
 from .sweep import build_sweep
 
 NAME = "hdf5"
@@ -41,15 +47,77 @@ def read(source, settings, kind: str = "auto"):
         raise InputError(f"{source.path}: not a readable HDF5 file "
                          f"({exc.__class__.__name__})") from None
     with handle:
-        metadata = {k: _text(v) for k, v in handle.attrs.items()}
-        # h5py builds an object per lookup (slow, ~0.5 ms): look each dataset up once.
-        root = {k: v for k, v in handle.items() if isinstance(v, h5py.Dataset)}
-        has_map = any(v.ndim == 2 for v in root.values())
-        if choose_kind(kind, settings, has_map) == "map":
-            return _map(handle, root, source, settings, metadata)
-        columns, units = _columns(handle, root, source.path, settings)
+        if "_NCProperties" not in handle.attrs or xarray_module() is None:
+            return _read_open(handle, source, settings, kind)
+    from . import netcdf  # netCDF-4 written by xarray or netCDF4: coordinates, attributes
+
+    return netcdf.read(source, settings, kind)
+
+
+def _read_open(handle, source, settings, kind):
+    import h5py
+
+    metadata = _metadata(handle.attrs)
+    # h5py builds an object per lookup (slow, ~0.5 ms): look each dataset up once.
+    root = {k: v for k, v in handle.items()
+            if isinstance(v, h5py.Dataset) and not _dimension_only(v)}
+    layout = {}
+    if not _names_given(settings) and not _recognised(root, settings, kind):
+        found = _group(handle, source.path, settings, kind)
+        if found is not None:
+            group, kind, root = found
+            metadata.update(_metadata(handle[group].attrs))
+            layout["group"] = "/" + group
+    has_map = any(v.ndim == 2 for v in root.values())
+    if choose_kind(kind, settings, has_map) == "map":
+        return _map(handle, root, source, settings, metadata)
+    columns, units = _columns(handle, root, source.path, settings)
     return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
-                       units=units, metadata=metadata, where="dataset")
+                       units=units, metadata=metadata, where="dataset", layout=layout)
+
+
+def _metadata(attrs) -> dict:
+    return {k: _text(v) for k, v in attrs.items() if k not in INTERNAL_ATTRS}
+
+
+def _dimension_only(ds) -> bool:
+    """A netCDF dimension without a variable: a placeholder, not data."""
+    name = ds.attrs.get("NAME", b"")
+    return isinstance(name, bytes) and name.startswith(b"This is a netCDF dimension but not")
+
+
+def _names_given(settings) -> bool:
+    return bool(settings.field_col or settings.ic_cols or settings.bias_col
+                or settings.signal_col)
+
+
+def _recognised(root, settings, kind) -> bool:
+    """The root holds a map, or a field and a current named as the readers know them."""
+    if kind != "sweep" and any(v.ndim == 2 for v in root.values()):
+        return True
+    roles = {role_of(name, settings.coil_T_per_A is not None) for name in root}
+    return "field" in roles and ("ic" in roles or kind == "map")
+
+
+def _group(handle, path, settings, kind):
+    """``(group, kind, datasets)`` of the one group that holds a sweep or a map, or ``None``
+    when everything is at the root (the root's own messages then say what is missing)."""
+    import h5py
+
+    shapes = {}
+
+    def visit(name, obj):
+        if isinstance(obj, h5py.Dataset) and obj.dtype.kind in "iuf" and not _dimension_only(obj):
+            shapes[name] = obj.shape
+
+    handle.visititems(visit)
+    if not any("/" in name for name in shapes):
+        return None
+    group, chosen, names = find_group(shapes, sep="/", source=path, settings=settings,
+                                      kind=kind, what="the HDF5 file",
+                                      option_names=("dataset", "path"))
+    prefix = f"{group}/" if group else ""
+    return group, chosen, {n[len(prefix):]: handle[n] for n in names}
 
 
 def _text(value) -> str:
@@ -97,7 +165,7 @@ def _columns(handle, root, path, settings) -> tuple[dict, dict]:
     else:
         selected = root
         if not selected:
-            raise InputError(f"{path}: the HDF5 file holds no datasets at its root")
+            raise InputError(f"{path}: the HDF5 file holds no datasets")
     columns: dict[str, np.ndarray] = {}
     units: dict[str, str] = {}
     for name, ds in selected.items():
@@ -111,7 +179,9 @@ def _columns(handle, root, path, settings) -> tuple[dict, dict]:
         if unit is not None:
             units[name] = unit
     if not columns:
-        raise InputError(f"{path}: the HDF5 file holds no 1-D numeric datasets at its root")
+        raise InputError(f"{path}: the HDF5 file holds no 1-D numeric datasets at its root; it "
+                         f"holds {listing({k: v.shape for k, v in selected.items()})}; name "
+                         "them with --field-col and --ic-col (dataset paths)")
     if len({c.size for c in columns.values()}) > 1:
         raise InputError(f"{path}: the datasets have different lengths "
                          f"({', '.join(f'{k}: {v.size}' for k, v in columns.items())})")

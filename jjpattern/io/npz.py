@@ -36,6 +36,18 @@ def read(source, settings, kind: str = "auto"):
 def read_columns(raw: bytes, source: str) -> tuple[dict, dict]:
     """Return ``(columns, metadata)`` from the bytes of an ``.npz`` archive."""
     try:
+        members = zipfile.ZipFile(io.BytesIO(raw)).namelist()
+    except (zipfile.BadZipFile, OSError, ValueError):
+        members = None
+    if members and not any(m.endswith(".npy") for m in members):
+        from .registry import FORMATS_READ
+
+        office = any(m in ("[Content_Types].xml", "mimetype") for m in members)
+        kind = "a spreadsheet or office document (.xlsx, .ods)" if office else "a zip archive"
+        fix = "save the sheet as CSV" if office else "unpack it and give the data file"
+        raise InputError(f"{source}: is {kind}, not one of the formats read ({FORMATS_READ}); "
+                         f"{fix}")
+    try:
         archive = np.load(io.BytesIO(raw), allow_pickle=False)
     except (OSError, ValueError, EOFError, zipfile.BadZipFile) as exc:
         raise InputError(f"{source}: not a readable .npz file ({exc})") from None

@@ -1,7 +1,15 @@
-"""The loaded Ic(B) sweep in SI, and the clean-up every loader shares."""
+"""The loaded Ic(B) sweep in SI, and the clean-up every loader shares.
+
+:func:`build_sweep` keeps the file order until the end: rows outside the field
+window are left out, a signed current column is split by sign into a positive
+and a negative branch, each branch is split where the field turns round
+(:mod:`jjpattern.io.layout`), and only then is each segment sorted and its
+equal fields averaged.
+"""
 
 from __future__ import annotations
 
+import dataclasses
 import re
 from dataclasses import dataclass, field
 
@@ -10,21 +18,23 @@ import numpy as np
 from ..errors import InputError
 from ..sampling import tidy
 from ..settings import ReadSettings
+from .layout import MIN_POINTS, field_window, run_labels, signed_split, sweep_runs
 from .units import current_factor, field_factor, split_header
-
-#: A fit needs at least this many usable points per branch.
-MIN_POINTS = 10
 
 _FIELD_NAMES = {
     "b", "h", "bz", "hz", "b_z", "h_z", "field", "bfield", "b_field", "hfield", "h_field",
     "mu0h", "mu0_h", "applied_field", "magnetic_field", "field_applied", "b_applied",
+    "b_ext", "bext", "h_ext", "hext", "external_field", "field_b", "field_h", "field_bz",
+    "magnetic_field_b", "applied_magnetic_field", "perpendicular_field", "b_perp",
 }
 _COIL_NAMES = {
     "coil", "i_coil", "icoil", "coil_current", "magnet", "i_magnet", "magnet_current",
     "i_field", "field_current",
 }
 _IC_NAME = re.compile(
-    r"^(?:ic|i_c|isw|i_sw|ic_sw|icrit|i_crit|iswitch|i_switch)"
+    r"^(?:(?P<pre>pos|neg|positive|negative)_)?"
+    r"(?:ic|i_c|isw|i_sw|ic_sw|icrit|i_crit|iswitch|i_switch|critical_current|"
+    r"switching_current|i_critical|i_switching)"
     r"(?:[_ ]?(?P<branch>\+|-|pos|neg|plus|minus|p|n|positive|negative))?$"
 )
 _NEGATIVE = {"-", "neg", "minus", "n", "negative"}
@@ -40,10 +50,18 @@ class Branch:
     ic_A: np.ndarray
     points_dropped: int
     duplicates_merged: int
+    #: Which run of the field sweep: ``""`` for a sweep in one direction, else ``"up"``,
+    #: ``"down"`` (numbered, ``"up 2"``, when a direction comes back).
+    segment: str = ""
 
     @property
     def points_used(self) -> int:
         return int(self.field_T.size)
+
+    @property
+    def label(self) -> str:
+        """The name of this fit in the result: ``"positive"``, or ``"positive up"``."""
+        return f"{self.name} {self.segment}" if self.segment else self.name
 
 
 @dataclass(frozen=True)
@@ -56,6 +74,9 @@ class Sweep:
     metadata: dict = field(default_factory=dict)
     field_column: str = ""
     rows_read: int = 0
+    #: How the file was laid out and what reading did about it (decimal comma, units row,
+    #: signed column, segments, field window); empty for a plain table.
+    layout: dict = field(default_factory=dict)
 
     def branch(self, name: str) -> Branch:
         for b in self.branches:
@@ -65,7 +86,7 @@ class Sweep:
 
     def summary(self) -> dict:
         """The ``input`` block of the JSON document."""
-        return {
+        out = {
             "path": self.path,
             "sha256": self.sha256,
             "rows_read": self.rows_read,
@@ -74,18 +95,23 @@ class Sweep:
             "points_dropped": sum(b.points_dropped for b in self.branches),
             "duplicates_merged": sum(b.duplicates_merged for b in self.branches),
             "branches": [
-                {"branch": b.name, "column": b.column, "points_used": b.points_used,
-                 "points_dropped": b.points_dropped, "duplicates_merged": b.duplicates_merged}
+                {"branch": b.label, "segment": b.segment, "column": b.column,
+                 "points_used": b.points_used, "points_dropped": b.points_dropped,
+                 "duplicates_merged": b.duplicates_merged}
                 for b in self.branches
             ],
             "metadata": dict(self.metadata),
         }
+        if self.layout:
+            out["layout"] = dict(self.layout)
+        return out
 
 
 def role_key(name: str) -> str:
     """Normalise a column name for role recognition (case, spaces, hyphens between words)."""
     key = name.strip().lower().replace("\u00b5", "u").replace("\u03bc", "u")
-    return re.sub(r"[\s.]+", "_", key)
+    key = re.sub(r"(?<=[a-z0-9])-(?=[a-z])", "_", key)
+    return re.sub(r"[\s.]+", "_", key).strip("_")
 
 
 def ic_branch_hint(name: str) -> str | None:
@@ -93,7 +119,7 @@ def ic_branch_hint(name: str) -> str | None:
     match = _IC_NAME.match(role_key(name))
     if not match:
         return None
-    hint = match.group("branch")
+    hint = match.group("branch") or match.group("pre")
     if hint is None:
         return ""
     return "negative" if hint in _NEGATIVE else "positive"
@@ -139,8 +165,9 @@ def build_sweep(
     units: dict | None = None,
     metadata: dict | None = None,
     where: str = "column",
+    layout: dict | None = None,
 ) -> Sweep:
-    """Pick the field and Ic columns, convert to SI and clean each branch.
+    """Pick the field and Ic columns, convert to SI, split by sign and direction, clean.
 
     Parameters
     ----------
@@ -149,35 +176,21 @@ def build_sweep(
         or to the message naming its first cell that is not a number.
     settings : ReadSettings, optional
         ``field_col``, ``ic_cols``, ``field_unit``, ``current_unit`` and
-        ``coil_T_per_A`` override recognition from the names.
+        ``coil_T_per_A`` override recognition from the names;
+        ``field_range_T`` and ``exclude_T`` leave rows out.
     units : dict, optional
         Units given apart from the names (HDF5 attributes); otherwise taken
         from the names (``'B (mT)'``, ``'B_mT'``).
+    layout : dict, optional
+        What the reader found about the file's layout (decimal comma, units
+        row), carried into :attr:`Sweep.layout`.
     """
     settings = settings or ReadSettings()
-    field_col, ic_cols = settings.field_col, settings.ic_cols
-    field_unit, current_unit = settings.field_unit, settings.current_unit
-    coil_T_per_A = settings.coil_T_per_A
     units = units or {}
     names = list(columns)
-    if field_col is not None:
-        fcol = _find(names, field_col, source, "field")
-    else:
-        found = [c for c in names if is_field_name(split_header(c)[0], coil_T_per_A is not None)]
-        if not found:
-            raise InputError(
-                f"{source}: no field column recognised among "
-                f"{', '.join(repr(c) for c in names)}; name it like 'B (mT)' or pass "
-                "--field-col (for a magnet current, also --coil-constant)"
-            )
-        if len(found) > 1:
-            raise InputError(
-                f"{source}: several field columns ({', '.join(map(repr, found))}); "
-                "choose one with --field-col"
-            )
-        fcol = found[0]
-    if ic_cols:
-        icols = [_find(names, c, source, "critical-current") for c in ic_cols]
+    fcol = _field_column(names, settings, source)
+    if settings.ic_cols:
+        icols = [_find(names, c, source, "critical-current") for c in settings.ic_cols]
     else:
         icols = [c for c in names if c != fcol and ic_branch_hint(split_header(c)[0]) is not None]
         if not icols:
@@ -187,38 +200,86 @@ def build_sweep(
             )
 
     field_raw = numeric(columns, fcol, where)
-    f_unit = field_unit or units.get(fcol) or split_header(fcol)[1]
+    f_unit = settings.field_unit or units.get(fcol) or split_header(fcol)[1]
     if not f_unit:
         raise InputError(
             f"{source}: {where} {fcol!r} has no unit; write it as 'B (mT)' or pass --field-unit"
         )
-    field_T = field_values_T(field_raw, f_unit, f"{source}: {where} {fcol!r}", coil_T_per_A)
+    field_T = field_values_T(field_raw, f_unit, f"{source}: {where} {fcol!r}",
+                             settings.coil_T_per_A)
+    keep, outside, excluded = field_window(field_T, settings.field_range_T, settings.exclude_T)
+    notes = dict(layout or {})
+    if settings.field_range_T or settings.exclude_T:
+        notes["field_window"] = {
+            "field_range_T": list(settings.field_range_T) or None,
+            "points_outside_range": outside,
+            "exclude_T": [list(pair) for pair in settings.exclude_T],
+            "points_excluded": excluded,
+        }
 
-    branches = {}
+    found: dict[str, list[Branch]] = {}
+    columns_of: dict[str, str] = {}
+    aside_total = 0
     for col in icols:
         raw = numeric(columns, col, where)
-        c_unit = current_unit or units.get(col) or split_header(col)[1]
+        c_unit = settings.current_unit or units.get(col) or split_header(col)[1]
         if not c_unit:
             raise InputError(
                 f"{source}: {where} {col!r} has no unit; write it as 'Ic (uA)' or pass "
                 "--current-unit"
             )
         values = raw * current_factor(c_unit, f"{source}: {where} {col!r}")
-        branch = _clean_branch(field_T, values, col, source, where)
-        if branch.name in branches:
-            raise InputError(
-                f"{source}: {where}s {branches[branch.name].column!r} and {col!r} are both "
-                f"{branch.name}-branch critical currents; choose with --ic-col"
-            )
-        branches[branch.name] = branch
-    ordered = tuple(branches[k] for k in ("positive", "negative") if k in branches)
+        for name, magnitudes, dropped, what in _polarities(field_T, values, keep, col,
+                                                           source, where, notes):
+            if name in found:
+                raise InputError(
+                    f"{source}: {where}s {columns_of[name]!r} and {col!r} are both "
+                    f"{name}-branch critical currents; choose with --ic-col")
+            segments, aside = _segments(field_T, magnitudes, keep, name, col, source, what,
+                                        dropped)
+            found[name], columns_of[name] = segments, col
+            aside_total += aside
+    if aside_total:
+        notes["points_in_short_reversals"] = aside_total
+    _label_segments(found, notes)
+    ordered = tuple(b for k in ("positive", "negative") for b in found.get(k, ()))
+    merged = sum(b.duplicates_merged for b in ordered)
+    if merged:
+        notes["duplicates_averaged"] = (
+            f"{merged} points at a field already measured in the same branch and sweep "
+            "direction were averaged with it: the file gives no other way to tell them apart")
     return Sweep(
         path=source, sha256=sha256, branches=ordered, metadata=dict(metadata or {}),
-        field_column=fcol, rows_read=int(field_raw.size),
+        field_column=fcol, rows_read=int(field_raw.size), layout=notes,
     )
 
 
-def _clean_branch(field_T, values, col, source, where) -> Branch:
+def _field_column(names, settings, source) -> str:
+    if settings.field_col is not None:
+        return _find(names, settings.field_col, source, "field")
+    found = [c for c in names
+             if is_field_name(split_header(c)[0], settings.coil_T_per_A is not None)]
+    if not found:
+        raise InputError(
+            f"{source}: no field column recognised among "
+            f"{', '.join(repr(c) for c in names)}; name it like 'B (mT)' or pass "
+            "--field-col (for a magnet current, also --coil-constant)"
+        )
+    if len(found) > 1:
+        raise InputError(
+            f"{source}: several field columns ({', '.join(map(repr, found))}); "
+            "choose one with --field-col"
+        )
+    return found[0]
+
+
+def _polarities(field_T, values, keep, col, source, where, notes):
+    """``(branch, magnitudes in file order, non-finite rows, what)`` of one current column.
+
+    A column named for a branch is that branch; an unnamed one holding both signs
+    is split by sign (zero rows set aside, and a side too short to fit set aside with
+    them); otherwise its sign names the branch.
+    """
     finite = np.isfinite(field_T) & np.isfinite(values)
     if not finite.any():
         raise InputError(f"{source}: {where} {col!r} has no finite values next to a finite field")
@@ -227,17 +288,70 @@ def _clean_branch(field_T, values, col, source, where) -> Branch:
         raise InputError(
             f"{source}: {where} {col!r} is zero everywhere; check the column and its unit"
         )
+    dropped = int((~finite).sum())
     hint = ic_branch_hint(split_header(col)[0])
-    sign = np.sign(np.median(v)) or np.sign(v[np.nonzero(v)[0][0]])
-    name = hint or ("negative" if sign < 0 else "positive")
-    # Negative-branch columns come either as negative values or as magnitudes.
-    clean = tidy(field_T, values * sign)
-    if clean.x.size < MIN_POINTS:
-        raise InputError(
-            f"{source}: {where} {col!r} has only {clean.x.size} usable points; a fit needs at "
-            f"least {MIN_POINTS}"
-        )
-    return Branch(
-        name=name, column=col, field_T=clean.x, ic_A=clean.y,
-        points_dropped=clean.dropped, duplicates_merged=clean.merged,
-    )
+    split = None if hint else signed_split(np.where(finite, values, np.nan))
+    if split is None:
+        sign = np.sign(np.median(v)) or np.sign(v[np.nonzero(v)[0][0]])
+        # Negative-branch columns come either as negative values or as magnitudes.
+        name = hint or ("negative" if sign < 0 else "positive")
+        return [(name, np.where(finite, values * sign, np.nan), dropped, f"{where} {col!r}")]
+    pos, neg = split
+    zero = int((finite & (values == 0)).sum())
+    note = {"column": col, "positive_rows": int(pos.sum()), "negative_rows": int(neg.sum()),
+            "zero_rows_set_aside": zero, "nonfinite_rows_set_aside": dropped}
+    out = []
+    for name, rows, magnitudes in (("positive", pos, values), ("negative", neg, -values)):
+        if (rows & keep).sum() < MIN_POINTS:
+            note[f"{name}_rows_set_aside"] = int(rows.sum())  # too few for a fit of their own
+            continue
+        out.append((name, np.where(rows, magnitudes, np.nan), 0,
+                    f"the {name} values of {where} {col!r}"))
+    if not out:
+        raise InputError(f"{source}: {where} {col!r} holds too few rows of either sign inside "
+                         f"the field window for a fit (at least {MIN_POINTS} are needed)")
+    out[0] = out[0][:2] + (dropped,) + out[0][3:]
+    notes.setdefault("signed_columns", []).append(note)
+    return out
+
+
+def _segments(field_T, magnitudes, keep, name, col, source, what, dropped):
+    """The branch's runs of one field direction, each cleaned, with their directions;
+    and the number of rows set aside in short reversals."""
+    rows = np.flatnonzero(keep & np.isfinite(field_T) & np.isfinite(magnitudes))
+    if rows.size < MIN_POINTS:
+        window = " inside the field window" if not keep.all() else ""
+        raise InputError(f"{source}: {what} has only {rows.size} usable points{window}; a fit "
+                         f"needs at least {MIN_POINTS}")
+    runs, aside = sweep_runs(field_T[rows])
+    out = []
+    for k, run in enumerate(runs):
+        inside = rows[run.start:run.stop][~aside[run.start:run.stop]]
+        clean = tidy(field_T[inside], magnitudes[inside])
+        if clean.x.size < MIN_POINTS:  # only a single run can be this short
+            window = " inside the field window" if not keep.all() else ""
+            raise InputError(
+                f"{source}: {what} has only {clean.x.size} usable points{window}; a fit needs "
+                f"at least {MIN_POINTS}"
+            )
+        out.append((Branch(name=name, column=col, field_T=clean.x, ic_A=clean.y,
+                           points_dropped=dropped if k == 0 else 0,
+                           duplicates_merged=clean.merged), run.direction))
+    return out, int(aside.sum())
+
+
+def _label_segments(found: dict, notes: dict) -> None:
+    """Name the segments ``up``/``down`` when some branch turns round, else leave them ``""``."""
+    if all(len(runs) == 1 for runs in found.values()):
+        for name, runs in found.items():
+            found[name] = [runs[0][0]]
+        return
+    listing = []
+    for name, runs in found.items():
+        labels = run_labels([direction for _, direction in runs])
+        found[name] = [dataclasses.replace(b, segment=label)
+                       for (b, _), label in zip(runs, labels, strict=True)]
+        listing += [{"branch": b.label, "segment": b.segment, "points": b.points_used,
+                     "field_min_T": float(b.field_T[0]), "field_max_T": float(b.field_T[-1])}
+                    for b in found[name]]
+    notes["segments"] = listing

@@ -1,9 +1,11 @@
 """Delimited text (CSV, TSV, semicolon or whitespace) with a header row, read by pandas.
 
 Layout: optional ``# key: value`` metadata lines, one header row naming the
-columns with their units (``B (mT)``, ``Ic_uA``), then rows of numbers. Blank
-lines and lines starting with ``#`` are skipped anywhere; a delimiter at the
-end of a row is allowed. The same reader serves Ic(B) tables and long-table
+columns with their units (``B (mT)``, ``Ic_uA``), or with a row of units under
+it (``mT;uA``), then rows of numbers, with a decimal point or (with ``;``, tab
+or whitespace between the columns) a decimal comma (:mod:`jjpattern.io.regional`).
+Blank lines and lines starting with ``#`` are skipped anywhere; a delimiter at
+the end of a row is allowed. The same reader serves Ic(B) tables and long-table
 raw maps (one row per field and bias point). pandas parses the rows; the
 file and line of any problem are found afterwards, only when there is one.
 """
@@ -15,6 +17,7 @@ import re
 import numpy as np
 
 from ..errors import InputError
+from . import regional
 from .maps import choose_kind, from_long_table, looks_like_map
 from .sweep import build_sweep
 
@@ -34,18 +37,21 @@ def sniff(source) -> bool:
 
 def read(source, settings, kind: str = "auto"):
     """A Sweep from an Ic(B) table, or an IVMap from a long table of bias and voltage."""
-    metadata, columns = parse_table(decode(source.raw, source.path), source.path)
+    metadata, columns, layout = read_table(decode(source.raw, source.path), source.path,
+                                           settings.decimal)
     if choose_kind(kind, settings, looks_like_map(columns)) == "map":
         return from_long_table(columns, source=source.path, sha256=source.sha256,
                                metadata=metadata, settings=settings)
     return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
-                       metadata=metadata)
+                       metadata=metadata, layout=layout)
 
 
 def decode(raw: bytes, source: str) -> str:
     """Text of a file, UTF-8 (with or without BOM) or else Latin-1."""
     if b"\x00" in raw[:4096]:
-        raise InputError(f"{source}: looks like a binary file, not delimited text")
+        from .registry import not_read_message
+
+        raise InputError(not_read_message(source, raw))
     try:
         return raw.decode("utf-8-sig")
     except UnicodeDecodeError:
@@ -63,19 +69,24 @@ def split_whitespace_header(line: str) -> list[str]:
     return merged
 
 
-def _delimiter(header: str) -> str | None:
-    for delim in (",", "\t", ";"):
-        if delim in header:
-            return delim
-    return None
-
-
 def _is_number(text: str) -> bool:
     try:
         float(text)
     except ValueError:
         return False
     return True
+
+
+def _next_line(text: str, pos: int) -> tuple[str | None, int]:
+    """The next line that is neither blank nor a comment, and where the one after starts."""
+    while pos < len(text):
+        end = text.find("\n", pos)
+        end = len(text) if end < 0 else end
+        stripped = text[pos:end].strip()
+        if stripped and not stripped.startswith("#"):
+            return text[pos:end], end + 1
+        pos = end + 1
+    return None, pos
 
 
 def _head(text: str, source: str) -> tuple[dict, int, str, int]:
@@ -97,7 +108,7 @@ def _head(text: str, source: str) -> tuple[dict, int, str, int]:
     raise InputError(f"{source}: the file is empty (no header row and no data)")
 
 
-def parse_table(text: str, source: str) -> tuple[dict, dict]:
+def parse_table(text: str, source: str, decimal: str | None = None) -> tuple[dict, dict]:
     """Parse metadata comments, the header and the numeric rows.
 
     Returns
@@ -110,10 +121,16 @@ def parse_table(text: str, source: str) -> tuple[dict, dict]:
         to the message naming the first cell that is not a number: only the
         columns a sweep uses must be numeric (a status column may hold words).
     """
+    metadata, columns, _ = read_table(text, source, decimal)
+    return metadata, columns
+
+
+def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict, dict, dict]:
+    """:func:`parse_table`, and what was found about the layout (decimal comma, units row)."""
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
     metadata, header_no, header, start = _head(text, source)
-    delim = _delimiter(header)
+    delim = regional.choose_delimiter(header, _next_line(text, start)[0])
     if delim is None:
         names = split_whitespace_header(header)
     else:
@@ -124,22 +141,37 @@ def parse_table(text: str, source: str) -> tuple[dict, dict]:
     if len(names) < 2:
         raise InputError(f"{source}: only one column ({names[0]!r}); a sweep needs a field "
                          "column and at least one critical-current column")
+    layout = {}
+    line, after = _next_line(text, start)
+    units = None if line is None else regional.units_row(line, delim, len(names))
+    if units is not None:
+        names = regional.join_units(names, units)
+        layout["units_row_line"] = header_no + text.count("\n", start, after - 1) + 1
+        # The units row is blanked in place, so line numbers still count.
+        text = text[:start] + "\n" * text.count("\n", start, after) + text[after:]
     if len(set(names)) < len(names):
         raise InputError(f"{source}: the header repeats a column name: {header!r}")
     body = text[start:]
     if "#" in body:
         body = _COMMENT_LINE.sub("", body)  # blanked, so line numbers still count
-    columns = _Rows(body, delim, names, source, header_no + 1).columns()
+    mark = regional.decimal_mark(body, delim, decimal, source, header_no + 1)
+    if mark == ",":
+        layout["decimal"] = ","
+    if mark == "," and delim == ",":  # rewritten as ';' between columns, '.' in numbers
+        body, delim = regional.pair_comma_decimals(body, len(names), source, header_no + 1), ";"
+        mark = "."
+    columns = _Rows(body, delim, names, source, header_no + 1, mark).columns()
     if all(isinstance(v, str) for v in columns.values()):
         raise InputError(next(iter(columns.values())))  # prose, not a table of numbers
-    return metadata, columns
+    return metadata, columns, layout
 
 
 class _Rows:
     """The rows after the header: parsed by pandas, checked against the file's lines."""
 
-    def __init__(self, body, delim, names, source, first_line):
+    def __init__(self, body, delim, names, source, first_line, decimal="."):
         self.body, self.delim, self.names, self.source = body, delim, names, source
+        self.decimal = decimal
         # Spaces around cells do not count; in a tab-separated file a tab is a cell boundary
         # even at the start of a line (an empty first cell), as pandas reads it.
         self.blank = " " if delim == "\t" else " \t"
@@ -156,6 +188,8 @@ class _Rows:
         options = dict(sep=r"\s+" if self.delim is None else self.delim, header=None,
                        engine="c", quoting=csv.QUOTE_NONE, skip_blank_lines=True,
                        skipinitialspace=True, keep_default_na=False)
+        if self.decimal == ",":
+            options.update(decimal=",")
         if width:  # safe only once every row is known to have at most this many cells
             options.update(names=list(range(width)), index_col=False)
         if as_text:
@@ -240,6 +274,9 @@ class _Rows:
                 cells = line.strip(self.blank).split(self.delim)
                 if len(cells) == n + 1 and not cells[-1].strip():
                     cells.pop()  # a trailing delimiter
+            if self.delim == "," and regional.looks_like_comma_decimals(cells, n):
+                raise InputError(regional.ambiguous_comma_message(self.source, number,
+                                                                  len(cells), n))
             if len(cells) != n:
                 raise InputError(f"{self.source}: line {number} has {len(cells)} fields but "
                                  f"the header has {n}; fix or delete that row")
@@ -249,7 +286,11 @@ class _Rows:
         import pandas as pd
 
         text = cells.astype(str).str.strip()
-        values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)
+        numbers = text
+        if self.decimal == ",":  # a decimal point is then not a number of this file
+            numbers = text.where(~text.str.contains(".", regex=False), "?").str.replace(
+                ",", ".", regex=False)
+        values = pd.to_numeric(numbers, errors="coerce").to_numpy(dtype=float)
         missing = text.str.strip('"').str.lower().isin(_MISSING).to_numpy()
         bad = np.flatnonzero(np.isnan(values) & ~missing)
         if bad.size == 0:

@@ -102,3 +102,43 @@ def coil_constant_T_per_A(text: str) -> float:
     if not value > 0:
         raise InputError(f"{where}: the coil constant must be positive")
     return value * per
+
+
+_VALUE_UNIT = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?P<unit>[A-Za-z\u00b5\u03bc\u03a9]*)\s*$")
+
+
+def parse_field_interval(text: str, option: str) -> tuple[float | None, float | None]:
+    """A field interval ``'LO:HI'`` in tesla: ``'-2:2mT'``, ``'-2mT:2.5mT'``, ``':1G'``.
+
+    A unit written on one end only applies to both; an empty end is open
+    (``None``). ``option`` names the command-line option in messages.
+    """
+    where = f"{option} {text!r}"
+    parts = str(text).split(":")
+    if len(parts) != 2 or not (parts[0].strip() or parts[1].strip()):
+        raise InputError(f"{where}: write it as LO:HI with a field unit, e.g. -2:2mT or "
+                         "-2mT:0.5mT (leave one end empty for an open interval)")
+    ends = []
+    for part in parts:
+        part = part.strip()
+        if not part:
+            ends.append((None, ""))
+            continue
+        match = _VALUE_UNIT.match(part)
+        try:
+            value = float(match.group("value")) if match else None
+        except ValueError:
+            value = None
+        if value is None:
+            raise InputError(f"{where}: {part!r} is not a number with a field unit; write "
+                             "e.g. -2:2mT")
+        ends.append((value, match.group("unit")))
+    units = {u for _, u in ends if u}
+    if not units:
+        raise InputError(f"{where}: give the field unit, e.g. -2:2mT ({FIELD_UNIT_HELP})")
+    shared = units.pop() if len(units) == 1 else None  # two units: each end has its own
+    lo, hi = (None if value is None else value * field_factor(unit or shared, where)
+              for value, unit in ends)
+    if lo is not None and hi is not None and not lo < hi:
+        raise InputError(f"{where}: the low end must be below the high end")
+    return lo, hi

@@ -9,6 +9,7 @@ import base64
 import html
 
 from .display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
+from .summary import branch_words, flag_words, hysteresis_lines, layout_lines
 
 _CSS = """
 body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; color: #1a1a1a;
@@ -55,7 +56,7 @@ def _headline_rows(fits) -> str:
         funit = pick_unit(fit.period_T or fit.best_params.get("period_T") or 1e-3, FIELD_UNITS)
         cunit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
         cells = [
-            fit.branch,
+            branch_words(fit.branch, fit.segment).removesuffix(" branch"),
             format_measure(fit.period_T, fit.period_stderr_T, FIELD_UNITS, funit),
             format_measure(fit.effective_area_m2, fit.effective_area_stderr_m2, AREA_UNITS),
             format_measure(fit.field_offset_T, fit.field_offset_stderr_T, FIELD_UNITS, funit),
@@ -74,7 +75,7 @@ def _headline_rows(fits) -> str:
             + "".join(rows) + "</table>")
 
 
-def _flags(flags) -> str:
+def _flags(flags, fits=()) -> str:
     if not flags:
         return "<p>No flags: the pattern is consistent with the model within the noise.</p>"
     out = []
@@ -82,7 +83,7 @@ def _flags(flags) -> str:
         evidence = ", ".join(f"{esc(k)} = {esc(v)}" for k, v in f.evidence.items())
         out.append(
             f'<div class="flag {esc(f.severity)}"><code>{esc(f.code)}</code> '
-            f"<span>({esc(f.severity)}, {esc(f.branch)} branch)</span>"
+            f"<span>({esc(f.severity)}, {esc(flag_words(f, fits))})</span>"
             f"<p>{esc(f.message)}</p><p class=evidence>Evidence: {evidence}</p></div>")
     return "".join(out)
 
@@ -146,7 +147,22 @@ def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
         f"<p class=meta>Model: {esc(result.fits[0].model)} junction. "
         "Uncertainties are one standard error. Effective area = Φ0 / period. "
         "Reduced χ² is against the point-to-point noise of the data.</p></section>",
-        '<section id="flags"><h2>Diagnostic flags</h2>', _flags(result.flags), "</section>",
+    ]
+    reading = layout_lines(result.input)
+    if reading:
+        parts += ['<section id="reading"><h2>How the file was read</h2>',
+                  "".join(f"<p>{esc(line)}</p>" for line in reading), "</section>"]
+    parts += [
+        '<section id="flags"><h2>Diagnostic flags</h2>', _flags(result.flags, result.fits),
+        "</section>",
+    ]
+    hysteresis = hysteresis_lines(getattr(result, "field_hysteresis", None))
+    if hysteresis:
+        parts += ['<section id="hysteresis"><h2>Field hysteresis</h2>',
+                  "<p>Each sweep of the field against the one before it (second minus, or "
+                  "over, first; one standard error).</p><ul>",
+                  "".join(f"<li>{esc(line)}</li>" for line in hysteresis), "</ul></section>"]
+    parts += [
         '<section id="pattern"><h2>Pattern, fit and residuals</h2>',
         _figure(pattern_png, "Critical current against applied field (bottom axis) and "
                 "flux Φ/Φ0 (top axis), with the fit and its residuals.", files["pattern"]),

@@ -11,6 +11,7 @@ from .display import (
     format_measure,
     pick_unit,
 )
+from .summary import branch_words, sweep_words
 
 REFERENCES = {
     "lm": "K. Levenberg, Q. Appl. Math. 2, 164 (1944); D. W. Marquardt, J. Soc. Ind. Appl. "
@@ -57,6 +58,71 @@ def _extraction_text(ex: dict, cited) -> str:
     return text
 
 
+def _and(words) -> str:
+    """``'a'``, ``'a and b'``, ``'a, b and c'``."""
+    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
+
+
+def _field(value_T) -> str:
+    return format_measure(value_T, None, FIELD_UNITS, digits=4)
+
+
+def _reading_text(result) -> list[str]:
+    """Sentences on the field window, signed columns, sweep directions and duplicates."""
+    read = result.settings.read
+    layout = result.input.get("layout") or {}
+    window = layout.get("field_window") or {}
+    out = []
+    if read.field_range_T:
+        lo, hi = read.field_range_T
+        where = (f"between {_field(lo)} and {_field(hi)}" if lo is not None and hi is not None
+                 else f"above {_field(lo)}" if lo is not None else f"below {_field(hi)}")
+        count = window.get("points_outside_range")
+        out.append(f"Only points with the applied field {where} were analysed"
+                   + (f" ({count} points outside were left out)." if count is not None
+                      else "."))
+    if read.exclude_T:
+        spans = ", ".join(f"{_field(lo)} to {_field(hi)}" for lo, hi in read.exclude_T)
+        count = window.get("points_excluded")
+        out.append(f"Points with the field from {spans} were excluded by hand"
+                   + (f" ({count} points)." if count is not None else "."))
+    for signed in layout.get("signed_columns", []):
+        zero = signed["zero_rows_set_aside"]
+        text = (f"Positive and negative critical currents recorded in one signed column "
+                f"({signed['column']}) were separated by their sign"
+                + (f"; {zero} readings of zero were set aside" if zero else ""))
+        for side in ("positive", "negative"):
+            if signed.get(f"{side}_rows_set_aside"):
+                text += (f"; the {signed[f'{side}_rows_set_aside']} {side} readings were too "
+                         "few to fit and were set aside")
+        out.append(text + ".")
+    if layout.get("segments"):
+        names = ", ".join(dict.fromkeys(s["segment"] for s in layout["segments"]))
+        aside = layout.get("points_in_short_reversals")
+        out.append(f"The field was swept in both directions ({names}); each sweep was fitted "
+                   "separately"
+                   + (f", and {aside} points recorded while the field briefly turned back were "
+                      "set aside." if aside else "."))
+    for pair in (result.field_hysteresis or {}).get("pairs", []):
+        if pair.get("offset_shift_T") is None:
+            continue
+        text = (f"For the {pair['branch']} branch the field offset of the "
+                f"{sweep_words(pair['second'])} differs from that of the "
+                f"{sweep_words(pair['first'])} by "
+                + format_measure(pair["offset_shift_T"], pair["offset_shift_stderr_T"],
+                                 FIELD_UNITS))
+        if pair.get("period_ratio") is not None:
+            ratio = format_measure(pair["period_ratio"], pair["period_ratio_stderr"],
+                                   (("", 1.0),), ("", 1.0)).strip()
+            text += f", and the ratio of the periods is {ratio}"
+        out.append(text + ".")
+    merged = result.input.get("duplicates_merged") or 0
+    if merged and result.extraction is None:
+        out.append(f"{merged} points at a field already measured in the same branch and sweep "
+                   "direction were averaged with it.")
+    return out
+
+
 def _fit_numbers(fit) -> str:
     funit = pick_unit(fit.period_T, FIELD_UNITS)
     cunit = pick_unit(fit.ic_max_A, CURRENT_UNITS)
@@ -91,10 +157,18 @@ def methods_paragraph(result, field_calibration: str) -> str:
     spec = get_model(fits[0].model)
     model = spec.methods_text + "".join(f" [{key}]" for key in spec.references)
     cited += list(spec.references)
-    branches = " and ".join(f.branch for f in fits)
+    segments = list(dict.fromkeys(f.segment for f in fits if f.segment))
+    polarities = list(dict.fromkeys(branch_words(f.branch, f.segment).split()[0]
+                                    for f in fits))
+    branches = " and ".join(polarities)
+    if segments:
+        branches += (f" branch{'es' if len(polarities) > 1 else ''} of each sweep of the field "
+                     f"({', '.join(s for s in segments)})")
+    else:
+        branches += f" branch{'es' if len(fits) > 1 else ''}"
     floor = any(f.node_floor_A is not None for f in fits)
     out.append(
-        f"The {branches} branch{'es were each' if len(fits) > 1 else ' was'} fitted with "
+        f"The {branches} {'were each' if len(fits) > 1 else 'was'} fitted with "
         f"{model}, where "
         "Phi = (B - B0) A_eff"
         + (", combined in quadrature with a constant node floor" if floor else "")
@@ -115,10 +189,10 @@ def methods_paragraph(result, field_calibration: str) -> str:
         if fit.period_T is None:
             codes = ", ".join(f.code for f in result.flags if f.branch == fit.branch
                               and f.severity == "error")
-            out.append(f"For the {fit.branch} branch no period could be identified "
-                       f"({codes}).")
+            out.append(f"For the {branch_words(fit.branch, fit.segment)} no period could be "
+                       f"identified ({codes}).")
             continue
-        sentence = (f"For the {fit.branch} branch ({fit.points_used} points, "
+        sentence = (f"For the {branch_words(fit.branch, fit.segment)} ({fit.points_used} points, "
                     f"{fit.lobes_observed} lobes in the window) we obtain {_fit_numbers(fit)}")
         if fit.field_offset_T is None:
             sentence += ("; the field offset and Ic0 are not given because the main lobe lies "
@@ -128,6 +202,7 @@ def methods_paragraph(result, field_calibration: str) -> str:
     outliers = sum(f.points_downweighted for f in fits)
     if dropped and result.extraction is None:
         out.append(f"{dropped} points with missing values were excluded.")
+    out += _reading_text(result)
     if outliers:
         out.append(f"{outliers} points lay more than four noise units from the fit and were "
                    "down-weighted by the robust loss.")
@@ -145,7 +220,7 @@ def methods_paragraph(result, field_calibration: str) -> str:
                    "J(x) and J(-x) cannot be told apart")
             cited.append("fienup")
         cited.append("df")
-        names = " and ".join(b for b, _ in items)
+        names = _and([b for b, _ in items])
         first = items[0][1]
         edges = ", ".join(f"{d['edge_fraction']:.3f} ({b})" for b, d in items)
         plural = len(items) > 1

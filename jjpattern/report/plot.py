@@ -50,13 +50,19 @@ def pattern_figure(fits, title: str = ""):
         layout="constrained",
     )
     for fit in fits:
-        colour = BRANCH_COLOURS.get(fit.branch, "#009E73")
-        top.plot(fit.field_T / ffac, fit.ic_A / cfac, ".", ms=3, color=colour,
-                 label=f"{fit.branch} branch")
+        # Colour by polarity; a sweep back down gets open markers and a dashed fit.
+        colour = BRANCH_COLOURS.get(fit.branch.split()[0], "#009E73")
+        back = getattr(fit, "segment", "").startswith("down")
+        marker = dict(marker="o", ms=2.5, mfc="none", mew=0.6) if back else dict(marker=".",
+                                                                                  ms=3)
+        top.plot(fit.field_T / ffac, fit.ic_A / cfac, ls="none", color=colour,
+                 label=f"{fit.branch} branch", **marker)
         if fit.best_params:
             dense = np.linspace(fit.field_min_T, fit.field_max_T, 4000)
-            top.plot(dense / ffac, fit.model_A(dense) / cfac, "-", lw=1.0, color=FIT_COLOUR)
-            bottom.plot(fit.field_T / ffac, fit.residual_A() / cfac, ".", ms=2, color=colour)
+            top.plot(dense / ffac, fit.model_A(dense) / cfac, "--" if back else "-", lw=1.0,
+                     color=FIT_COLOUR)
+            bottom.plot(fit.field_T / ffac, fit.residual_A() / cfac, ls="none", color=colour,
+                        **marker)
     top.plot([], [], "-", color=FIT_COLOUR, lw=1.0, label=f"fit ({fits[0].model})")
     bottom.axhline(0.0, color="#888888", lw=0.8)
     top.set_ylabel(f"critical current ({cunit})")

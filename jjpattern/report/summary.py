@@ -13,6 +13,107 @@ from .display import (
 )
 
 
+def sweep_words(segment: str) -> str:
+    """``'up sweep'``, ``'down sweep'``, ``'up sweep 2'``; ``''`` for a one-way sweep."""
+    direction, _, number = (segment or "").partition(" ")
+    return f"{direction} sweep" + (f" {number}" if number else "") if direction else ""
+
+
+def branch_words(branch: str | None, segment: str = "") -> str:
+    """``'positive branch'``, or ``'positive branch, up sweep'`` for a fit of one segment."""
+    if branch is None:
+        return "both branches" + (f", {sweep_words(segment)}" if segment else "")
+    polarity = branch.removesuffix(f" {segment}") if segment else branch
+    return f"{polarity} branch" + (f", {sweep_words(segment)}" if segment else "")
+
+
+def flag_words(flag, fits) -> str:
+    """Where a flag applies, in words (branch and sweep)."""
+    segments = {f.branch: f.segment for f in fits}
+    segment = segments.get(flag.branch) or flag.evidence.get("segment") or ""
+    return branch_words(flag.branch, segment)
+
+
+_PLAIN = (("", 1.0),)
+
+
+def _length(value_T) -> str:
+    return format_measure(value_T, None, FIELD_UNITS, digits=4)
+
+
+def layout_lines(info: dict) -> list[str]:
+    """Sentences on how the file was laid out and what reading did (the ``layout`` block)."""
+    layout = info.get("layout") or {}
+    out = []
+    how = []
+    if layout.get("container"):
+        how.append(f"read as {layout['container']}"
+                   + (f" (group {layout['group']})" if layout.get("group") else ""))
+    elif layout.get("group"):
+        how.append(f"read from group {layout['group']}")
+    if layout.get("decimal") == ",":
+        how.append("numbers written with a decimal comma")
+    if layout.get("units_row_line"):
+        how.append(f"units taken from the row under the names (line {layout['units_row_line']})")
+    if how:
+        text = "; ".join(how)
+        out.append(text[0].upper() + text[1:] + ".")
+    for signed in layout.get("signed_columns", []):
+        text = (f"Column {signed['column']!r} holds both polarities: "
+                f"{signed['positive_rows']} positive and {signed['negative_rows']} negative "
+                "rows, fitted as two branches")
+        aside = signed["zero_rows_set_aside"]
+        text += f"; {aside} rows reading zero set aside" if aside else ""
+        for side in ("positive", "negative"):
+            if signed.get(f"{side}_rows_set_aside"):
+                text += (f"; the {signed[f'{side}_rows_set_aside']} {side} rows, too few to "
+                         "fit, set aside")
+        out.append(text + ".")
+    segments = layout.get("segments")
+    if segments:
+        names = ", ".join(dict.fromkeys(s["segment"] for s in segments))
+        out.append(f"The field was swept both ways ({names}); each sweep is fitted on its own.")
+    if layout.get("points_in_short_reversals"):
+        out.append(f"{layout['points_in_short_reversals']} points measured while the field "
+                   "briefly turned back (too few to fit) set aside.")
+    window = layout.get("field_window")
+    if window:
+        if window.get("field_range_T"):
+            lo, hi = window["field_range_T"]
+            ends = (f"from {_length(lo)}" if lo is not None else "") + (
+                f"{' ' if lo is not None else ''}up to {_length(hi)}" if hi is not None else "")
+            out.append(f"Field range {ends}: {window['points_outside_range']} points outside "
+                       "left out.")
+        for lo, hi in window.get("exclude_T", []):
+            out.append(f"Excluded by hand: {_length(lo)} to {_length(hi)}.")
+        if window.get("exclude_T"):
+            out.append(f"{window['points_excluded']} points lay in the excluded intervals.")
+    if layout.get("duplicates_averaged"):
+        out.append(layout["duplicates_averaged"][0].upper() + layout["duplicates_averaged"][1:]
+                   + ".")
+    return out
+
+
+def hysteresis_lines(block: dict | None) -> list[str]:
+    """One line per pair of sweeps compared (second against first, as swept)."""
+    if not block:
+        return []
+    out = []
+    for pair in block["pairs"]:
+        shift = format_measure(pair["offset_shift_T"], pair["offset_shift_stderr_T"],
+                               FIELD_UNITS)
+        parts = [f"offset shift {shift}"]
+        if pair.get("offset_shift_periods") is not None:
+            parts[-1] += f" ({pair['offset_shift_periods']:+.3f} periods)"
+        for key, name in (("period_ratio", "period ratio"), ("ic0_ratio", "Ic0 ratio")):
+            if pair.get(key) is not None:
+                plain = format_measure(pair[key], pair[f"{key}_stderr"], _PLAIN, _PLAIN[0])
+                parts.append(f"{name} {plain.strip()}")
+        out.append(f"{pair['branch']} branch, {sweep_words(pair['second'])} against "
+                   f"{sweep_words(pair['first'])}: " + ", ".join(parts))
+    return out
+
+
 def _fit_lines(fit) -> list[str]:
     scale = fit.period_T or fit.best_params.get("period_T") or abs(fit.field_max_T)
     field_unit = pick_unit(scale, FIELD_UNITS)
@@ -39,7 +140,7 @@ def _fit_lines(fit) -> list[str]:
         rows.append(("robust loss", f"{fit.loss}, {fit.points_downweighted} points "
                                     "down-weighted"))
     width = max(len(k) for k, _ in rows)
-    head = f"{fit.branch} branch, {fit.model} model"
+    head = f"{branch_words(fit.branch, fit.segment)}, {fit.model} model"
     return [head] + [f"  {k.ljust(width)}  {v}" for k, v in rows]
 
 
@@ -88,14 +189,17 @@ def render_summary(result) -> str:
         f"  {info['points_used']} points used, {info['points_dropped']} non-finite dropped, "
         f"{info['duplicates_merged']} duplicate fields averaged"
     )
+    lines.extend(f"  {line}" for line in layout_lines(info))
     if result.extraction is not None:
         lines.extend(_extraction_lines(result))
     for fit in result.fits:
         lines.append("")
         lines.extend(_fit_lines(fit))
+    segments = {f.branch: f.segment for f in result.fits}
     for branch, d in result.current_density.items():
         lines.append("")
-        lines.append(f"current density, {branch} branch ({d['method']}, resolution "
+        lines.append(f"current density, {branch_words(branch, segments.get(branch, ''))} "
+                     f"({d['method']}, resolution "
                      f"{d['resolution_over_length']:.3f} L)")
         lines.append(f"  edge fraction {d['edge_fraction']:.3f} (outer 10 % each side; 0.2 for "
                      f"uniform), centre of mass {d['centre_of_mass_over_length']:+.3f} L")
@@ -104,6 +208,11 @@ def render_summary(result) -> str:
         lines.append("geometry and materials")
         for name, text in derived_rows(result.geometry):
             lines.append(f"  {name}: {text}")
+    hysteresis = hysteresis_lines(getattr(result, "field_hysteresis", None))
+    if hysteresis:
+        lines.append("")
+        lines.append("field hysteresis (each sweep against the one before it)")
+        lines.extend(f"  {line}" for line in hysteresis)
     flags = result.flags
     lines.append("")
     if not flags:
@@ -111,6 +220,6 @@ def render_summary(result) -> str:
     else:
         lines.append("flags:")
         for flag in flags:
-            where = f"{flag.branch} branch" if flag.branch else "both branches"
+            where = flag_words(flag, result.fits)
             lines.append(f"  [{flag.severity}] {flag.code} ({where}): {flag.message}")
     return "\n".join(lines)

@@ -1,0 +1,128 @@
+"""MATLAB ``.mat`` files: v5 through scipy.io, v7.3 (HDF5 after a 512-byte header) by h5py.
+
+Variables are read from the bytes already read. Vectors (1 x n or n x 1) are
+columns named like those of a text file (``B_mT``, ``Ic_uA``); struct fields
+count as variables named ``scan.B_mT``; text and 1 x 1 numbers become
+metadata (``junction = 'KT14-J03'``, ``temperature_K = 0.3``). A 2-D
+``V``/``voltage`` or ``dVdI`` with field and bias vectors is a raw map, as in
+MATLAB's orientation (n_field x n_bias, or transposed).
+"""
+
+from __future__ import annotations
+
+import io
+
+import numpy as np
+
+from ..errors import InputError
+from .containers import from_named_arrays
+
+NAME = "matlab"
+HEADER = b"MATLAB "
+SUFFIXES = (".mat",)
+_MAX_DEPTH = 4  # struct nesting followed
+
+
+def sniff(source) -> bool:
+    """The text header every .mat file starts with, or the suffix."""
+    return not source.is_folder and (source.raw.startswith(HEADER)
+                                     or source.suffix in SUFFIXES)
+
+
+def read(source, settings, kind: str = "auto"):
+    """A Sweep or an IVMap from the variables of a .mat file."""
+    head = source.raw[:128]
+    hdf5 = b"\x89HDF\r\n\x1a\n"
+    if b"MATLAB 7.3" in head or hdf5 in (source.raw[:8], source.raw[512:520]):
+        arrays, metadata = _v73(source)
+        version = "7.3"
+    else:
+        arrays, metadata = _v5(source)
+        version = "5"
+    return from_named_arrays(arrays, source=source.path, sha256=source.sha256,
+                             settings=settings, kind=kind, sep=".",
+                             what=f"the MATLAB v{version} file", metadata=metadata,
+                             option_names=("variable", "name (struct fields as scan.B_mT)"),
+                             layout={"container": f"MATLAB v{version}"})
+
+
+def _v5(source):
+    from scipy.io import loadmat
+
+    try:
+        data = loadmat(io.BytesIO(source.raw), simplify_cells=True)
+    except NotImplementedError:  # scipy says "use HDF reader" for v7.3 without the header
+        return _v73(source)
+    except (ValueError, TypeError, OSError) as exc:
+        raise InputError(f"{source.path}: not a readable MATLAB .mat file ({exc})") from None
+    arrays: dict[str, np.ndarray] = {}
+    metadata: dict[str, str] = {}
+    for name, value in data.items():
+        if not name.startswith("__"):
+            _walk_v5(name, value, arrays, metadata, 0)
+    return arrays, metadata
+
+
+def _walk_v5(name, value, arrays, metadata, depth):
+    if isinstance(value, dict):
+        if depth < _MAX_DEPTH:
+            for key, item in value.items():
+                _walk_v5(f"{name}.{key}", item, arrays, metadata, depth + 1)
+        return
+    if isinstance(value, str):
+        metadata[name] = value
+        return
+    if isinstance(value, (int, float, np.number)) and not isinstance(value, bool):
+        metadata[name] = str(value)
+        return
+    if isinstance(value, np.ndarray) and value.dtype.kind in "iuf" and value.size:
+        if value.size == 1:
+            metadata[name] = str(value.reshape(-1)[0])
+        elif value.ndim <= 2:
+            arrays[name] = value.astype(float, copy=False)
+
+
+def _v73(source):
+    import h5py
+
+    try:
+        handle = h5py.File(io.BytesIO(source.raw), "r")
+    except (OSError, ValueError) as exc:
+        raise InputError(f"{source.path}: not a readable MATLAB v7.3 file "
+                         f"({exc.__class__.__name__})") from None
+    arrays: dict[str, np.ndarray] = {}
+    metadata: dict[str, str] = {}
+    with handle:
+        _walk_v73(handle, "", arrays, metadata, 0)
+    return arrays, metadata
+
+
+def _class(obj) -> str:
+    value = obj.attrs.get("MATLAB_class", b"")
+    return value.decode("ascii", "replace") if isinstance(value, bytes) else str(value)
+
+
+def _walk_v73(group, prefix, arrays, metadata, depth):
+    import h5py
+
+    for key, obj in group.items():
+        if key.startswith("#"):  # '#refs#', '#subsystem#': MATLAB's own storage
+            continue
+        name = f"{prefix}{key}"
+        if isinstance(obj, h5py.Group):
+            if depth < _MAX_DEPTH:
+                _walk_v73(obj, f"{name}.", arrays, metadata, depth + 1)
+            continue
+        cls = _class(obj)
+        if "MATLAB_empty" in obj.attrs or obj.dtype.kind not in "iuf":
+            continue
+        values = obj[()]
+        if cls == "char":
+            metadata[name] = "".join(map(chr, np.asarray(values).T.reshape(-1)))
+        elif cls in ("cell", "struct", "logical") or values.size == 0:
+            continue
+        elif values.size == 1:
+            metadata[name] = str(np.asarray(values).reshape(-1)[0])
+        elif values.ndim <= 2:
+            # HDF5 holds MATLAB's column-major arrays transposed: back to MATLAB's rows.
+            arrays[name] = np.asarray(values, dtype=float).T
