@@ -114,7 +114,7 @@ UNITLESS = {"chip", "junction", "cooldown", "branch", "status", "error", "flags"
             "lobes_observed", "nodes_observed", "points_used", "points_downweighted", "loss",
             "uncertainty", "asymmetry", "asymmetry_stderr", "input_sha256", "settings_sha256",
             "length_over_josephson_depth", "length_over_josephson_depth_stderr",
-            "london_depth_assumption", "icrn_over_ab"}
+            "london_depth_assumption", "icrn_over_ab", "segment"}
 UNITS = ("_m", "_m2", "_T", "_A", "_A_m2", "_V", "_ohm", "_J", "_K")
 
 
