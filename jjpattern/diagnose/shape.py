@@ -201,13 +201,14 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
     # A MAD-based noise from n values has a relative standard error of about 1.17/sqrt(n)
     # (its efficiency against the standard deviation is 37 %; common practice).
     null_err = (null - criterion_floor_A if folded else 0.0) * 1.17 / np.sqrt(max(used, 1))
-    # The floor rests on the few points at the nodes; where they scatter more than the
-    # noise the fit assumed for every point (extraction near a node), its error grows so.
+    # The floor rests on the few points at the nodes, its standard error on the scatter
+    # of all residuals (the covariance is scaled by them); where the points at the nodes
+    # scatter more (critical currents extracted near a node), its error grows so.
     near = curve < 3.0 * (fit.node_floor_A + fit.noise_A)
     spread = 1.0
-    if near.sum() >= 3:
+    if near.sum() >= 3 and fit.residual_rms_A:
         left = y[near] - fit.model_A(x[near])
-        spread = max(1.0, float(np.sqrt(np.mean(left**2))) / fit.noise_A)
+        spread = max(1.0, float(np.sqrt(np.mean(left**2))) / fit.residual_rms_A)
     err = float(np.hypot(spread * fit.node_floor_stderr_A, null_err))
     excess = fit.node_floor_A - null
     return {
