@@ -20,6 +20,7 @@ from ..io.maps import IVMap
 from ..io.sweep import MIN_POINTS, Branch, Sweep
 from ..sampling import tidy
 from . import criteria as cr
+from .hysteresis import retrapping_summary
 from .registry import (  # noqa: F401 (the defaults are part of this module's interface)
     DVDI_FRACTION,
     RESISTANCE_FRACTION,
@@ -52,6 +53,8 @@ class BranchExtraction:
     #: Per row: the bias step / sqrt(12) where the step is not resolved, else the
     #: noise propagated through the onset (see :mod:`.onset`); NaN where censored.
     ic_uncertainty_A: np.ndarray | None = None
+    #: Retrapping at the main lobe and the beta_c estimate (:mod:`.hysteresis`).
+    retrapping: dict | None = None
 
     def counts(self) -> dict:
         values, counts = np.unique(self.status, return_counts=True)
@@ -133,7 +136,8 @@ class Extraction:
         out["field_T"] = self.field_T
         out["branches"] = [
             {**summary, "ic_A": b.ic_A, "status": [str(v) for v in b.status],
-             "retrap_A": b.retrap_A, "ic_uncertainty_A": b.ic_uncertainty_A}
+             "retrap_A": b.retrap_A, "ic_uncertainty_A": b.ic_uncertainty_A,
+             **(b.retrapping or {})}
             for summary, b in zip(s["branches"], self.branches, strict=True)]
         out["methods_text"] = text
         out["methods_references"] = refs
@@ -176,8 +180,14 @@ def extraction_table_csv(block: dict) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _ratio(b) -> float | None:
+    """Retrapping over switching at the main lobe, else over every row."""
+    lobe = (b.retrapping or {}).get("retrapping_over_switching_main_lobe")
+    return lobe if lobe is not None else b.retrapping_ratio
+
+
 def _hysteretic(branches) -> bool:
-    ratios = [b.retrapping_ratio for b in branches if b.retrapping_ratio is not None]
+    ratios = [_ratio(b) for b in branches if _ratio(b) is not None]
     return bool(ratios) and min(ratios) < HYSTERESIS_RATIO
 
 
@@ -250,6 +260,9 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
             name, crit, quantity, level, bias, cr.select(bias, part, dense),
             cr.select(bias, lambda b, p=part: p(b, out=False), dense),
             crit.quantity_noise(data)))
+    for b in branches:
+        if b.source == "switching":
+            b.retrapping = retrapping_summary(field_T, b.ic_A, b.retrap_A)
     result = Extraction(ivmap, field_T, branches, crit.name, info, offset, noise, rn,
                         int((~keep).sum()))
     result.flags = _flags(result)
@@ -299,10 +312,13 @@ def _flags(result: Extraction) -> list:
         if censored:
             flags.append(make_flag("censored-rows", b.name, **censored,
                                    rows=int(result.field_T.size)))
-        if b.retrapping_ratio is not None and b.retrapping_ratio < HYSTERESIS_RATIO:
-            flags.append(make_flag("hysteretic", b.name,
-                                   retrapping_over_switching=round(b.retrapping_ratio, 4),
-                                   threshold=HYSTERESIS_RATIO))
+        if _ratio(b) is not None and _ratio(b) < HYSTERESIS_RATIO:
+            lobe = {k: (round(v, 4) if isinstance(v, float) else v)
+                    for k, v in (b.retrapping or {}).items() if k != "beta_c_method"}
+            flags.append(make_flag("hysteretic", b.name, threshold=HYSTERESIS_RATIO,
+                                   retrapping_over_switching=(
+                                       None if b.retrapping_ratio is None
+                                       else round(b.retrapping_ratio, 4)), **lobe))
         if b.source == "return-sweep":
             flags.append(make_flag("return-sweep-branch", b.name,
                                    fitted=not _hysteretic(result.branches)))
