@@ -157,19 +157,21 @@ def test_to_dict_is_json_ready_and_gives_the_table():
     ivmap, ic = _map(rng, n_field=41, n_bias=801, i_max=7e-6)
     ex = extract(ivmap)
     block = ex.to_dict()
-    assert list(block) == ["criterion", "threshold", "signal", "layout", "map_shape",
-                           "amplifier_offset_V", "zero_branch_noise_V",
-                           "normal_resistance_ohm", "rows_skipped", "field_T", "branches",
-                           "methods_text", "methods_references"]
+    assert list(block)[:13] == ["criterion", "threshold", "signal", "layout", "map_shape",
+                                "amplifier_offset_V", "zero_branch_noise_V",
+                                "normal_resistance_ohm", "rows_skipped", "field_T",
+                                "branches", "methods_text", "methods_references"]
     text = json.dumps(block, allow_nan=False)
     assert len(text) < ivmap.signal.size  # the raw map (41 x 801 numbers) is not in it
     assert block["amplifier_offset_V"] == pytest.approx(2e-6, abs=0.05e-6)
     pos = block["branches"][0]
-    assert list(pos) == ["branch", "source", "status_counts", "retrapping_over_switching",
-                         "ic_A", "status", "retrap_A"]
+    assert list(pos)[:7] == ["branch", "source", "status_counts", "retrapping_over_switching",
+                             "ic_A", "status", "retrap_A"]
     ok = ex.branches[0].status == "ok"
     assert 0 < ok.sum() < ok.size
     assert [v is None for v in pos["ic_A"]] == (~ok).tolist()
+    # Each kept row carries an uncertainty; censored rows none.
+    assert [v is None for v in pos["ic_uncertainty_A"]] == (~ok).tolist()
     assert np.array_equal(np.array(pos["ic_A"], dtype=float), ex.branches[0].ic_A,
                           equal_nan=True)
     assert pos["status_counts"]["above-max"] == int((ic > 7.1e-6).sum())
@@ -183,12 +185,17 @@ def test_to_dict_is_json_ready_and_gives_the_table():
 @pytest.mark.parametrize(("kind", "criterion", "threshold", "sentence", "refs"), [
     ("voltage", "voltage", 2.5e-7,
      "as the first bias current, on sweeps away from zero bias, at which |V - V0| exceeded "
-     "0.25 \u00b5V (given), interpolated linearly between the two straddling points; the "
-     "amplifier offset V0 was estimated in each field row as the median voltage near zero "
-     "bias and removed.", []),
+     "0.25 \u00b5V (given), read on the square-root onset of the resistively shunted "
+     "junction (V^2 linear in I^2 through the first three points above the level), or the "
+     "middle of the bias step where the voltage jumps; the amplifier offset V0 was "
+     "estimated in each field row as the median voltage near zero bias and removed. Each "
+     "critical current carries the bias step / sqrt(12) where the step is not resolved, and "
+     "otherwise the voltage noise propagated through that line [rsj].", ["rsj"]),
     ("voltage", "resistance", 0.1,
      "as the first bias current at which V/I exceeded 0.1 Rn, with Rn from a linear fit of "
-     "the high-bias part of each I-V curve.", []),
+     "the high-bias part of each I-V curve, read on the onset of the resistively shunted "
+     "junction ((V/I)^2 linear in 1/I^2 through the first three points above the level).",
+     []),
     ("voltage", "dvdi-threshold", 6.0,
      "as the first bias current at which dV/dI exceeded 6 ohm. dV/dI was computed with a "
      "7-point quadratic Savitzky-Golay derivative [sg].", ["sg"]),
@@ -206,7 +213,8 @@ def test_methods_text_states_the_criterion_and_level(kind, criterion, threshold,
                                      f"{what} map {sentence}")
     assert list(block["methods_references"]) == refs
     if refs:
-        assert "Savitzky" in block["methods_references"]["sg"]
+        assert ("Savitzky" if refs == ["sg"] else "McCumber") in block["methods_references"][
+            refs[0]]
 
 
 def test_only_criteria_that_use_rn_need_it():

@@ -10,9 +10,17 @@ import numpy as np
 
 from ..flags import make_flag
 
-#: A node floor (beyond what the extraction criterion itself adds) this many standard
-#: errors above zero means lifted nodes.
-FLOOR_SIGMAS = 5.0
+#: A node floor this many standard errors above the floor that true zeros measured as
+#: magnitudes would give (folded noise, and the extraction criterion's own) means lifted
+#: nodes.
+FLOOR_SIGMAS = 4.0
+#: Points whose curve stays above this many noise units cannot fold: their noise is
+#: the noise that folds at the nodes.
+FLOOR_CLEAR = 2.0
+#: Fewest points away from the nodes for a noise estimate of their own.
+FLOOR_MIN_POINTS = 30
+#: MAD to standard deviation for Gaussian noise.
+_MAD = 1.482602218505602
 #: Mirror differences about the pattern centre: reduced chi-square above this is asymmetry.
 MIRROR_REDCHI = 2.0
 #: Central dip: the centre must lie this many noise units below the nearby maximum ...
@@ -129,12 +137,98 @@ def side_lobe_ratio(fit, max_lobes=4):
     return float(np.mean(ratios)), err, int(ratios.size)
 
 
-def lifted_floor_A(fit, criterion_floor_A=0.0) -> float | None:
-    """The node floor beyond the criterion's own, when significant; else ``None``."""
-    if fit.node_floor_A is None or not fit.node_floor_stderr_A:
+def folded_mean(m, sigma):
+    """Mean of ``|m + e|`` for Gaussian ``e`` of standard deviation ``sigma`` (folded normal).
+
+    ``sigma sqrt(2/pi)`` at ``m = 0``, ``|m|`` far from it (Leone, Nelson and
+    Nottingham, Technometrics 3, 543 (1961)).
+    """
+    from scipy import special
+
+    m = np.abs(np.asarray(m, dtype=float))
+    z = m / sigma
+    return sigma * np.sqrt(2.0 / np.pi) * np.exp(-0.5 * z**2) + m * special.erf(z / np.sqrt(2.0))
+
+
+def _noise_off_nodes(x, y, curve, noise):
+    """Point-to-point noise from points whose curve and neighbours stay clear of the nodes.
+
+    The same neighbour-line residual as the fit's noise estimate, but where the
+    magnitude cannot fold: near the nodes folding narrows the spread, which would
+    understate the noise that folds. Returns ``(noise, points used)``.
+    """
+    gap = x[2:] - x[:-2]
+    w = (x[2:] - x[1:-1]) / gap
+    z = (y[1:-1] - (w * y[:-2] + (1.0 - w) * y[2:])) / np.sqrt(1.0 + w**2 + (1.0 - w) ** 2)
+    clear = np.minimum(np.minimum(curve[:-2], curve[1:-1]), curve[2:]) > FLOOR_CLEAR * noise
+    z = z[clear]
+    if z.size < FLOOR_MIN_POINTS:
+        return noise, int(z.size)
+    return float(_MAD * np.median(np.abs(z - np.median(z)))), int(z.size)
+
+
+def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
+    """The fitted node floor against the floor true zeros would give; ``None`` without a floor.
+
+    Null hypothesis: the nodes are true zeros (or the criterion's own floor in
+    quadrature) and each point is measured as a magnitude, ``|Ic + noise|``, so
+    near a node its mean is the folded normal's (:func:`folded_mean`), not zero.
+    ``null_floor_A`` is the floor a least-squares fit of the floored pattern finds
+    in that mean at the measured fields (other parameters held); it is about 0.6
+    noise units on a uniform junction. Data holding negative values were not
+    folded, and the null is then the criterion's floor alone. Nodes are lifted
+    when the fitted floor exceeds the null by ``FLOOR_SIGMAS`` combined standard
+    errors (the floor's, scaled up by the scatter of the points at the nodes when it
+    exceeds the noise, and the null's, through the noise estimate).
+    """
+    from scipy import optimize
+
+    from ..physics.models import get_model
+
+    if fit.node_floor_A is None or not fit.node_floor_stderr_A or not fit.best_params:
         return None
-    lifted = float(np.sqrt(max(fit.node_floor_A**2 - criterion_floor_A**2, 0.0)))
-    return lifted if lifted > FLOOR_SIGMAS * fit.node_floor_stderr_A else None
+    x, y = fit.field_T, fit.ic_A
+    curve = get_model(fit.model).formula(x, **{**fit.best_params, "floor_A": 0.0})
+    folded = bool(np.all(y >= 0))
+    sigma, used = _noise_off_nodes(x, y, curve, fit.noise_A)
+    # In noise units, so the bounded search is scale-free.
+    f, c = curve / sigma, criterion_floor_A / sigma
+    target = folded_mean(np.hypot(f, c), 1.0) if folded else np.hypot(f, c)
+    res = optimize.minimize_scalar(lambda k: np.sum((np.hypot(f, k) - target) ** 2),
+                                   bounds=(0.0, 3.0 + 2.0 * c), method="bounded",
+                                   options={"xatol": 1e-5})
+    null = float(res.x) * sigma
+    # A MAD-based noise from n values has a relative standard error of about 1.17/sqrt(n)
+    # (its efficiency against the standard deviation is 37 %; common practice).
+    null_err = (null - criterion_floor_A if folded else 0.0) * 1.17 / np.sqrt(max(used, 1))
+    # The floor rests on the few points at the nodes, its standard error on the scatter
+    # of all residuals (the covariance is scaled by them); where the points at the nodes
+    # scatter more (critical currents extracted near a node), its error grows so.
+    near = curve < 3.0 * (fit.node_floor_A + fit.noise_A)
+    spread = 1.0
+    if near.sum() >= 3 and fit.residual_rms_A:
+        left = y[near] - fit.model_A(x[near])
+        spread = max(1.0, float(np.sqrt(np.mean(left**2))) / fit.residual_rms_A)
+    err = float(np.hypot(spread * fit.node_floor_stderr_A, null_err))
+    excess = fit.node_floor_A - null
+    return {
+        "node_floor_A": fit.node_floor_A, "criterion_floor_A": criterion_floor_A,
+        "null_floor_A": null, "noise_model": "folded normal" if folded else "normal",
+        "noise_A": sigma,
+        "lifted_floor_A": float(np.sqrt(max(fit.node_floor_A**2 - null**2, 0.0))),
+        "floor_stderr_A": fit.node_floor_stderr_A, "node_scatter_over_noise": round(spread, 3),
+        "excess_sigmas": round(excess / err, 2),
+        "threshold_sigmas": FLOOR_SIGMAS, "lifted": bool(excess > FLOOR_SIGMAS * err),
+    }
+
+
+def lifted_floor_A(fit, criterion_floor_A=0.0) -> float | None:
+    """The node floor beyond what true zeros measured as magnitudes give, when significant.
+
+    See :func:`floor_test`; ``None`` when the nodes are not lifted.
+    """
+    test = floor_test(fit, criterion_floor_A)
+    return test["lifted_floor_A"] if test and test["lifted"] else None
 
 
 def shape_flags(fit, *, criterion_floor_A=0.0, density=None) -> list:
@@ -143,13 +237,11 @@ def shape_flags(fit, *, criterion_floor_A=0.0, density=None) -> list:
     if fit.period_T is None:
         return flags
     x, y, noise = fit.field_T, fit.ic_A, fit.noise_A
-    lifted = lifted_floor_A(fit, criterion_floor_A)
-    if lifted is not None:
+    floor = floor_test(fit, criterion_floor_A)
+    if floor is not None and floor.pop("lifted"):
         flags.append(make_flag(
-            "nodes-lifted", fit.branch, node_floor_A=fit.node_floor_A,
-            criterion_floor_A=criterion_floor_A, lifted_floor_A=lifted,
-            floor_stderr_A=fit.node_floor_stderr_A, threshold_sigmas=FLOOR_SIGMAS,
-            floor_over_ic0=round(lifted / fit.best_params["ic0_A"], 4)))
+            "nodes-lifted", fit.branch, **floor,
+            floor_over_ic0=round(floor["lifted_floor_A"] / fit.best_params["ic0_A"], 4)))
     if fit.field_offset_T is None or not (x[0] + fit.period_T < fit.field_offset_T
                                           < x[-1] - fit.period_T):
         return flags  # the centre of the pattern is not measured with a period either side

@@ -131,14 +131,35 @@ def _row_median(a, valid):
     return np.where(n > 0, 0.5 * (lo + hi), np.nan)
 
 
-def row_offset(signal, bias_A):
+def row_offset(signal, bias_A, noise=None):
     """Amplifier offset per row: median voltage within 5 % of zero bias (supercurrent branch).
 
-    On a resistive row (at a node) the points near zero are symmetric in bias,
-    so their median is still the offset.
+    A row that is resistive near zero bias (over a fifth of those points more
+    than 5 ``noise`` from their median: at or near a node) takes the median of
+    the points within one bias step of zero instead. At zero bias every I-V curve
+    is at the offset, and the points one step either side are at it too or
+    straddle it symmetrically (ohmic), where the median over 5 % of zero bias
+    lands anywhere between two ohmic points (up to half of Rn times a bias step
+    off) or is pulled by one polarity that is resistive and one that is not.
     """
-    sub, valid = select(bias_A, near_zero(0.05)).take(signal)
-    return _row_median(sub, valid)
+    seg = select(bias_A, near_zero(0.05))
+    sub, valid = seg.take(signal)
+    offset = _row_median(sub, valid)
+    if noise is None or not noise > 0 or sub.shape[1] < 3:
+        return offset
+    with np.errstate(invalid="ignore"):
+        far = np.abs(sub - offset[:, None]) > 5.0 * noise
+    rows = np.flatnonzero(np.count_nonzero(far & valid, axis=1) > 0.2 * valid.sum(axis=1))
+    if rows.size == 0:
+        return offset
+    v, ok, b = sub[rows], np.broadcast_to(valid, sub.shape)[rows], np.abs(seg.bias(bias_A)[rows])
+    with np.errstate(all="ignore"):
+        nearest = np.min(np.where(ok, b, np.inf), axis=1, keepdims=True)
+        step = np.nanmedian(np.abs(np.diff(b, axis=1)), axis=1, keepdims=True)
+        close = ok & (b <= nearest + 1.01 * step)
+    local = _row_median(v, close)
+    offset[rows] = np.where(np.isfinite(local), local, offset[rows])
+    return offset
 
 
 def zero_branch_noise(signal, bias_A):
@@ -232,19 +253,26 @@ def first_true(mask):
 
 def _nothing(n_rows):
     none = np.zeros(n_rows, dtype=bool)
-    return np.full(n_rows, np.nan), none, none
+    return np.full(n_rows, np.nan), none, none, np.full(n_rows, np.nan)
 
 
-def crossing(level, quantity, bias_A, candidates, upward=True):
-    """|I| where ``quantity`` crosses ``level`` among ``candidates``, interpolated linearly.
+def crossing(level, quantity, bias_A, candidates, upward=True, shape=None, noise=None):
+    """|I| where ``quantity`` crosses ``level`` among ``candidates``, and its uncertainty.
 
     ``upward`` (switching, |I| growing): the first candidate above the level,
-    interpolated with the candidate before it. Otherwise (retrapping, |I|
-    shrinking): the last candidate above the level, interpolated with the one
+    bracketed with the candidate before it. Otherwise (retrapping, |I|
+    shrinking): the last candidate above the level, bracketed with the one
     after it, so that noise dips on the resistive branch do not end it early.
-    Returns ``(current_A, found, unbracketed)``; ``unbracketed`` marks rows where
-    no candidate lies on the other side of the crossing (resistive from the first
-    step when switching).
+    With a ``shape`` (a name in :data:`.onset.SHAPES`) the current at the level
+    comes from the straight line, in the shape's variables, through the points
+    beyond it (:func:`.onset.shaped_crossing`); without one, by linear
+    interpolation across the step. Returns ``(current_A, found, unbracketed,
+    uncertainty_A)``: ``unbracketed`` marks rows where no candidate lies on the
+    other side of the crossing (resistive from the first step when switching);
+    the uncertainty is step / sqrt(12) where the step's inside is not resolved
+    (linear interpolation, a jump), else the propagated ``noise`` of the quantity.
+    With a shape, a row above the level from the first step away from zero bias is
+    bracketed by zero bias (where the quantity is zero) rather than censored.
     """
     if quantity.shape[1] == 0:
         return _nothing(quantity.shape[0])
@@ -272,19 +300,37 @@ def crossing(level, quantity, bias_A, candidates, upward=True):
     inside = (other >= 0) & (other < n)
     other = np.clip(other, 0, n - 1)
     bracketed = found & inside & candidates[rows, other] & ~above[rows, other]
-    q0, q1 = value_at(rows, other), value_at(rows, k)
     b0, b1 = np.abs(bias_A[rows, other]), np.abs(bias_A[rows, k])
-    with np.errstate(all="ignore"):
-        t = np.clip((level[:, 0] - q0) / (q1 - q0), 0.0, 1.0)
-    current = np.where(bracketed, b0 + t * (b1 - b0), np.where(found, b1, np.nan))
-    return current, found, found & ~bracketed
+    q0, q1 = value_at(rows, other), value_at(rows, k)
+    if shape is None:
+        with np.errstate(all="ignore"):
+            t = np.clip((level[:, 0] - q0) / (q1 - q0), 0.0, 1.0)
+        inner = b0 + t * (b1 - b0)
+        spread = np.abs(b1 - b0) / np.sqrt(12.0)
+    else:
+        from .onset import SHAPES, shaped_crossing
+
+        # Resistive from the first step away from zero: at zero bias every I-V curve
+        # is at the offset, so zero bias brackets the crossing from below.
+        beyond = k + (1 if upward else -1)
+        beyond = np.clip(beyond, 0, n - 1)
+        first_step = found & ~bracketed & (b1 <= 1.5 * np.abs(np.abs(bias_A[rows, beyond]) - b1))
+        b0 = np.where(first_step, 0.0, b0)
+        q0 = np.where(first_step, 0.0, q0)
+        bracketed = bracketed | first_step
+        inner, spread, _ = shaped_crossing(
+            SHAPES[shape], level[:, 0], value_at, lambda c: above[rows, c], rows, k,
+            b0, b1, q0, q1, bias_A, 1 if upward else -1, noise)
+    current = np.where(bracketed, inner, np.where(found, b1, np.nan))
+    return current, found, found & ~bracketed, np.where(bracketed, spread, np.nan)
 
 
 def peak(quantity, bias_A, candidates):
     """|I| at the largest ``quantity`` among candidates, refined by a parabola through 3 points.
 
-    Returns ``(current_A, found, at_edge)``; ``at_edge`` marks a peak on the first
-    or last candidate, where no maximum was bracketed.
+    Returns ``(current_A, found, at_edge, uncertainty_A)``; ``at_edge`` marks a peak
+    on the first or last candidate, where no maximum was bracketed; the uncertainty
+    is the local step / sqrt(12) (where in the step the peak lies is not resolved).
     """
     if quantity.shape[1] == 0:
         return _nothing(quantity.shape[0])
@@ -302,4 +348,5 @@ def peak(quantity, bias_A, candidates):
     b = np.abs(bias_A)
     step = np.where(shift >= 0, b[rows, hi] - b[rows, k], b[rows, k] - b[rows, lo])
     current = np.where(found, b[rows, k] + np.clip(shift, -1, 1) * step, np.nan)
-    return current, found, found & ~inner
+    spread = np.where(found, np.abs(b[rows, hi] - b[rows, lo]) / (2.0 * np.sqrt(12.0)), np.nan)
+    return current, found, found & ~inner, spread

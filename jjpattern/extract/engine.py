@@ -20,6 +20,7 @@ from ..io.maps import IVMap
 from ..io.sweep import MIN_POINTS, Branch, Sweep
 from ..sampling import tidy
 from . import criteria as cr
+from .hysteresis import retrapping_summary
 from .registry import (  # noqa: F401 (the defaults are part of this module's interface)
     DVDI_FRACTION,
     RESISTANCE_FRACTION,
@@ -49,6 +50,11 @@ class BranchExtraction:
     retrap_A: np.ndarray
     source: str  # "switching" or "return-sweep"
     retrapping_ratio: float | None = None
+    #: Per row: the bias step / sqrt(12) where the step is not resolved, else the
+    #: noise propagated through the onset (see :mod:`.onset`); NaN where censored.
+    ic_uncertainty_A: np.ndarray | None = None
+    #: Retrapping at the main lobe and the beta_c estimate (:mod:`.hysteresis`).
+    retrapping: dict | None = None
 
     def counts(self) -> dict:
         values, counts = np.unique(self.status, return_counts=True)
@@ -130,7 +136,8 @@ class Extraction:
         out["field_T"] = self.field_T
         out["branches"] = [
             {**summary, "ic_A": b.ic_A, "status": [str(v) for v in b.status],
-             "retrap_A": b.retrap_A}
+             "retrap_A": b.retrap_A, "ic_uncertainty_A": b.ic_uncertainty_A,
+             **(b.retrapping or {})}
             for summary, b in zip(s["branches"], self.branches, strict=True)]
         out["methods_text"] = text
         out["methods_references"] = refs
@@ -173,8 +180,14 @@ def extraction_table_csv(block: dict) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _ratio(b) -> float | None:
+    """Retrapping over switching at the main lobe, else over every row."""
+    lobe = (b.retrapping or {}).get("retrapping_over_switching_main_lobe")
+    return lobe if lobe is not None else b.retrapping_ratio
+
+
 def _hysteretic(branches) -> bool:
-    ratios = [b.retrapping_ratio for b in branches if b.retrapping_ratio is not None]
+    ratios = [_ratio(b) for b in branches if _ratio(b) is not None]
     return bool(ratios) and min(ratios) < HYSTERESIS_RATIO
 
 
@@ -224,12 +237,12 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     offset = noise = None
     offsets = np.zeros(sig.shape[0])
     if ivmap.kind == "voltage":
-        offsets = cr.row_offset(sig, bias)
-        offsets = np.where(np.isfinite(offsets), offsets, np.nanmedian(offsets))
-        offset = float(np.nanmedian(offsets))
         # Second differences and the slope of V(I) do not see the offset: no need to
         # subtract it from the whole map first.
         noise = cr.zero_branch_noise(sig, bias)
+        offsets = cr.row_offset(sig, bias, noise)
+        offsets = np.where(np.isfinite(offsets), offsets, np.nanmedian(offsets))
+        offset = float(np.nanmedian(offsets))
     rn_rows = cr.normal_resistance(sig, bias, ivmap.kind)
     rn = float(np.nanmedian(rn_rows)) if np.isfinite(rn_rows).any() else None
 
@@ -245,34 +258,50 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
 
         branches.append(_branch(
             name, crit, quantity, level, bias, cr.select(bias, part, dense),
-            cr.select(bias, lambda b, p=part: p(b, out=False), dense)))
+            cr.select(bias, lambda b, p=part: p(b, out=False), dense),
+            crit.quantity_noise(data)))
+    for b in branches:
+        if b.source == "switching":
+            b.retrapping = retrapping_summary(field_T, b.ic_A, b.retrap_A)
     result = Extraction(ivmap, field_T, branches, crit.name, info, offset, noise, rn,
                         int((~keep).sum()))
     result.flags = _flags(result)
     return result
 
 
-def _branch(name, crit, q, level, bias, out_seg, in_seg) -> BranchExtraction:
+def _located(crit, q, level, b, candidates, upward, noise):
+    """``crit.locate`` with the uncertainty filled in when an override gives none."""
+    got = crit.locate(q, level, b, candidates, upward=upward, noise=noise)
+    if len(got) > 3:
+        return got
+    rows = np.arange(b.shape[0])
+    ab = np.abs(b)
+    usual = np.nanmedian(np.abs(np.diff(ab, axis=1)), axis=1) if b.shape[1] > 1 else rows * 0.0
+    return (*got, np.where(got[1], usual / np.sqrt(12.0), np.nan))
+
+
+def _branch(name, crit, q, level, bias, out_seg, in_seg, noise=None) -> BranchExtraction:
     q_out, out = out_seg.take(q)
     q_in, inb = in_seg.take(q)
     b_out, b_in = out_seg.bias(bias), in_seg.bias(bias)
     has_out = np.count_nonzero(out, axis=1) >= 3
-    ic, found, first = crit.locate(q_out, level, b_out, out, upward=True)
-    ret, r_found, _ = crit.locate(q_in, level, b_in, inb, upward=False)
+    ic, found, first, spread = _located(crit, q_out, level, b_out, out, True, noise)
+    ret, r_found, _, r_spread = _located(crit, q_in, level, b_in, inb, False, noise)
     status = np.where(found & ~first, "ok", np.where(found, "below-step", "above-max"))
     status = np.where(has_out, status, "no-data")
     source = "switching"
     if has_out.mean() < 0.5:
         # Only sweeps towards zero on this side: their transition is the retrapping current.
-        source, ic = "return-sweep", ret
+        source, ic, spread = "return-sweep", ret, r_spread
         status = np.where(r_found, "ok", np.where(inb.any(axis=1), "above-max", "no-data"))
     ic = np.where(status == "ok", ic, np.nan)
+    spread = np.where(status == "ok", spread, np.nan)
     ratio = None
     both = (status == "ok") & r_found & (source == "switching")
     if both.sum() >= 3:
         ratio = float(np.median(ret[both] / ic[both]))
     return BranchExtraction(name, ic, status.astype(object), np.where(r_found, ret, np.nan),
-                            source, ratio)
+                            source, ratio, spread)
 
 
 def _flags(result: Extraction) -> list:
@@ -283,10 +312,13 @@ def _flags(result: Extraction) -> list:
         if censored:
             flags.append(make_flag("censored-rows", b.name, **censored,
                                    rows=int(result.field_T.size)))
-        if b.retrapping_ratio is not None and b.retrapping_ratio < HYSTERESIS_RATIO:
-            flags.append(make_flag("hysteretic", b.name,
-                                   retrapping_over_switching=round(b.retrapping_ratio, 4),
-                                   threshold=HYSTERESIS_RATIO))
+        if _ratio(b) is not None and _ratio(b) < HYSTERESIS_RATIO:
+            lobe = {k: (round(v, 4) if isinstance(v, float) else v)
+                    for k, v in (b.retrapping or {}).items() if k != "beta_c_method"}
+            flags.append(make_flag("hysteretic", b.name, threshold=HYSTERESIS_RATIO,
+                                   retrapping_over_switching=(
+                                       None if b.retrapping_ratio is None
+                                       else round(b.retrapping_ratio, 4)), **lobe))
         if b.source == "return-sweep":
             flags.append(make_flag("return-sweep-branch", b.name,
                                    fitted=not _hysteretic(result.branches)))

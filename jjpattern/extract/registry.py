@@ -29,6 +29,8 @@ RESISTANCE_FRACTION = 0.05
 DERIVATIVE = "Savitzky-Golay, quadratic, 7 points"
 
 _SG = ("sg", "A. Savitzky and M. J. E. Golay, Anal. Chem. 36, 1627 (1964).")
+_RSJ = ("rsj", "W. C. Stewart, Appl. Phys. Lett. 12, 277 (1968); D. E. McCumber, J. Appl. "
+               "Phys. 39, 3113 (1968).")
 _VOLT_NAMES = (("V", 1.0), ("mV", 1e-3), ("\u00b5V", 1e-6), ("nV", 1e-9))
 _VALUE_UNIT = re.compile(r"^\s*(?P<value>[-+0-9.eE]+)\s*(?P<unit>[A-Za-z\u00b5\u03bc\u03a9]*)\s*$")
 
@@ -88,6 +90,9 @@ class Criterion:
     threshold_unit = None
     #: An example of a threshold as written on the command line.
     threshold_example = ""
+    #: Name of the onset shape in :data:`.onset.SHAPES` the crossing is read on
+    #: (``None``: linear interpolation across the step).
+    onset = None
 
     def parse_threshold(self, value: float, unit: str, where: str) -> float:
         """The threshold in SI from a number and the unit written after it."""
@@ -101,11 +106,20 @@ class Criterion:
         """The map-shaped quantity compared with the level."""
         raise NotImplementedError
 
-    def locate(self, quantity, level, bias_A, candidates, upward: bool):
-        """``(current_A, found, unbracketed)`` per row among ``candidates``."""
+    def quantity_noise(self, data: MapData) -> float | None:
+        """Noise of one value of the quantity near the transition (``None``: not known)."""
+        return None
+
+    def locate(self, quantity, level, bias_A, candidates, upward: bool, noise=None):
+        """``(current_A, found, unbracketed, uncertainty_A)`` per row among ``candidates``.
+
+        ``noise`` is :meth:`quantity_noise`. An override may return the first three
+        only; the engine then gives each row the local bias step / sqrt(12).
+        """
         from . import criteria as cr
 
-        return cr.crossing(level, quantity, bias_A, candidates, upward=upward)
+        return cr.crossing(level, quantity, bias_A, candidates, upward=upward,
+                           shape=self.onset, noise=noise)
 
     def gaps_near_turns(self, kind: str) -> bool:
         """True when the quantity is NaN near the turns of the sweep even on a dense map."""
@@ -128,6 +142,7 @@ class Voltage(Criterion):
     auto_for = ("voltage",)
     threshold_unit = "V"
     threshold_example = "2uV"
+    onset = "rsj-voltage"
 
     def parse_threshold(self, value, unit, where):
         from ..io.units import VOLTAGE_UNIT_HELP, VOLTAGE_UNITS, normalise_unit
@@ -155,11 +170,21 @@ class Voltage(Criterion):
 
         return cr.Deviation(data.signal, data.offsets_V)
 
+    def quantity_noise(self, data):
+        return data.noise_V
+
     def rule(self, threshold):
         return (f"the first bias current, on sweeps away from zero bias, at which |V - V0| "
-                f"exceeded {_volts(threshold['value'])} ({threshold['chosen']}), interpolated "
-                "linearly between the two straddling points; the amplifier offset V0 was "
-                "estimated in each field row as the median voltage near zero bias and removed")
+                f"exceeded {_volts(threshold['value'])} ({threshold['chosen']}), read on the "
+                "square-root onset of the resistively shunted junction (V^2 linear in I^2 "
+                "through the first three points above the level), or the middle of the "
+                "bias step where the voltage jumps; the amplifier offset V0 was estimated "
+                "in each field row as the median voltage near zero bias and removed")
+
+    def note(self, kind):
+        return (" Each critical current carries the bias step / sqrt(12) where the "
+                "step is not resolved, and otherwise the voltage noise propagated through "
+                "that line [rsj].", dict([_RSJ]))
 
 
 class Resistance(Criterion):
@@ -169,6 +194,7 @@ class Resistance(Criterion):
     signals = ("voltage",)
     threshold_unit = "fraction of Rn"
     threshold_example = "0.05"
+    onset = "rsj-resistance"
 
     def parse_threshold(self, value, unit, where):
         if unit:
@@ -201,7 +227,9 @@ class Resistance(Criterion):
 
     def rule(self, threshold):
         return (f"the first bias current at which V/I exceeded {threshold['fraction_of_rn']:g} "
-                "Rn, with Rn from a linear fit of the high-bias part of each I-V curve")
+                "Rn, with Rn from a linear fit of the high-bias part of each I-V curve, read "
+                "on the onset of the resistively shunted junction ((V/I)^2 linear in 1/I^2 "
+                "through the first three points above the level)")
 
 
 class _Derivative(Criterion):
@@ -260,19 +288,19 @@ class DvdiPeak(_Derivative):
         return None, {"value": None, "unit": "ohm", "chosen": "largest dV/dI",
                       "derivative": "measured" if data.kind == "dvdi" else DERIVATIVE}
 
-    def locate(self, quantity, level, bias_A, candidates, upward):
+    def locate(self, quantity, level, bias_A, candidates, upward, noise=None):
         import numpy as np
 
         from . import criteria as cr
 
-        current, found, edge = cr.peak(quantity, bias_A, candidates)
+        current, found, edge, spread = cr.peak(quantity, bias_A, candidates)
         if cr.shared(bias_A) and candidates.strides == (0, 0):
             top = np.full(quantity.shape[0], np.max(np.abs(bias_A[0]), initial=-1.0))
         else:
             top = np.max(np.where(candidates, np.abs(bias_A), -1.0), axis=1, initial=-1.0)
         at_top = edge & np.isclose(current, top)
         # A peak on the largest |I| never came inside the window: censored above, not "ok".
-        return current, found & ~at_top, edge & ~at_top
+        return current, found & ~at_top, edge & ~at_top, spread
 
     def rule(self, threshold):
         return "the bias current of the largest dV/dI, refined by a parabola through 3 points"
