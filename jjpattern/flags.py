@@ -123,6 +123,16 @@ CATALOGUE = {
         "The robust loss down-weighted points that sit far from the pattern (often premature "
         "switching or glitches, which read low). Look at them in the residual plot.",
     ),
+    "rounded-iv": (
+        "warning",
+        "The I-V curves bend up smoothly below the switching point instead of staying at "
+        "zero voltage: phase diffusion, from thermal or electrical noise on an overdamped "
+        "junction. A voltage threshold then reads the critical current below its noise-free "
+        "value; the evidence gives the shortfall and, from a fit of the rounded curves "
+        "(Ambegaokar-Halperin), the noise-free critical current at the top of the main lobe "
+        "and an effective noise temperature. Filter the measurement lines or cool further "
+        "to sharpen the switching.",
+    ),
     # Drift between measurements of the same junction (the history catalog). Each compares
     # a record with the junction's previous measurement; the evidence names both records.
     "ic0-changed": (

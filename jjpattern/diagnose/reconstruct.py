@@ -149,8 +149,17 @@ def _retrieve(modulus, transform, start, iterations):
     return j
 
 
+def _uniform_pattern(field_T, period_T, field_offset_T, model):
+    """Ic of a uniform junction of ``model`` (peak 1) at the measured fields."""
+    from ..physics.models import get_model
+
+    return np.asarray(get_model(model).formula(np.asarray(field_T, dtype=float), 1.0, period_T,
+                                                field_offset_T, 0.0), dtype=float)
+
+
 def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
-                method="symmetric", resamples=200, n_x=301, iterations=150):
+                method="symmetric", resamples=200, n_x=301, iterations=150,
+                model="rectangular"):
     """J(x) with a 68 % band, the resolution and the numbers users quote.
 
     Parameters
@@ -165,6 +174,12 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
         Source of the resampling; its seed belongs in the settings.
     method : {'symmetric', 'support'}
         ``support`` uses ``iterations`` steps and at most 16 resamples for its band.
+    model : str
+        Pattern model of the fit. A uniform junction of it, sampled at the same
+        fields, goes through the same window, grid and method; its numbers are the
+        ``uniform_reference`` the measured ones are read against (a truncated,
+        windowed transform rounds the edges of even a uniform profile, so its edge
+        fraction is not 0.2) and its profile is ``j_uniform``.
     """
     u = (np.asarray(field_T) - field_offset_T) / period_T
     ic = np.asarray(ic_A, dtype=float)
@@ -176,26 +191,36 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
     # J(x) = Re sum_u F(u) exp(-2 pi i u x) du: for a real F only the cosine counts.
     cosine = np.cos(phase)
     signs = node_signs(grid, values)
+    _, flat, _ = _grid(u, _uniform_pattern(field_T, period_T, field_offset_T, model),
+                       symmetric)
+    flat_signs = node_signs(grid, flat)
     # Mirror averaging halves the variance of each point of the symmetric method.
     scale = noise_A / np.sqrt(2.0) if symmetric else noise_A
     if symmetric:
         j = (values * signs * window) @ cosine * du
+        j_flat = (flat * flat_signs * window) @ cosine * du
         noisy = values[None, :] + rng.normal(0.0, scale, (resamples, values.size))
         band = (noisy * signs * window) @ cosine * du
     else:
         support = np.abs(x) <= 0.5
         transform = _MirrorTransform(grid, x[support], du)
-        start = (values * signs * window) @ cosine[:, support] * du
         # A small tilt breaks the mirror symmetry of the start so the retrieval can move.
-        start = start * (1.0 + 0.3 * x[support])
+        tilt = 1.0 + 0.3 * x[support]
+        start = (values * signs * window) @ cosine[:, support] * du * tilt
         j = np.zeros(n_x)
         j[support] = _retrieve(values[None, :], transform, start, iterations)[0]
+        j_flat = np.zeros(n_x)
+        start = (flat * flat_signs * window) @ cosine[:, support] * du * tilt
+        j_flat[support] = _retrieve(flat[None, :], transform, start, iterations)[0]
         count = min(resamples, 16)
         noisy = values[None, :] + rng.normal(0.0, scale, (count, values.size))
         # All resamples at once, each started from the profile found above.
         band = np.zeros((count, n_x))
         band[:, support] = _retrieve(np.abs(noisy), transform, j[support], iterations // 3)
     low, high = np.percentile(band, [16, 84], axis=0)
+    reference = {"model": model, **profile_numbers(x, j_flat),
+                 "meaning": "a uniform junction of this model at the measured fields, "
+                            "through the same window, grid and method"}
     return {
         "method": method,
         "assumption": ("J(x) symmetric about the junction centre; sign flipped at each node"
@@ -210,11 +235,17 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
         "window": f"Tukey, alpha {WINDOW_ALPHA}",
         "resamples": int(band.shape[0]),
         **profile_numbers(x, j, band),
+        "uniform_reference": reference,
+        "j_uniform": j_flat,
     }
 
 
 def profile_numbers(x, j, band=None) -> dict:
-    """Edge fraction (outer 10 % each side; 0.2 uniform), centre of mass and non-uniformity."""
+    """Edge fraction (outer 10 % each side), centre of mass and non-uniformity.
+
+    An exactly uniform J(x) has an edge fraction of 0.2; a reconstruction never
+    gives that (see ``uniform_reference`` in :func:`reconstruct`).
+    """
     main = _numbers(x, j[None, :])[0]
     out = dict(zip(("edge_fraction", "edge_fraction_left", "edge_fraction_right",
                     "centre_of_mass_over_length", "nonuniformity"), main.tolist(), strict=True))
@@ -228,14 +259,19 @@ def profile_numbers(x, j, band=None) -> dict:
 
 def _numbers(x, profiles):
     """The five numbers of :func:`profile_numbers` for each row of ``profiles`` (m, n_x)."""
-    inside = np.abs(x) <= 0.5
+    # Grid points on the edges (x = +-0.4, +-0.5) count on both sides despite rounding,
+    # and each part is integrated over its own points (no ramp from zeroed neighbours).
+    tol = 1e-9
+    inside = np.abs(x) <= 0.5 + tol
     p = np.clip(profiles, 0.0, None)
     xi, pi = x[inside], p[:, inside]
     total = np.trapezoid(pi, xi, axis=1)
-    left = np.trapezoid(np.where(inside & (x <= -0.4), p, 0.0), x, axis=1)
-    right = np.trapezoid(np.where(inside & (x >= 0.4), p, 0.0), x, axis=1)
+    outer_left = inside & (x <= -0.4 + tol)
+    outer_right = inside & (x >= 0.4 - tol)
+    left = np.trapezoid(p[:, outer_left], x[outer_left], axis=1)
+    right = np.trapezoid(p[:, outer_right], x[outer_right], axis=1)
     centre = np.trapezoid(pi * xi, xi, axis=1) / total
-    core = p[:, np.abs(x) <= 0.4]
+    core = p[:, np.abs(x) <= 0.4 + tol]
     spread = np.std(core, axis=1) / np.mean(core, axis=1)
     return np.stack([(left + right) / total, left / total, right / total, centre, spread],
                     axis=1)

@@ -31,6 +31,7 @@ from .registry import (  # noqa: F401 (the defaults are part of this module's in
     get_criterion,
     resolve,
 )
+from .rounding import rounding_summary
 
 #: The registered criteria (``auto`` aside), as the command line lists them.
 CRITERIA = criterion_names(auto=False)
@@ -55,6 +56,8 @@ class BranchExtraction:
     ic_uncertainty_A: np.ndarray | None = None
     #: Retrapping at the main lobe and the beta_c estimate (:mod:`.hysteresis`).
     retrapping: dict | None = None
+    #: Voltage below switching and the Ambegaokar-Halperin fit (:mod:`.rounding`).
+    phase_diffusion: dict | None = None
 
     def counts(self) -> dict:
         values, counts = np.unique(self.status, return_counts=True)
@@ -137,7 +140,7 @@ class Extraction:
         out["branches"] = [
             {**summary, "ic_A": b.ic_A, "status": [str(v) for v in b.status],
              "retrap_A": b.retrap_A, "ic_uncertainty_A": b.ic_uncertainty_A,
-             **(b.retrapping or {})}
+             **(b.retrapping or {}), "phase_diffusion": b.phase_diffusion}
             for summary, b in zip(s["branches"], self.branches, strict=True)]
         out["methods_text"] = text
         out["methods_references"] = refs
@@ -260,9 +263,13 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
             name, crit, quantity, level, bias, cr.select(bias, part, dense),
             cr.select(bias, lambda b, p=part: p(b, out=False), dense),
             crit.quantity_noise(data)))
-    for b in branches:
+    for b, sign in zip(branches, (1.0, -1.0), strict=True):
         if b.source == "switching":
             b.retrapping = retrapping_summary(field_T, b.ic_A, b.retrap_A)
+            if ivmap.kind == "voltage":
+                b.phase_diffusion = rounding_summary(
+                    field_T, sig, bias, offsets, noise, rn,
+                    level if crit.name == "voltage" else None, b.ic_A, sign)
     result = Extraction(ivmap, field_T, branches, crit.name, info, offset, noise, rn,
                         int((~keep).sum()))
     result.flags = _flags(result)
@@ -319,6 +326,10 @@ def _flags(result: Extraction) -> list:
                                    retrapping_over_switching=(
                                        None if b.retrapping_ratio is None
                                        else round(b.retrapping_ratio, 4)), **lobe))
+        pd = b.phase_diffusion
+        if pd and pd["rounded"]:
+            flags.append(make_flag("rounded-iv", b.name, **{
+                k: v for k, v in pd.items() if k not in ("rounded", "model")}))
         if b.source == "return-sweep":
             flags.append(make_flag("return-sweep-branch", b.name,
                                    fitted=not _hysteretic(result.branches)))

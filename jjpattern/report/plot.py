@@ -191,7 +191,8 @@ def map_figure(ivmap, extraction: dict, title: str = ""):
 
 
 def density_figure(current_density: dict, title: str = ""):
-    """Reconstructed J(x) of each branch with its resampled 68 % band."""
+    """Reconstructed J(x) of each branch inside the junction, its 68 % band, and a uniform
+    junction through the same reconstruction (dotted)."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -200,12 +201,24 @@ def density_figure(current_density: dict, title: str = ""):
     fig, ax = plt.subplots(figsize=(7.0, 3.8), layout="constrained")
     for branch, d in current_density.items():
         x = np.asarray(d["x_over_length"])
-        scale = np.max(np.abs(d["j"])) or 1.0
+        # Only inside the junction: beyond |x| = L/2 the truncated transform only rings
+        # (the resolution limit), which reads as current that is not there.
+        inside = np.abs(x) <= 0.5
+        x = x[inside]
+        j = np.asarray(d["j"])[inside]
+        scale = np.max(np.abs(j)) or 1.0
         colour = BRANCH_COLOURS.get(branch, "#009E73")
-        ax.fill_between(x, np.asarray(d["j_low"]) / scale, np.asarray(d["j_high"]) / scale,
-                        color=colour, alpha=0.25, lw=0)
-        ax.plot(x, np.asarray(d["j"]) / scale, color=colour,
-                label=f"{branch} branch ({d['method']})")
+        ax.fill_between(x, np.asarray(d["j_low"])[inside] / scale,
+                        np.asarray(d["j_high"])[inside] / scale, color=colour, alpha=0.25,
+                        lw=0)
+        ax.plot(x, j / scale, color=colour, label=f"{branch} branch ({d['method']})")
+        if d.get("j_uniform") is not None:
+            flat = np.asarray(d["j_uniform"])[inside]
+            # Scaled to the same total current, so the two shapes compare directly.
+            ratio = np.trapezoid(np.clip(j, 0, None), x) / (
+                np.trapezoid(np.clip(flat, 0, None), x) or 1.0)
+            ax.plot(x, flat * ratio / scale, color=colour, lw=0.9, ls=":",
+                    label=f"uniform junction, same window ({branch})")
     for edge in (-0.5, 0.5):
         ax.axvline(edge, color="#888888", lw=0.8, ls="--")
     ax.axhline(0.0, color="#888888", lw=0.6)

@@ -201,8 +201,11 @@ def render_summary(result) -> str:
         lines.append(f"current density, {branch_words(branch, segments.get(branch, ''))} "
                      f"({d['method']}, resolution "
                      f"{d['resolution_over_length']:.3f} L)")
-        lines.append(f"  edge fraction {d['edge_fraction']:.3f} (outer 10 % each side; 0.2 for "
-                     f"uniform), centre of mass {d['centre_of_mass_over_length']:+.3f} L")
+        ref = d.get("uniform_reference")
+        uniform = (f"{ref['edge_fraction']:.3f} for a uniform junction through the same "
+                   "reconstruction" if ref else "0.2 for exactly uniform current")
+        lines.append(f"  edge fraction {d['edge_fraction']:.3f} (outer 10 % each side; "
+                     f"{uniform}), centre of mass {d['centre_of_mass_over_length']:+.3f} L")
     if result.geometry:
         lines.append("")
         lines.append("geometry and materials")
