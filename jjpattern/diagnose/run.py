@@ -181,7 +181,7 @@ def diagnose(fits, *, seed=0, resamples=200, geometry: GeometryInputs | None = N
         density = None
         centred = (fit.field_offset_T is not None
                    and fit.field_T[0] < fit.field_offset_T < fit.field_T[-1])
-        if centred:
+        if centred and _reconstructable(fit):
             # Lifted nodes mean an asymmetric profile: then do not assume symmetry.
             lifted = lifted_floor_A(fit, criterion_floor_A) is not None
             density = _density(fit, "support" if lifted else "symmetric", rng, resamples)
@@ -201,6 +201,14 @@ def diagnose(fits, *, seed=0, resamples=200, geometry: GeometryInputs | None = N
         flags += long_junction_flag(block["branch"], geometry.length_m,
                                     block["josephson_depth_m"])
     return {"current_density": densities, "geometry": block, "flags": flags}
+
+
+def _reconstructable(fit) -> bool:
+    """The Dynes-Fulton reconstruction assumes a short junction with a central maximum: not
+    for a long junction (self-field), a 0-pi pattern or a periodic (two-channel) one."""
+    spec = get_model(fit.model)
+    return (spec.central_peak and not spec.periodic
+            and "length_over_josephson_depth" not in fit.derived)
 
 
 def _trial(fit):

@@ -94,12 +94,10 @@ def _model_notes(fits) -> str:
             text += (f". Numbers withheld: {fit.withheld['text']}; the fit curve is not "
                      "drawn")
         elif fit.derived:
-            from .display import format_si_key
+            from .summary import derived_items
 
             text += ". The model also gives " + ", ".join(
-                f"{k.removesuffix('_A').removesuffix('_T').replace('_', ' ')} "
-                f"{format_si_key(k, v, (fit.derived_stderr or {}).get(k))}"
-                for k, v in fit.derived.items())
+                f"{name} {value}" for name, value in derived_items(fit))
         items.append(f"<li>{esc(text)}.</li>")
     return "<ul>" + "".join(items) + "</ul>"
 

@@ -111,12 +111,9 @@ def _model_choice_text(result, cited) -> str:
 
 
 def _derived_text(fit) -> str:
-    from .display import format_si_key
+    from .summary import derived_items
 
-    parts = []
-    for key, value in (fit.derived or {}).items():
-        name = key.removesuffix("_A").removesuffix("_T").replace("_", " ")
-        parts.append(f"{name} {format_si_key(key, value, (fit.derived_stderr or {}).get(key))}")
+    parts = [f"{name} {text}" for name, text in derived_items(fit)]
     return "; the model also gives " + ", ".join(parts) if parts else ""
 
 

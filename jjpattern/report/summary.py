@@ -20,6 +20,8 @@ def choice_sentence(choice: dict | None) -> str:
         return ""
     chosen, runner = choice["chosen"], choice.get("runner_up")
     text = f"chosen automatically by {choice['criterion']} over {len(choice['candidates'])} models"
+    if choice.get("branches"):
+        text += f", summed over {choice['branches']} branches"
     if runner is None:
         return text
     diff = choice["criterion_difference"]
@@ -34,12 +36,15 @@ def choice_sentence(choice: dict | None) -> str:
             f"{choice['margin']:g}); the simpler {chosen} model is reported")
 
 
-def _model_rows(fit) -> list:
-    """The model's own derived numbers (L/lambda_J, Jc W L, ...) with their errors."""
+def derived_items(fit) -> list:
+    """``(name, text)`` for the model's own derived numbers (L/lambda_J, Jc W L, ...)."""
     rows = []
     for key, value in (fit.derived or {}).items():
+        err = (fit.derived_stderr or {}).get(key)
         name = key.removesuffix("_A").removesuffix("_T").replace("_", " ")
-        rows.append((name, format_si_key(key, value, (fit.derived_stderr or {}).get(key))))
+        text = (format_measure(value, err, CURRENT_UNITS) if key.endswith("_A")
+                else format_si_key(key, value, err))
+        rows.append((name.replace("jc times area", "Jc times area"), text))
     return rows
 
 
@@ -75,7 +80,7 @@ def _fit_lines(fit) -> list[str]:
     if fit.loss != "linear":
         rows.append(("robust loss", f"{fit.loss}, {fit.points_downweighted} points "
                                     "down-weighted"))
-    rows += _model_rows(fit)
+    rows += derived_items(fit)
     choice = choice_sentence(fit.model_choice)
     if choice:
         rows.append(("model", choice))
