@@ -32,26 +32,35 @@ CATALOGUE = {
         "error",
         "The main lobe lies outside the measured window and the side-lobe heights do not "
         "tell which lobe is which, so the field offset and Ic0 are withheld. The period is "
-        "still reliable; widen the window towards the main lobe to locate it.",
+        "still reliable; widen the window towards the main lobe to locate it. Lobes that do "
+        "not decay at all point to a SQUID-like pattern of two parallel channels instead "
+        "(--model two-channel; the automatic choice tries it).",
     ),
     "poor-fit": (
-        "warning",
-        "The model misses the data by more than the point-to-point noise. The pattern departs "
-        "from the ideal shape of this geometry: look at the residuals and the other flags, or "
-        "try the other geometry or the node floor.",
+        "error",
+        "The best model misses the data by more than the point-to-point noise, so its period, "
+        "Ic0 and everything derived from them are withheld rather than given with error bars "
+        "that would not mean anything. Usual causes: a non-uniform current density (see the "
+        "other flags), flux trapped in or near the junction, a field axis that is not linear, "
+        "or a junction none of the models describes (with --model NAME only that model was "
+        "tried; the automatic choice tries them all).",
     ),
     "nodes-lifted": (
         "warning",
         "The minima stay well above zero (a node floor many standard errors above what the "
-        "extraction criterion alone gives). Usually an asymmetric current distribution or an "
-        "inhomogeneous barrier, sometimes a field not perpendicular to the junction or a "
-        "parallel leakage path. Check the field alignment, then the current-density profile.",
+        "extraction criterion alone gives). Causes: an asymmetric current distribution or an "
+        "inhomogeneous barrier; the self-field of the bias current; a junction longer than "
+        "the Josephson penetration depth (its minima are lifted by screening: the long-inline "
+        "and long-overlap models describe that); a field not perpendicular to the junction; "
+        "a parallel leakage path. Check the field alignment, then the current-density "
+        "profile.",
     ),
     "edge-current": (
         "warning",
-        "The supercurrent is crowded at the edges of the junction (side lobes decay more "
-        "slowly than for uniform current; at the extreme two parallel channels with lobes of "
-        "nearly equal width). Look for edge or step conduction, or a SQUID-like geometry.",
+        "The side lobes decay more slowly than for uniform current: the supercurrent is "
+        "crowded at the edges of the junction, by edge or step conduction, or the junction "
+        "is a SQUID-like pair of parallel channels whose lobes barely decay (--model "
+        "two-channel fits that pattern; the automatic choice tries it).",
     ),
     "center-current": (
         "warning",
@@ -62,9 +71,9 @@ CATALOGUE = {
     "central-minimum": (
         "warning",
         "Ic has a minimum at the centre of the pattern instead of a maximum. This points to a "
-        "flux quantum trapped in or near the junction, a pi-shifted segment (0-pi junction), "
-        "or a field offset set wrongly. Warm above Tc and cool in zero field to tell them "
-        "apart.",
+        "flux quantum trapped in or near the junction, a pi-shifted segment (a 0-pi junction, "
+        "which --model zero-pi fits and the automatic choice tries), or a field offset set "
+        "wrongly. Warm above Tc and cool in zero field to tell them apart.",
     ),
     "field-asymmetry": (
         "warning",
@@ -95,9 +104,12 @@ CATALOGUE = {
     ),
     "long-junction": (
         "warning",
-        "The junction is longer than the Josephson penetration depth, so the current is not "
-        "set by the barrier alone: the pattern is distorted by self-field and the Dynes-Fulton "
-        "reconstruction does not apply.",
+        "The junction is longer than the Josephson penetration depth, so the bias current and "
+        "the field are screened over lambda_J and the pattern is not the Fraunhofer one: the "
+        "node spacing of a sinc fit is not the period Phi0/(L d'), the area and thicknesses "
+        "derived from it are wrong, Ic0 is not Jc times the area, and the Dynes-Fulton "
+        "reconstruction does not apply. The long-inline and long-overlap models fit the "
+        "sine-Gordon pattern, give the period in its short-junction meaning and L/lambda_J.",
     ),
     "censored-rows": (
         "info",

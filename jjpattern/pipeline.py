@@ -107,6 +107,8 @@ def _fit_and_diagnose(sweep, settings: Settings, floor_A: float):
     fs = settings.fit
     fits = [fit_pattern(b.field_T, b.ic_A, geometry=fs.model, node_floor=fs.node_floor,
                         loss=fs.loss, branch=b.name) for b in sweep.branches]
+    if fs.model == "auto":
+        fits = _one_model_for_all_branches(sweep, fits, fs)
     fit_flags = [flag for fit in fits for flag in fit.flags]
     diagnostics = {}
     if settings.diagnose.enabled:
@@ -164,15 +166,44 @@ def _fit_result(fit, segment: str) -> FitResult:
     return out
 
 
+def _one_model_for_all_branches(sweep, fits, fs):
+    """Both branches of one junction get one model: the per-branch BICs summed per model.
+
+    A branch whose own choice differs is fitted again with the joint choice; every
+    branch's ``model_choice`` is then the joint evidence (summed over the branches),
+    with the branch's own under ``this_branch``.
+    """
+    from .fit.choice import joint_choice
+    from .fit.engine import fit_pattern
+
+    joint = joint_choice([f.model_choice for f in fits])
+    if joint is None:
+        return fits
+    out = []
+    for branch, fit in zip(sweep.branches, fits, strict=True):
+        own = fit.model_choice
+        if fit.model != joint["chosen"]:
+            fit = fit_pattern(branch.field_T, branch.ic_A, geometry=joint["chosen"],
+                              node_floor=fs.node_floor, loss=fs.loss, branch=branch.name)
+        fit.model_choice = dict(joint, this_branch=own)
+        out.append(fit)
+    return out
+
+
 def fit_method(settings: Settings) -> dict:
     """The fit method in words and its fixed thresholds (the JSON ``method`` block)."""
-    from .fit import engine
+    from .fit import choice, engine
 
     loss = settings.fit.loss
+    model = settings.fit.model
     return {
         "fit": "scan of period and offset (FFT correlation), then lmfit "
                + ("leastsq (Levenberg-Marquardt)" if loss == "linear"
                   else f"least_squares (trust region, {loss} loss)"),
+        "model": (f"every registered model fitted, the one with the lowest {choice.CRITERION} "
+                  "(chi-square over the model-free noise plus k ln n) reported when no "
+                  f"simpler model is within {choice.MARGIN:g} of it, else the simplest within "
+                  "that margin" if model == "auto" else f"{model}, chosen by the user"),
         "thresholds": {
             "modulation_chisq_drop": engine.MODULATION_DCHI2,
             "min_nodes": engine.MIN_NODES,
@@ -180,6 +211,7 @@ def fit_method(settings: Settings) -> dict:
             "offset_chisq_margin": engine.OFFSET_DCHI2,
             "poor_fit_reduced_chisq": engine.POOR_FIT_REDCHI,
             "robust_scale_over_noise": engine.ROBUST_SCALE,
+            "model_choice_margin": choice.MARGIN,
         },
     }
 

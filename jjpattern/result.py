@@ -99,6 +99,10 @@ class FitResult:
     best_params: dict = field(default_factory=dict)
     extra_params: dict = field(default_factory=dict)
     extra_stderr: dict = field(default_factory=dict)
+    derived: dict = field(default_factory=dict)
+    derived_stderr: dict = field(default_factory=dict)
+    withheld: dict | None = None
+    model_choice: dict | None = None
     field_T: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     ic_A: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
 
@@ -109,6 +113,10 @@ class FitResult:
         return cls(**numbers, best_params=plain(dict(fit.best_params)),
                    extra_params=plain(dict(getattr(fit, "extra_params", {}))),
                    extra_stderr=plain(dict(getattr(fit, "extra_stderr", {}))),
+                   derived=plain(dict(getattr(fit, "derived", {}))),
+                   derived_stderr=plain(dict(getattr(fit, "derived_stderr", {}))),
+                   withheld=plain(getattr(fit, "withheld", None)),
+                   model_choice=plain(getattr(fit, "model_choice", None)),
                    field_T=np.asarray(fit.field_T, dtype=float).copy(),
                    ic_A=np.asarray(fit.ic_A, dtype=float).copy())
 
@@ -121,6 +129,10 @@ class FitResult:
         out["best_params"] = plain(self.best_params)
         out["extra_params"] = plain(self.extra_params)
         out["extra_stderr"] = plain(self.extra_stderr)
+        out["derived"] = plain(self.derived)
+        out["derived_stderr"] = plain(self.derived_stderr)
+        out["withheld"] = plain(self.withheld)
+        out["model_choice"] = plain(self.model_choice)
         out["points"] = {"field_T": plain(self.field_T), "ic_A": plain(self.ic_A)}
         return out
 
@@ -131,11 +143,15 @@ class FitResult:
         return cls(**numbers, best_params=dict(data.get("best_params") or {}),
                    extra_params=dict(data.get("extra_params") or {}),
                    extra_stderr=dict(data.get("extra_stderr") or {}),
+                   derived=dict(data.get("derived") or {}),
+                   derived_stderr=dict(data.get("derived_stderr") or {}),
+                   withheld=data.get("withheld"), model_choice=data.get("model_choice"),
                    field_T=np.asarray(points.get("field_T", []), dtype=float),
                    ic_A=np.asarray(points.get("ic_A", []), dtype=float))
 
     def model_A(self, field_T) -> np.ndarray:
-        """The best-fit curve at ``field_T``; NaN when nothing was fitted."""
+        """The best-fit curve at ``field_T``; NaN when nothing was fitted. For a fit
+        withheld as poor (``withheld``) this is the trial curve, which describes nothing."""
         if not self.best_params:
             return np.full(np.shape(field_T), np.nan)
         from .physics.patterns import PATTERNS

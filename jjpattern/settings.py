@@ -60,11 +60,20 @@ class ExtractSettings:
 
 @dataclass(frozen=True)
 class FitSettings:
-    """The pattern model and how it is fitted."""
+    """The pattern model and how it is fitted.
 
-    model: str = "rectangular"
+    ``model`` is ``"auto"`` (every registered model is fitted and the Bayesian
+    information criterion picks one by a margin) or the name of one model.
+    """
+
+    model: str = "auto"
     node_floor: str = "auto"
     loss: str = "linear"
+
+    def __post_init__(self):
+        if not isinstance(self.model, str) or not self.model.strip():
+            raise InputError(f"settings fit.model: {self.model!r} is not a model name; use "
+                             "auto or a model such as rectangular")
 
 
 @dataclass(frozen=True)

@@ -44,7 +44,8 @@ def test_pulls_are_calibrated(lobes, extra):
     for _ in range(150):
         case = random_case(rng, period_T=2.0e-3, lobes=lobes, n_points=500,
                            noise_fraction=0.02, offset_fraction=0.3, **extra)
-        fit = fit_pattern(case.field_T, case.ic_A, node_floor="off")
+        # The calibration of the rectangular fit itself (the choice is tested elsewhere).
+        fit = fit_pattern(case.field_T, case.ic_A, node_floor="off", geometry="rectangular")
         for key in pulls:
             truth = getattr(case, key)
             pulls[key].append((getattr(fit, key) - truth) / getattr(fit, key.replace(
@@ -145,10 +146,16 @@ def test_robust_loss_resists_premature_switching():
         ic[bad] *= rng.uniform(0.4, 0.8, bad.size)
         for loss in errors:
             fit = fit_pattern(case.field_T, ic, loss=loss)
+            codes = {f.code for f in fit.flags}
+            if loss == "linear":
+                # Least squares misses the data by far more than the noise, so it gives no
+                # numbers; its trial Ic0 shows how far the glitches pulled it.
+                assert fit.ic0_A is None and fit.period_T is None and "poor-fit" in codes
+                errors[loss].append(abs(fit.best_params["ic0_A"] / case.ic0_A - 1))
+                continue
             errors[loss].append(abs(fit.ic0_A / case.ic0_A - 1))
-            if loss != "linear":
-                assert fit.points_downweighted >= 15
-                assert "outliers-downweighted" in {f.code for f in fit.flags}
+            assert fit.points_downweighted >= 15
+            assert "outliers-downweighted" in codes
     # 5 % of the points read 20-60 % low: least squares is pulled down by about 10 %.
     assert np.median(errors["linear"]) > 0.05
     assert np.median(errors["soft_l1"]) < 0.3 * np.median(errors["linear"])

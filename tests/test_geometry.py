@@ -60,3 +60,54 @@ def test_zero_pi_junction_check_values():
                                    options={"xatol": 1e-8})
     assert res.x == pytest.approx(0.742, abs=1e-3)
     assert -res.fun == pytest.approx(0.7246, abs=2e-4)
+
+
+def _fit(**values):
+    from types import SimpleNamespace
+
+    base = dict(branch="positive", model="rectangular", period_T=None, period_stderr_T=None,
+                ic0_A=None, ic0_stderr_A=None, effective_area_m2=None, derived={},
+                derived_stderr={})
+    base.update(values)
+    if base["period_T"] is not None:
+        base["effective_area_m2"] = PHI0_WB / base["period_T"]
+    return SimpleNamespace(**base)
+
+
+def test_planar_focusing_factor_is_the_enlargement_over_the_bulk_area():
+    # A thin strip of width W obeys 1.84 Phi0 / W^2 (Rosenthal et al. 1991; Clem 2010; the
+    # coefficient from memory): its effective area W^2 / 1.84 over the area W d' that the
+    # field would thread without focusing is W / (1.84 d'); against the thin-film estimate
+    # the ratio is 1.
+    from jjpattern.diagnose.run import GeometryInputs, geometry_block
+
+    w, d, t, lam = 4e-6, 2e-9, 200e-9, 90e-9
+    dm = d + 2 * lam * np.tanh(t / (2 * lam))  # Weihnacht (1969), equal electrodes
+    fit = _fit(period_T=1.84 * PHI0_WB / w**2, period_stderr_T=1e-7, ic0_A=1e-5)
+    block = geometry_block([fit], GeometryInputs(width_m=w, length_m=w, barrier_m=d, t1_m=t,
+                                                 lambda1_m=lam, planar=True))
+    assert block["focusing_factor"] == pytest.approx(w / (1.84 * dm), rel=1e-9)
+    assert block["focusing_factor"] > 10
+    assert block["planar_area_over_thin_film_estimate"] == pytest.approx(1.0, rel=1e-12)
+    assert block["planar_period_over_expected"] == pytest.approx(1.0, rel=1e-12)
+    # The bulk numbers are kept, and a sentence says which apply.
+    assert "magnetic_thickness_m" in block and "do not apply" in block["applies"]
+    bulk = geometry_block([fit], GeometryInputs(width_m=w, length_m=w, barrier_m=d, t1_m=t,
+                                                lambda1_m=lam))
+    assert "applies" not in bulk and "focusing_factor" not in bulk
+
+
+def test_long_junction_fit_gives_lambda_j_and_jc_from_the_pattern():
+    # lambda_J = L / (L/lambda_J); Jc from Jc W L (the model's), not from the measured Ic0.
+    from jjpattern.diagnose.run import GeometryInputs, geometry_block
+
+    fit = _fit(model="long-inline", period_T=0.15e-3, period_stderr_T=1e-7, ic0_A=4e-5,
+               ic0_stderr_A=1e-7, derived={"length_over_josephson_depth": 5.0,
+                                           "jc_times_area_A": 7e-5},
+               derived_stderr={"length_over_josephson_depth": 0.1, "jc_times_area_A": 1e-7})
+    block = geometry_block([fit], GeometryInputs(length_m=20e-6, width_m=5e-6))
+    assert block["josephson_depth_from_pattern_m"] == pytest.approx(4e-6, rel=1e-12)
+    assert block["josephson_depth_from_pattern_stderr_m"] == pytest.approx(20e-6 * 0.1 / 25)
+    assert block["jc_from_pattern_A_m2"] == pytest.approx(7e-5 / (20e-6 * 5e-6), rel=1e-12)
+    assert "jc_from_ic0_A_m2" not in block
+    assert block["magnetic_thickness_m"] == pytest.approx(PHI0_WB / (0.15e-3 * 20e-6))

@@ -85,7 +85,7 @@ def test_registered_model_is_fitted_by_name_and_gone_afterwards():
     # The uniform-junction model cannot describe these data: the model is what matters.
     assert uniform.reduced_chisq > 5 * fits[0].reduced_chisq
     with pytest.raises(InputError, match="unknown geometry 'cosine-profile'; use one of "
-                                         "rectangular, circular, two-channel"):
+                                         "rectangular, circular, two-channel, zero-pi"):
         get_model("cosine-profile")
     with pytest.raises(InputError, match="unknown geometry"):
         fit_pattern(field, positive, geometry="cosine-profile")

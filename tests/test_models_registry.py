@@ -22,7 +22,8 @@ from jjpattern.physics.models import (
 from jjpattern.physics.models.check import check_model
 from jjpattern.synthetic import ideal
 
-BUILT_IN = ("rectangular", "circular", "two-channel")
+BUILT_IN = ("rectangular", "circular", "two-channel", "zero-pi", "long-inline",
+            "long-overlap")
 
 
 def _spec(**changes):
@@ -36,7 +37,8 @@ def _spec(**changes):
 
 def test_built_in_models_in_registry_order():
     assert model_names() == BUILT_IN
-    assert [get_model(n).periodic for n in BUILT_IN] == [False, False, True]
+    assert [get_model(n).periodic for n in BUILT_IN] == [False, False, True, False, False,
+                                                          False]
 
 
 @pytest.mark.parametrize("name", BUILT_IN)
@@ -46,7 +48,8 @@ def test_every_registered_model_passes_the_self_check(name):
 
 def test_unknown_name_lists_the_known_ones():
     with pytest.raises(InputError, match="unknown geometry 'oval'; use one of rectangular, "
-                                         "circular, two-channel"):
+                                         "circular, two-channel, zero-pi, long-inline, "
+                                         "long-overlap"):
         get_model("oval")
 
 
@@ -62,7 +65,7 @@ def test_listing_models_loads_neither_numpy_nor_scipy():
 
 def test_references_agree_between_models_and_with_the_report():
     refs = all_references()
-    assert set(refs) == {"rowell", "barone", "jaklevic"}
+    assert set(refs) == {"rowell", "barone", "jaklevic", "df", "vanharlingen", "owen"}
     from jjpattern.report import methods
 
     shared = set(refs) & set(getattr(methods, "REFERENCES", {}))

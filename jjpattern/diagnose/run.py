@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -9,7 +10,7 @@ import numpy as np
 from ..fit.engine import local_fit
 from ..fit.models import MODELS
 from ..physics import geometry as geo
-from ..physics.patterns import node_flux
+from ..physics.models import get_model
 from ..result import stderr_key
 from .reconstruct import reconstruct
 from .shape import branch_flags, drift_flag, lifted_floor_A, long_junction_flag, shape_flags
@@ -38,7 +39,7 @@ def _half_periods(fit):
     if fit.field_offset_T is None or fit.lmfit_result is None:
         return None
     x, y, b0, p = fit.field_T, fit.ic_A, fit.field_offset_T, fit.period_T
-    first = float(node_flux(fit.model, 1)[0])
+    first = float(get_model(fit.model).nodes(1, fit.extra_params)[0])
     model = MODELS[fit.model]()
     out = []
     for side in (x < b0, x > b0):
@@ -63,29 +64,35 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
 
     Each derived number also gets a standard error (key ``..._stderr`` before its
     unit) from the period's and Ic0's, by central differences (the geometry given
-    is taken as exact).
+    is taken as exact). A withheld fit gives none. Where the model says what Ic0
+    is (a long junction's ``jc_times_area_A``), Jc uses that.
     """
     given = inputs.given()
     fit = next((f for f in fits if f.period_T is not None), None)
     if not given or fit is None:
         return None
-    area = fit.effective_area_m2
-    block = _derived(fit.period_T, fit.ic0_A, area, inputs)
+    ic0 = fit.derived.get("jc_times_area_A", fit.ic0_A) if fit.ic0_A is not None else None
+    ic0_err = fit.derived_stderr.get("jc_times_area_A", fit.ic0_stderr_A) if ic0 else None
+    block = _derived(fit.period_T, ic0, fit.effective_area_m2, inputs, fit)
     errors = {}
-    for which, err in ((0, fit.period_stderr_T), (1, fit.ic0_stderr_A)):
-        if not err or (which == 1 and fit.ic0_A is None):
+    for which, err in ((0, fit.period_stderr_T), (1, ic0_err)):
+        if not err or (which == 1 and ic0 is None):
             continue
-        args = [fit.period_T, fit.ic0_A]
+        args = [fit.period_T, ic0]
         up, down = list(args), list(args)
         up[which] += err
         down[which] -= err
-        hi = _derived(up[0], up[1], geo.PHI0_WB / up[0], inputs)
-        lo = _derived(down[0], down[1], geo.PHI0_WB / down[0], inputs)
+        hi = _derived(up[0], up[1], geo.PHI0_WB / up[0], inputs, fit)
+        lo = _derived(down[0], down[1], geo.PHI0_WB / down[0], inputs, fit)
         for key, value in block.items():
             if isinstance(value, float) and isinstance(hi.get(key), float) and isinstance(
                     lo.get(key), float):
                 errors[key] = errors.get(key, 0.0) + (0.5 * (hi[key] - lo[key])) ** 2
-    out = {"inputs": given, "branch": fit.branch}
+    ell, ell_err = fit.derived.get("length_over_josephson_depth"), fit.derived_stderr.get(
+        "length_over_josephson_depth")
+    if "josephson_depth_from_pattern_m" in block and ell and ell_err:
+        errors["josephson_depth_from_pattern_m"] = (inputs.length_m * ell_err / ell**2) ** 2
+    out = {"inputs": given, "branch": fit.branch, "model": fit.model}
     for key, value in block.items():
         out[key] = value
         if key in errors:
@@ -93,17 +100,20 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
     return out
 
 
-def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs) -> dict:
+def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs, fit=None) -> dict:
+    """The numbers; ``ic0_A`` is Jc times the junction area for the model fitted."""
     out = {}
     length = inputs.length_m
+    long_fit = fit is not None and "length_over_josephson_depth" in fit.derived
     if length:
         out["magnetic_thickness_m"] = geo.PHI0_WB / (period_T * length)
-    if inputs.barrier_m is not None and inputs.t1_m and inputs.lambda1_m and length:
+    if inputs.barrier_m is not None and inputs.t1_m and inputs.lambda1_m:
         dm = geo.magnetic_thickness_m(inputs.barrier_m, inputs.lambda1_m, inputs.t1_m,
                                       inputs.lambda2_m, inputs.t2_m)
         out["expected_magnetic_thickness_m"] = dm
-        out["expected_period_T"] = geo.expected_period_T(length, dm)
-        out["period_over_expected"] = period_T / out["expected_period_T"]
+        if length:
+            out["expected_period_T"] = geo.expected_period_T(length, dm)
+            out["period_over_expected"] = period_T / out["expected_period_T"]
     if inputs.barrier_m is not None and inputs.t1_m and length:
         lam = geo.london_depth_from_period(period_T, length, inputs.barrier_m, inputs.t1_m,
                                            inputs.t2_m, inputs.lambda2_m)
@@ -111,9 +121,13 @@ def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs) -> dict:
         out["london_depth_assumption"] = ("lambda1 with lambda2 as given" if inputs.lambda2_m
                                           else "both electrodes share one lambda")
     jc = inputs.jc_A_m2
+    if long_fit and length:
+        # The pattern itself gives L / lambda_J, so lambda_J needs only the length.
+        out["josephson_depth_from_pattern_m"] = length / max(
+            fit.derived["length_over_josephson_depth"], 1e-300)
     if jc is None and ic0_A and length and inputs.width_m:
         jc = ic0_A / (length * inputs.width_m)
-        out["jc_from_ic0_A_m2"] = jc
+        out["jc_from_pattern_A_m2" if long_fit else "jc_from_ic0_A_m2"] = jc
     lam1 = inputs.lambda1_m or out.get("london_depth_from_period_m")
     if jc and inputs.barrier_m is not None and inputs.t1_m and lam1:
         ds = geo.current_thickness_m(inputs.barrier_m, lam1, inputs.t1_m, inputs.lambda2_m,
@@ -122,12 +136,28 @@ def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs) -> dict:
         out["josephson_depth_m"] = float(geo.josephson_depth_m(jc, ds))
         if length:
             out["length_over_josephson_depth"] = length / out["josephson_depth_m"]
-    if inputs.planar and inputs.width_m:
+    if inputs.planar:
+        out.update(_planar(period_T, area_m2, inputs, out.get("expected_magnetic_thickness_m")))
+    return out
+
+
+def _planar(period_T, area_m2, inputs: GeometryInputs, thickness_m) -> dict:
+    """Numbers of a planar (thin-film) junction, kept apart from the bulk ones.
+
+    The focusing factor is the trade's: the effective area over the bulk area
+    W d' that the field would thread without focusing by the films.
+    """
+    out = {"applies": ("planar junction: the period is set by flux focusing in the films "
+                       "(1.84 Phi0/W^2 for a thin strip), so the bulk numbers above (magnetic "
+                       "thickness and London depth from the period, which assume a field "
+                       "threading L d') do not apply; the planar numbers do")}
+    if inputs.width_m:
         out["planar_expected_period_T"] = geo.planar_period_T(inputs.width_m)
         out["planar_period_over_expected"] = period_T / out["planar_expected_period_T"]
-    if inputs.planar and length and inputs.width_m:
-        # Planar films focus the field: the effective area exceeds the junction's own.
-        out["focusing_factor"] = geo.focusing_factor(area_m2, length * inputs.width_m)
+        out["planar_area_over_thin_film_estimate"] = (
+            area_m2 / (inputs.width_m**2 / 1.84))
+        if thickness_m:
+            out["focusing_factor"] = geo.focusing_factor(area_m2, inputs.width_m * thickness_m)
     return out
 
 
@@ -141,12 +171,17 @@ def diagnose(fits, *, seed=0, resamples=200, geometry: GeometryInputs | None = N
     densities = {}
     flags = []
     for fit in fits:
+        if fit.period_T is None and getattr(fit, "withheld", None):
+            # A model that misses the data gives no numbers, but the shape of the data
+            # still speaks: the shape flags read it at the trial period and offset.
+            flags += shape_flags(_trial(fit), criterion_floor_A=criterion_floor_A)
+            continue
         if fit.period_T is None:
             continue
         density = None
         centred = (fit.field_offset_T is not None
                    and fit.field_T[0] < fit.field_offset_T < fit.field_T[-1])
-        if centred:
+        if centred and _reconstructable(fit):
             # Lifted nodes mean an asymmetric profile: then do not assume symmetry.
             lifted = lifted_floor_A(fit, criterion_floor_A) is not None
             density = _density(fit, "support" if lifted else "symmetric", rng, resamples)
@@ -157,7 +192,28 @@ def diagnose(fits, *, seed=0, resamples=200, geometry: GeometryInputs | None = N
             flags += drift_flag(fit, halves)
     flags += branch_flags(fits)
     block = geometry_block(fits, geometry or GeometryInputs())
-    if block and "length_over_josephson_depth" in block:
+    pattern_long = next((f for f in fits if f.derived.get("length_over_josephson_depth")), None)
+    if pattern_long is not None:
+        flags += long_junction_flag(pattern_long.branch, None, None,
+                                    pattern_ratio=pattern_long.derived[
+                                        "length_over_josephson_depth"], model=pattern_long.model)
+    elif block and "length_over_josephson_depth" in block:
         flags += long_junction_flag(block["branch"], geometry.length_m,
                                     block["josephson_depth_m"])
     return {"current_density": densities, "geometry": block, "flags": flags}
+
+
+def _reconstructable(fit) -> bool:
+    """The Dynes-Fulton reconstruction assumes a short junction with a central maximum: not
+    for a long junction (self-field), a 0-pi pattern or a periodic (two-channel) one."""
+    spec = get_model(fit.model)
+    return (spec.central_peak and not spec.periodic
+            and "length_over_josephson_depth" not in fit.derived)
+
+
+def _trial(fit):
+    """A copy of a withheld fit carrying its trial numbers, for the shape flags only."""
+    p = fit.best_params
+    return dataclasses.replace(fit, period_T=p["period_T"], field_offset_T=p["field_offset_T"],
+                               ic0_A=p["ic0_A"], node_floor_A=None, node_floor_stderr_A=None,
+                               extra_params={k: p[k] for k in fit.extra_params if k in p})

@@ -85,15 +85,19 @@ def mirror_redchi(x, y, centre, noise):
     return float(np.median(diff**2) / _CHI2_1_MEDIAN / (2 * noise**2)), int(b.size)
 
 
-def _lobe_maxima(geometry, count):
-    """Side-lobe maxima of the unit pattern of ``geometry`` (uniform current), lobes 1..count."""
-    from ..physics.patterns import PATTERNS, node_flux
+def _lobe_maxima(geometry, count, extras=None):
+    """Side-lobe maxima of the pattern of ``geometry`` over its main-lobe maximum, lobes
+    1..count (the main lobe of a 0-pi pattern is the pair around its central zero)."""
+    from ..physics.models import get_model
 
-    nodes = node_flux(geometry, count + 1)
+    spec = get_model(geometry)
+    extras = extras or {}
+    nodes = spec.nodes(count + 1, extras)
+    main = float(np.max(spec.formula(np.linspace(0.0, nodes[0], 801), **extras)))
     out = []
     for a, b in zip(nodes[:-1], nodes[1:], strict=True):
         u = np.linspace(a, b, 401)
-        out.append(float(np.max(PATTERNS[geometry](u))))
+        out.append(float(np.max(spec.formula(u, **extras))) / main)
     return np.asarray(out)
 
 
@@ -104,20 +108,24 @@ def side_lobe_ratio(fit, max_lobes=4):
     the data (smoothed over a tenth of a period) between two fitted nodes, on both
     sides where measured. Returns ``(ratio, stderr, lobes used)`` or ``None``.
     """
-    from ..physics.patterns import node_flux
+    from ..physics.models import get_model
 
     x, y, b0, p = fit.field_T, fit.ic_A, fit.field_offset_T, fit.period_T
     if b0 is None:
         return None
+    extras = {k: v for k, v in (getattr(fit, "extra_params", None) or {}).items()
+              if v is not None}
+    spec = get_model(fit.model)
     width = max(1, int(round(0.1 * p / np.median(np.diff(x)))))
     smooth = np.convolve(y, np.ones(width) / width, mode="same")
-    first = float(node_flux(fit.model, 1)[0])
-    main = np.abs(x - b0) < 0.5 * first * p
+    first = float(spec.nodes(1, extras)[0])
+    # Within the main lobe: its middle half, or up to the first node for a 0-pi pattern.
+    main = np.abs(x - b0) < (0.5 if spec.central_peak else 1.0) * first * p
     if main.sum() < 3:
         return None
     h0 = float(np.max(smooth[main]))
-    nodes = node_flux(fit.model, max_lobes + 1)
-    ideal = _lobe_maxima(fit.model, max_lobes)
+    nodes = spec.nodes(max_lobes + 1, extras)
+    ideal = _lobe_maxima(fit.model, max_lobes, extras)
     ratios = []
     for n in range(max_lobes):
         for sign in (1.0, -1.0):
@@ -241,7 +249,11 @@ def shape_flags(fit, *, criterion_floor_A=0.0, density=None) -> list:
     if floor is not None and floor.pop("lifted"):
         flags.append(make_flag(
             "nodes-lifted", fit.branch, **floor,
-            floor_over_ic0=round(floor["lifted_floor_A"] / fit.best_params["ic0_A"], 4)))
+            # Over Ic0 only where Ic0 is given (a main lobe outside the window is never
+            # measured), and always over the largest measured Ic.
+            floor_over_ic0=(round(floor["lifted_floor_A"] / fit.ic0_A, 4) if fit.ic0_A
+                            else None),
+            floor_over_ic_max=round(floor["lifted_floor_A"] / fit.ic_max_A, 4)))
     if fit.field_offset_T is None or not (x[0] + fit.period_T < fit.field_offset_T
                                           < x[-1] - fit.period_T):
         return flags  # the centre of the pattern is not measured with a period either side
@@ -310,11 +322,18 @@ def drift_flag(fit, half_periods) -> list:
                       threshold_sigmas=DRIFT_SIGMAS)]
 
 
-def long_junction_flag(branch, length_m, josephson_depth_m) -> list:
-    """L / lambda_J from the geometry and Jc given by the user."""
+def long_junction_flag(branch, length_m, josephson_depth_m, *, pattern_ratio=None,
+                       model=None) -> list:
+    """L / lambda_J from the pattern itself (a long-junction model was fitted), or from the
+    geometry and Jc given by the user."""
+    if pattern_ratio is not None:
+        if pattern_ratio <= LONG_RATIO:
+            return []
+        return [make_flag("long-junction", branch, source="pattern", model=model,
+                          length_over_josephson_depth=pattern_ratio, threshold=LONG_RATIO)]
     ratio = length_m / josephson_depth_m
     if ratio <= LONG_RATIO:
         return []
-    return [make_flag("long-junction", branch, length_m=length_m,
+    return [make_flag("long-junction", branch, source="geometry", length_m=length_m,
                       josephson_depth_m=josephson_depth_m, length_over_josephson_depth=ratio,
                       threshold=LONG_RATIO)]

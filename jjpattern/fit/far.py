@@ -19,16 +19,23 @@ def periodic_shape(u):
     return np.abs(np.sin(np.pi * u))
 
 
+def periodic_candidate(x, y) -> Candidate | None:
+    """The best period of the periodic template, or ``None`` when the scan finds nothing."""
+    found = scan_pattern(x, y, periodic_shape, extend=0.0).candidates
+    return found[0] if found else None
+
+
 def far_lobe_start(x, y, unit_shape, *, lobes_away: int = 60,
-                   per_period: int = 16) -> Candidate | None:
+                   per_period: int = 16, periodic: Candidate | None = None) -> Candidate | None:
     """Best (period, offset, amplitude) with the main lobe up to ``lobes_away`` periods out.
 
-    Returns ``None`` when the periodic scan finds nothing.
+    ``periodic`` is the periodic scan's candidate when already known (it does not
+    depend on ``unit_shape``). Returns ``None`` when the periodic scan finds nothing.
     """
-    found = scan_pattern(x, y, periodic_shape, extend=0.0).candidates
-    if not found:
+    found = periodic or periodic_candidate(x, y)
+    if found is None:
         return None
-    period = found[0].period_T
+    period = found.period_T
     offsets = np.arange(x[0] - lobes_away * period, x[-1] + lobes_away * period,
                         period / per_period)
     shapes = unit_shape((x[None, :] - offsets[:, None]) / period)

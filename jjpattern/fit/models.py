@@ -49,7 +49,13 @@ class PatternModel(lmfit.Model):
         return self.spec.unit_shape(u)
 
     def scan(self, data, field_T, **kwargs) -> ScanResult:
-        """Global (period, offset) search over the data; see :func:`scan_pattern`."""
+        """Global (period, offset) search over the data; see :func:`scan_pattern`.
+
+        A periodic pattern's offset is defined modulo a period, so its offsets are
+        searched within the window only.
+        """
+        if self.spec.periodic:
+            kwargs.setdefault("extend", 0.0)
         return scan_pattern(np.asarray(field_T), np.asarray(data), self.unit_shape, **kwargs)
 
 

@@ -27,7 +27,11 @@ class PatternFit:
     underlying :class:`lmfit.model.ModelResult`, for further work.
     ``extra_params`` and ``extra_stderr`` hold the model's extra parameters by
     name (magnitudes where the pattern is even in them); those with a JSON key
-    of their own (``asymmetry``) are also copied there.
+    of their own (``asymmetry``) are also copied there. ``derived`` holds the
+    model's own derived numbers (``jc_times_area_A`` of a long junction) with
+    ``derived_stderr``; ``withheld`` says why the numbers of a fit that misses the
+    data are ``None`` (``best_params`` then holds the trial parameters, which are
+    not results); ``model_choice`` is the evidence of an automatic choice.
     """
 
     branch: str
@@ -64,6 +68,10 @@ class PatternFit:
     extra_stderr: dict = field(default_factory=dict, repr=False)
     floor_evidence: dict | None = field(default=None, repr=False)
     lmfit_result: object = field(default=None, repr=False)
+    derived: dict = field(default_factory=dict, repr=False)
+    derived_stderr: dict = field(default_factory=dict, repr=False)
+    withheld: dict | None = field(default=None, repr=False)
+    model_choice: dict | None = field(default=None, repr=False)
 
     def to_dict(self) -> dict:
         """The ``fits`` entry of the JSON document (plain floats, ``None`` for null)."""
@@ -78,7 +86,8 @@ class PatternFit:
         return out
 
     def model_A(self, field_T) -> np.ndarray:
-        """The best-fit curve at ``field_T`` (also where offset or Ic0 are withheld)."""
+        """The best-fit curve at ``field_T`` (also where offset or Ic0 are withheld; for a
+        fit withheld as poor it is the trial curve, which describes nothing)."""
         p = self.best_params
         if not p:
             return np.full(np.shape(field_T), np.nan)

@@ -145,6 +145,7 @@ def scan_pattern(
     tolerance: float = 0.25,
     coarse: float = 4.0,
     keep: int = 4,
+    period_range: tuple[float, float] | None = None,
 ) -> ScanResult:
     """Search periods and offsets of ``unit_shape`` over sorted data.
 
@@ -168,6 +169,9 @@ def scan_pattern(
         in periods.
     keep : int
         How many distinct local minima of the period profile to return.
+    period_range : (float, float), optional
+        Search only periods in this range (T), within the usual limits: when another
+        pattern's scan has already located the scale of the data.
     """
     x = np.asarray(field_T, dtype=float)
     y = np.asarray(ic_A, dtype=float)
@@ -175,6 +179,10 @@ def scan_pattern(
     median_step = float(np.median(np.diff(x)))
     p_min = max(span / (2 * max_lobes), min_points_per_period * median_step)
     p_max = 2.0 * span
+    if period_range is not None:
+        p_min, p_max = max(p_min, period_range[0]), min(p_max, period_range[1])
+        if p_max <= p_min:
+            p_min, p_max = min(p_min, p_max), max(p_min, p_max)
     surface = _Surface(x, y, unit_shape, max(p_min / 4.0, span / (_MAX_GRID - 1)), extend)
 
     rough = period_grid(span, p_min, p_max, coarse * tolerance)

@@ -55,6 +55,12 @@ def _headline_rows(fits) -> str:
     for fit in fits:
         funit = pick_unit(fit.period_T or fit.best_params.get("period_T") or 1e-3, FIELD_UNITS)
         cunit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
+        if fit.withheld:
+            cells = [fit.branch] + ["withheld"] * 5 + [f"{fit.reduced_chisq:.2f}", ""]
+            rows.append("<tr>" + "".join(
+                f'<td{" class=num" if i else ""}>{esc(c)}</td>' for i, c in enumerate(cells))
+                + "</tr>")
+            continue
         cells = [
             branch_words(fit.branch, fit.segment).removesuffix(" branch"),
             format_measure(fit.period_T, fit.period_stderr_T, FIELD_UNITS, funit),
@@ -73,6 +79,28 @@ def _headline_rows(fits) -> str:
             "reduced χ²", "lobes")
     return ("<table class=headline><tr>" + "".join(f"<th>{h}</th>" for h in head) + "</tr>"
             + "".join(rows) + "</table>")
+
+
+def _model_notes(fits) -> str:
+    """The model of each branch, how it was chosen, and any withheld numbers, in words."""
+    from .summary import choice_sentence
+
+    items = []
+    for fit in fits:
+        text = f"{fit.branch} branch: {fit.model} model"
+        choice = choice_sentence(fit.model_choice)
+        if choice:
+            text += f", {choice}"
+        if fit.withheld:
+            text += (f". Numbers withheld: {fit.withheld['text']}; the fit curve is not "
+                     "drawn")
+        elif fit.derived:
+            from .summary import derived_items
+
+            text += ". The model also gives " + ", ".join(
+                f"{name} {value}" for name, value in derived_items(fit))
+        items.append(f"<li>{esc(text)}.</li>")
+    return "<ul>" + "".join(items) + "</ul>"
 
 
 def _flags(flags, fits=()) -> str:
@@ -144,8 +172,8 @@ def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
         f'{esc(result.tool["version"])}.</p>',
         '<section id="headline"><h2>Headline numbers</h2>',
         _headline_rows(result.fits),
-        f"<p class=meta>Model: {esc(result.fits[0].model)} junction. "
-        "Uncertainties are one standard error. Effective area = Φ0 / period. "
+        _model_notes(result.fits),
+        "<p class=meta>Uncertainties are one standard error. Effective area = Φ0 / period. "
         "Reduced χ² is against the point-to-point noise of the data.</p></section>",
     ]
     reading = layout_lines(result.input)

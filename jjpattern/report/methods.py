@@ -25,6 +25,8 @@ REFERENCES = {
     "bcs": "J. Bardeen, L. N. Cooper and J. R. Schrieffer, Phys. Rev. 108, 1175 (1957).",
     "df": "R. C. Dynes and T. A. Fulton, Phys. Rev. B 3, 3015 (1971).",
     "fienup": "J. R. Fienup, Appl. Opt. 21, 2758 (1982).",
+    "schwarz": "G. Schwarz, Ann. Stat. 6, 461 (1978).",
+    "kass": "R. E. Kass and A. E. Raftery, J. Am. Stat. Assoc. 90, 773 (1995).",
 }
 
 def _junction(meta: dict) -> str:
@@ -123,6 +125,43 @@ def _reading_text(result) -> list[str]:
     return out
 
 
+def _model_choice_text(result, cited) -> str:
+    """How the model was chosen, when it was chosen automatically."""
+    choices = [f.model_choice for f in result.fits if f.model_choice]
+    if not choices:
+        return ""
+    cited += ["schwarz", "kass"]
+    first = choices[0]
+    names = ", ".join(c["model"] for c in first["candidates"])
+    text = (f"The model was chosen automatically: each branch was fitted with every model "
+            f"({names}) and they were ranked by the Bayesian information criterion "
+            f"BIC = chi^2/sigma^2 + k ln n [schwarz], with sigma the point-to-point noise "
+            f"of the data and k the number of fitted parameters; a model is reported when "
+            f"no simpler one lies within {first['margin']:g} of it [kass], otherwise the "
+            "simplest within that margin.")
+    for fit in result.fits:
+        c = fit.model_choice
+        if not c or c.get("runner_up") is None:
+            continue
+        if c["decision"] == "clear":
+            text += (f" For the {fit.branch} branch {c['chosen']} was preferred, with "
+                     f"{c['runner_up']} next at a BIC higher by {c['criterion_difference']:.1f}.")
+        else:
+            other = (c["lowest_criterion"] if c["lowest_criterion"] != c["chosen"]
+                     else c["runner_up"])
+            text += (f" For the {fit.branch} branch the choice was a near tie ({other} within "
+                     f"{c['margin']:g} of {c['chosen']}), and the simpler {c['chosen']} model "
+                     "is reported.")
+    return text
+
+
+def _derived_text(fit) -> str:
+    from .summary import derived_items
+
+    parts = [f"{name} {text}" for name, text in derived_items(fit)]
+    return "; the model also gives " + ", ".join(parts) if parts else ""
+
+
 def _fit_numbers(fit) -> str:
     funit = pick_unit(fit.period_T, FIELD_UNITS)
     cunit = pick_unit(fit.ic_max_A, CURRENT_UNITS)
@@ -154,9 +193,17 @@ def methods_paragraph(result, field_calibration: str) -> str:
     if result.extraction is not None:
         out.append(_extraction_text(result.extraction, cited))
     fits = result.fits
-    spec = get_model(fits[0].model)
-    model = spec.methods_text + "".join(f" [{key}]" for key in spec.references)
-    cited += list(spec.references)
+    choice = _model_choice_text(result, cited)
+    if choice:
+        out.append(choice)
+    specs = []
+    for f in fits:
+        if get_model(f.model) not in specs:
+            specs.append(get_model(f.model))
+    model = " or ".join(s.methods_text + "".join(f" [{key}]" for key in s.references)
+                        for s in specs)
+    for s_ in specs:
+        cited += list(s_.references)
     segments = list(dict.fromkeys(f.segment for f in fits if f.segment))
     polarities = list(dict.fromkeys(branch_words(f.branch, f.segment).split()[0]
                                     for f in fits))
@@ -186,6 +233,11 @@ def methods_paragraph(result, field_calibration: str) -> str:
     if field_calibration:
         out.append(field_calibration)
     for fit in fits:
+        if fit.withheld:
+            out.append(f"For the {fit.branch} branch ({fit.points_used} points) no period, "
+                       f"field offset or Ic0 is given: {fit.withheld['text']}, and no fit "
+                       "curve is shown.")
+            continue
         if fit.period_T is None:
             codes = ", ".join(f.code for f in result.flags if f.branch == fit.branch
                               and f.severity == "error")
@@ -197,6 +249,10 @@ def methods_paragraph(result, field_calibration: str) -> str:
         if fit.field_offset_T is None:
             sentence += ("; the field offset and Ic0 are not given because the main lobe lies "
                          "outside the measured window and the side lobes do not locate it")
+        sentence += _derived_text(fit)
+        meaning = get_model(fit.model).ic0_meaning
+        if meaning and fit.ic0_A is not None:
+            sentence += f" (Ic0 is {meaning})"
         out.append(sentence + ".")
     dropped = result.input["points_dropped"]
     outliers = sum(f.points_downweighted for f in fits)
@@ -245,7 +301,8 @@ def methods_paragraph(result, field_calibration: str) -> str:
     numbered = {key: i + 1 for i, key in enumerate(k for k in order if f"[{k}]" in text)}
     for key, n in numbered.items():
         text = text.replace(f"[{key}]", f"[{n}]")
-    known = {**REFERENCES, **spec.references,
-             **((result.extraction or {}).get("methods_references") or {})}
+    known = {**REFERENCES, **((result.extraction or {}).get("methods_references") or {})}
+    for s_ in specs:
+        known.update(s_.references)
     refs = "\n".join(f"[{n}] {known[key]}" for key, n in numbered.items())
     return f"{text}\n\nReferences\n{refs}\n"

@@ -57,13 +57,19 @@ def pattern_figure(fits, title: str = ""):
                                                                                   ms=3)
         top.plot(fit.field_T / ffac, fit.ic_A / cfac, ls="none", color=colour,
                  label=f"{fit.branch} branch", **marker)
-        if fit.best_params:
+        if fit.best_params and not getattr(fit, "withheld", None):
             dense = np.linspace(fit.field_min_T, fit.field_max_T, 4000)
             top.plot(dense / ffac, fit.model_A(dense) / cfac, "--" if back else "-", lw=1.0,
                      color=FIT_COLOUR)
             bottom.plot(fit.field_T / ffac, fit.residual_A() / cfac, ls="none", color=colour,
                         **marker)
-    top.plot([], [], "-", color=FIT_COLOUR, lw=1.0, label=f"fit ({fits[0].model})")
+    drawn = sorted({f.model for f in fits if f.best_params and not getattr(f, "withheld", None)})
+    if drawn:
+        top.plot([], [], "-", color=FIT_COLOUR, lw=1.0, label=f"fit ({', '.join(drawn)})")
+    for fit in fits:
+        if getattr(fit, "withheld", None):
+            # A model that misses the data is not drawn: a curve would suggest it fits.
+            top.plot([], [], " ", label=f"{fit.branch}: no model fits, none drawn")
     bottom.axhline(0.0, color="#888888", lw=0.8)
     top.set_ylabel(f"critical current ({cunit})")
     bottom.set_ylabel(f"residual ({cunit})")

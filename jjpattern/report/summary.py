@@ -9,6 +9,7 @@ from .display import (
     VOLTAGE_UNITS,
     derived_rows,
     format_measure,
+    format_si_key,
     pick_unit,
 )
 
@@ -114,7 +115,48 @@ def hysteresis_lines(block: dict | None) -> list[str]:
     return out
 
 
+def choice_sentence(choice: dict | None) -> str:
+    """The automatic model choice in words (empty when the model was given)."""
+    if not choice:
+        return ""
+    chosen, runner = choice["chosen"], choice.get("runner_up")
+    text = f"chosen automatically by {choice['criterion']} over {len(choice['candidates'])} models"
+    if choice.get("branches"):
+        text += f", summed over {choice['branches']} branches"
+    if runner is None:
+        return text
+    diff = choice["criterion_difference"]
+    if choice["decision"] == "clear":
+        return (f"{text}: {chosen}, next {runner} {diff:+.1f} "
+                f"(margin {choice['margin']:g})")
+    lowest = choice["lowest_criterion"]
+    if lowest != chosen:
+        return (f"{text}: near tie, {lowest} is lower by {-diff:.1f}, less than the margin "
+                f"{choice['margin']:g}, so the simpler {chosen} model is reported")
+    return (f"{text}: near tie between {chosen} and {runner} ({diff:+.1f}, margin "
+            f"{choice['margin']:g}); the simpler {chosen} model is reported")
+
+
+def derived_items(fit) -> list:
+    """``(name, text)`` for the model's own derived numbers (L/lambda_J, Jc W L, ...)."""
+    rows = []
+    for key, value in (fit.derived or {}).items():
+        err = (fit.derived_stderr or {}).get(key)
+        name = key.removesuffix("_A").removesuffix("_T").replace("_", " ")
+        text = (format_measure(value, err, CURRENT_UNITS) if key.endswith("_A")
+                else format_si_key(key, value, err))
+        rows.append((name.replace("jc times area", "Jc times area"), text))
+    return rows
+
+
 def _fit_lines(fit) -> list[str]:
+    if fit.withheld:
+        head = f"{fit.branch} branch, {fit.model} model: numbers withheld"
+        lines = [head, f"  {fit.withheld['text']}."]
+        choice = choice_sentence(fit.model_choice)
+        if choice:
+            lines.append(f"  model {choice}")
+        return lines + [f"  in window: {fit.points_used} points; no fit curve is drawn"]
     scale = fit.period_T or fit.best_params.get("period_T") or abs(fit.field_max_T)
     field_unit = pick_unit(scale, FIELD_UNITS)
     current_unit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
@@ -139,9 +181,22 @@ def _fit_lines(fit) -> list[str]:
     if fit.loss != "linear":
         rows.append(("robust loss", f"{fit.loss}, {fit.points_downweighted} points "
                                     "down-weighted"))
+    rows += derived_items(fit)
+    choice = choice_sentence(fit.model_choice)
+    if choice:
+        rows.append(("model", choice))
     width = max(len(k) for k, _ in rows)
     head = f"{branch_words(fit.branch, fit.segment)}, {fit.model} model"
-    return [head] + [f"  {k.ljust(width)}  {v}" for k, v in rows]
+    lines = [head] + [f"  {k.ljust(width)}  {v}" for k, v in rows]
+    from ..physics.models import get_model
+
+    try:
+        meaning = get_model(fit.model).ic0_meaning
+    except ValueError:
+        meaning = ""
+    if meaning:
+        lines.append(f"  Ic0 here is {meaning}")
+    return lines
 
 
 def _counts(entry: dict) -> str:

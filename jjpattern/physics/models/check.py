@@ -16,7 +16,8 @@ _NODES = 6
 def check_model(spec: PatternModelSpec, *, rtol: float = 1e-9) -> list[str]:
     """Departures of ``spec`` from what the fit assumes; an empty list when there are none.
 
-    Checked: peak ``ic0_A`` at the offset and nowhere higher; even about the
+    Checked: peak ``ic0_A`` at the offset (unless the spec says the pattern has no
+    central peak) and nowhere higher; even about the
     offset; floor in quadrature; the formula is ``ic0_A * unit_shape(u)`` (so the
     scan template matches what is fitted); vectorised (keeps the shape of
     ``field_T``); ``node_flux`` increasing and positive, the pattern vanishing there
@@ -34,10 +35,14 @@ def check_model(spec: PatternModelSpec, *, rtol: float = 1e-9) -> list[str]:
         return [f"formula fails on an array: {exc!r}"]
     if base.shape != b.shape or not np.all(np.isfinite(base)):
         return ["formula must return finite values with the shape of field_T"]
-    if not np.isclose(float(f(_OFFSET_T, **kw)), _IC0_A, rtol=rtol, atol=0):
+    if spec.central_peak and not np.isclose(float(f(_OFFSET_T, **kw)), _IC0_A, rtol=rtol,
+                                            atol=0):
         problems.append("the pattern must peak at ic0_A at the offset")
     if base.max() > _IC0_A * (1 + rtol):
         problems.append("the pattern exceeds ic0_A away from the offset")
+    if not spec.central_peak and base.max() < 0.1 * _IC0_A:
+        problems.append("ic0_A must set the scale of the pattern (its maximum is below "
+                        "a tenth of ic0_A)")
     if not np.allclose(f(2 * _OFFSET_T - b, **kw), base, rtol=rtol, atol=rtol * _IC0_A):
         problems.append("the pattern must be even about the offset")
     floored = f(b, floor_A=_FLOOR_A, **kw)

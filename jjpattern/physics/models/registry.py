@@ -21,6 +21,9 @@ _MODULES = (
     "rectangular",
     "circular",
     "two_channel",
+    "zero_pi",
+    "long_inline",
+    "long_overlap",
 )
 
 # Models added by ``registered``: an immutable tuple per context, reset on leaving the

@@ -58,6 +58,15 @@ class ExtraParameter:
         The pattern is even in this parameter, so its magnitude is reported.
     description : str
         One line for people: what the parameter means.
+    grid : tuple of float
+        Values tried when starting the local fit, for a parameter that changes
+        the shape of the pattern (the length of a long junction): at each, the
+        period found by the scan is rescaled so that the first node stays put.
+        Empty: start at ``start`` only.
+    limit : float
+        Largest magnitude the model describes (a table's end). A fit that runs to
+        within 2 % of it is not a fit of this model: the automatic choice leaves
+        the model out and a forced fit withholds its numbers.
     """
 
     name: str
@@ -66,6 +75,12 @@ class ExtraParameter:
     max: float = math.inf
     even: bool = False
     description: str = ""
+    grid: tuple[float, ...] = ()
+    limit: float = math.inf
+
+    def at_limit(self, value) -> bool:
+        """``value`` lies at (or beyond) the end of the range the model describes."""
+        return abs(float(value)) >= 0.98 * self.limit
 
 
 @dataclass(frozen=True, eq=False)
@@ -86,7 +101,9 @@ class PatternModelSpec:
         signature).
     node_flux : callable
         ``node_flux(count)`` -> the first ``count`` nodes on one side of the centre,
-        in units of the flux quantum (reduced flux ``u = (B - B0) / period``).
+        in units of the flux quantum (reduced flux ``u = (B - B0) / period``). Where
+        the nodes move with an extra parameter, ``node_flux`` takes it as a keyword
+        argument too (the minima of a long junction's pattern move with its length).
     description : str
         One line for the command-line help.
     methods_text : str
@@ -102,6 +119,17 @@ class PatternModelSpec:
     unit_shape : callable, optional
         Unit-height pattern of ``u`` that the global scan slides along the data;
         by default the formula at its defaults, ``formula(u)``.
+    central_peak : bool
+        The pattern peaks (at ``ic0_A``) at the offset. ``False`` for a pattern with
+        a minimum there (a 0-pi junction): ``ic0_A`` is then the scale that
+        ``methods_text`` defines and the pattern stays below it.
+    derive : callable, optional
+        ``derive(params) -> dict``: numbers this model derives from its fitted
+        parameters (``params`` holds the formula's keyword arguments), each key
+        carrying its unit (``jc_times_area_A``); reported with standard errors.
+    ic0_meaning : str
+        What ``ic0_A`` is for this model, one line for the reports (empty: the
+        critical current at the centre of the pattern).
     """
 
     name: str
@@ -113,6 +141,9 @@ class PatternModelSpec:
     extra: tuple[ExtraParameter, ...] = ()
     periodic: bool = False
     unit_shape: Callable | None = None
+    central_peak: bool = True
+    derive: Callable | None = None
+    ic0_meaning: str = ""
 
     def __post_init__(self):
         problems = structure_problems(self)
@@ -127,6 +158,15 @@ class PatternModelSpec:
     def parameter_names(self) -> tuple[str, ...]:
         """The fitted parameters: the four of every pattern, then the extras."""
         return BASE_PARAMETERS + tuple(p.name for p in self.extra)
+
+    def nodes(self, count: int, extras: Mapping | None = None):
+        """``node_flux(count)``, with the extra parameters it takes (by keyword)."""
+        extras = extras or {}
+        try:
+            accepted = inspect.signature(self.node_flux).parameters
+        except (TypeError, ValueError):
+            accepted = {}
+        return self.node_flux(count, **{k: v for k, v in extras.items() if k in accepted})
 
 
 def _one_line(text) -> bool:
@@ -171,6 +211,10 @@ def structure_problems(spec: PatternModelSpec) -> list[str]:
             problems.append(f"{key} must be callable")
     if spec.unit_shape is not None and not callable(spec.unit_shape):
         problems.append("unit_shape must be callable or None")
+    if spec.derive is not None and not callable(spec.derive):
+        problems.append("derive must be callable or None")
+    if not isinstance(spec.ic0_meaning, str) or "\n" in spec.ic0_meaning:
+        problems.append("ic0_meaning must be one line")
     for key in ("description", "methods_text"):
         if not _one_line(getattr(spec, key)):
             problems.append(f"{key} must be one non-empty line")

@@ -1,0 +1,352 @@
+"""Automatic model choice: fit every registered model quickly, rank them by BIC.
+
+Each model gets the start the full fit would use (its own scan, the far-lobe
+start when the main lobe may lie outside, a grid over a shape parameter such as
+L / lambda_J) and a plain scipy least-squares fit, with the node floor decided
+as in the full fit. The criterion is the Bayesian information criterion with
+the model-free noise as the known variance,
+
+    BIC = chi^2 / sigma^2 + k ln(n)
+
+(Schwarz, Ann. Stat. 6, 461 (1978)); k counts the fitted parameters. The model
+with the lowest BIC is a clear winner when every other model is at least
+``MARGIN`` above it (Kass and Raftery, J. Am. Stat. Assoc. 90, 773 (1995): a
+difference above 10 is very strong evidence); otherwise the choice is a near
+tie and the simplest model within the margin of the lowest is reported (fewest
+parameters, then registry order). Because the noise
+estimate never underestimates (see ``noise.py``), the criterion errs towards the
+simpler model.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..physics.models import get_model, model_names
+from .far import far_lobe_start, periodic_candidate
+from .scan import scan_pattern
+
+#: BIC difference that makes a choice clear (Kass and Raftery 1995: "very strong").
+MARGIN = 10.0
+CRITERION = "BIC"
+#: Shape-parameter starts: the period found by the scan is also tried at these factors.
+_PERIOD_FACTORS = (0.7, 0.85, 1.0, 1.2, 1.45)
+
+
+@dataclass
+class Trial:
+    """One model's quick fit: its parameters, chi-square over the noise and BIC."""
+
+    name: str
+    params: dict
+    chisq_over_noise: float
+    parameters: int
+    floor: bool
+    bic: float = np.inf
+    at_limit: list = field(default_factory=list)
+
+
+@dataclass
+class ModelChoice:
+    """The outcome: the model to report, the start for its full fit, the evidence."""
+
+    chosen: str
+    start: dict
+    block: dict
+
+
+def robust_weight(z2, loss):
+    """IRLS weight of each point for a scipy loss, ``rho'(z)`` with ``z = (r / f_scale)^2``."""
+    if loss == "soft_l1":
+        return 1.0 / np.sqrt(1.0 + z2)
+    if loss == "huber":
+        return np.where(z2 <= 1.0, 1.0, 1.0 / np.sqrt(np.maximum(z2, 1.0)))
+    if loss == "cauchy":
+        return 1.0 / (1.0 + z2)
+    return np.ones_like(z2)
+
+
+def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float):
+    """Least squares of one model from ``start`` with scipy alone (no lmfit overhead).
+
+    Returns ``(params, weighted chi-square in A^2, number of fitted parameters)``;
+    with a robust loss the chi-square uses the robust weights at the solution,
+    as the full fit's reduced chi-square does.
+    """
+    from scipy import optimize
+
+    names = ["ic0_A", "period_T", "field_offset_T"]
+    if floor:
+        names.append("floor_A")
+    names += [p.name for p in spec.extra]
+    fixed = {} if floor else {"floor_A": 0.0}
+    v0 = np.array([float(start.get(n, 0.0)) for n in names])
+    if floor and v0[3] == 0.0:
+        v0[3] = 0.05 * abs(v0[0])
+    for i, p in enumerate(spec.extra, start=len(names) - len(spec.extra)):
+        if p.name not in start:
+            v0[i] = p.start
+    scale = np.maximum(np.abs(v0), 1e-30)
+
+    def residual(v):
+        return spec.formula(x, **dict(zip(names, v * scale, strict=True)), **fixed) - y
+
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        # An unfinished search still gives an honest (if high) chi-square to rank by.
+        warnings.simplefilter("ignore", RuntimeWarning)
+        if loss == "linear":
+            # MINPACK's lmdif directly: the least Python per iteration.
+            best = optimize.leastsq(residual, v0 / scale, maxfev=200 * (len(names) + 1))[0]
+        else:
+            best = optimize.least_squares(residual, v0 / scale, method="trf", loss=loss,
+                                          f_scale=f_scale).x
+    r = residual(best)
+    chisq = float(np.sum(robust_weight((r / f_scale) ** 2, loss) * r * r))
+    params = dict(zip(names, best * scale, strict=True))
+    params.setdefault("floor_A", 0.0)
+    return params, chisq, len(names)
+
+
+#: After the first model's scan, the others search periods within these factors of its
+#: best period (a 0-pi pattern fitted as a sinc shows twice its period, a circular one
+#: about 1.2 times); this halves their cost.
+_PERIOD_REACH = (0.25, 4.0)
+
+
+class _Scans:
+    """Scans shared between models: one per distinct unit shape, one periodic scan."""
+
+    def __init__(self, x, y):
+        self.x, self.y = x, y
+        self._cache = {}
+        self._scale = None
+
+    def best(self, shape, periodic=False):
+        if shape not in self._cache:
+            reach = (None if self._scale is None else
+                     (_PERIOD_REACH[0] * self._scale, _PERIOD_REACH[1] * self._scale))
+            # A periodic pattern's offset is modulo a period: offsets within the window.
+            found = scan_pattern(self.x, self.y, shape, extend=0.0 if periodic else 1.0,
+                                 period_range=reach)
+            self._cache[shape] = found.candidates[0] if found.candidates else None
+            if self._scale is None and self._cache[shape] is not None:
+                self._scale = self._cache[shape].period_T
+        return self._cache[shape]
+
+    def far(self, shape):
+        key = ("far", shape)
+        if key not in self._cache:
+            if "periodic" not in self._cache:
+                self._cache["periodic"] = periodic_candidate(self.x, self.y)
+            self._cache[key] = far_lobe_start(self.x, self.y, shape,
+                                              periodic=self._cache["periodic"])
+        return self._cache[key]
+
+
+def shape_start(spec, x, y, period_T, offset_T):
+    """For a model with a shape-parameter grid: the grid value and period that fit best.
+
+    At each grid value the scan's period is rescaled so that the model's first node
+    falls where the scan put the default shape's, then tried at a few factors; the
+    amplitude is solved in closed form. Returns a start dict.
+    """
+    grid_param = next(p for p in spec.extra if p.grid)
+    first = float(spec.nodes(1)[0])
+    best = (np.inf, None)
+    for value in grid_param.grid:
+        node = float(spec.nodes(1, {grid_param.name: value})[0])
+        for factor in _PERIOD_FACTORS:
+            period = period_T * first / node * factor
+            t = spec.formula(x, 1.0, period, offset_T, 0.0, **{grid_param.name: value})
+            amp = float(np.dot(t, y) / max(np.dot(t, t), 1e-300))
+            cost = float(np.sum((amp * t - y) ** 2))
+            if cost < best[0]:
+                best = (cost, {"ic0_A": amp, "period_T": period, "field_offset_T": offset_T,
+                               grid_param.name: value})
+    return best[1]
+
+
+def model_start(spec, scans: _Scans, x, y) -> dict | None:
+    """The start of the local fit: the scan's best candidate (and the shape grid)."""
+    cand = scans.best(spec.unit_shape, spec.periodic)
+    if cand is None:
+        return None
+    start = {"ic0_A": cand.amplitude_A + cand.background_A, "period_T": cand.period_T,
+             "field_offset_T": cand.field_offset_T, "floor_A": 0.0}
+    if any(p.grid for p in spec.extra):
+        start.update(shape_start(spec, x, y, cand.period_T, cand.field_offset_T))
+    return start
+
+
+def _nodes_inside(spec, x, params):
+    period, offset = abs(params["period_T"]), params["field_offset_T"]
+    extras = {p.name: params[p.name] for p in spec.extra}
+    reach = max(abs(x[0] - offset), abs(x[-1] - offset)) / period
+    u = np.asarray(spec.nodes(int(np.ceil(reach)) + 2, extras), dtype=float)
+    nodes = np.concatenate([offset - u * period, offset + u * period])
+    margin = 0.1 * period
+    return int(np.sum((nodes > x[0] + margin) & (nodes < x[-1] - margin)))
+
+
+def trial_fit(spec, x, y, noise, scans: _Scans, *, node_floor, loss, floor_dchi2, min_nodes):
+    """One model's quick fit with the full fit's choices of start and floor."""
+    start = model_start(spec, scans, x, y)
+    if start is None:
+        return None
+    f_scale = 2.0 * noise
+    params, chisq, k = quick_fit(spec, x, y, start, floor=node_floor == "on" and not
+                                 spec.periodic, loss=loss, f_scale=f_scale)
+    offset = params["field_offset_T"]
+    if not spec.periodic and (not x[0] <= offset <= x[-1]
+                              or _nodes_inside(spec, x, params) < min_nodes):
+        far = scans.far(spec.unit_shape)
+        if far is not None:
+            alt_start = dict(params, ic0_A=far.amplitude_A, period_T=far.period_T,
+                             field_offset_T=far.field_offset_T)
+            alt = quick_fit(spec, x, y, alt_start, floor=node_floor == "on", loss=loss,
+                            f_scale=f_scale)
+            if alt[1] < chisq:
+                params, chisq, k = alt
+    if not spec.periodic:
+        params, chisq, k = _walk_lobes(spec, x, y, params, chisq, k, node_floor == "on",
+                                       loss, f_scale)
+    floor = node_floor == "on" and not spec.periodic
+    gain = None
+    if node_floor == "auto" and not spec.periodic:
+        fp, fchisq, fk = quick_fit(spec, x, y, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
+                                   floor=True, loss=loss, f_scale=f_scale)
+        gain = (chisq - fchisq) / (fchisq / max(x.size - fk, 1))
+        if gain > floor_dchi2:
+            params, chisq, k, floor = fp, fchisq, fk, True
+    # The full fit of the chosen model takes the floor decision made here.
+    params["floor_gain"] = gain if floor else None
+    trial = Trial(spec.name, params, chisq / noise**2, k, floor)
+    trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
+    return trial
+
+
+def _walk_lobes(spec, x, y, params, chisq, k, floor, loss, f_scale, max_steps=3):
+    """With the main lobe near or beyond an edge, try the offset one and two lobes over,
+    downhill in chi-square, a few steps (the full fit of the chosen model walks further
+    before judging the offset; the far-lobe start has already placed it roughly)."""
+    period, origin = abs(params["period_T"]), params["field_offset_T"]
+    extras = {p.name: params[p.name] for p in spec.extra}
+    reach = float(spec.nodes(1, extras)[0]) * period
+    if x[0] <= origin - reach and origin + reach <= x[-1]:
+        return params, chisq, k
+    best, current, tried = (params, chisq, k), 0, {0}
+    for _ in range(max_steps):
+        moved = False
+        for step in (current - 2, current - 1, current + 1, current + 2):
+            if step in tried:
+                continue
+            tried.add(step)
+            alt = quick_fit(spec, x, y, dict(params, field_offset_T=origin + step * period),
+                            floor=floor, loss=loss, f_scale=f_scale)
+            if alt[1] < best[1]:
+                best, current, moved = alt, step, True
+        if not moved:
+            break
+    return best
+
+
+def _simplicity(trial: Trial, order: dict):
+    return trial.parameters, order.get(trial.name, len(order))
+
+
+def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
+                 floor_dchi2=10.0, min_nodes=2) -> ModelChoice | None:
+    """Quick-fit every model in ``names`` (default: all registered) and pick one by BIC.
+
+    Returns ``None`` when no model could be fitted at all.
+    """
+    names = tuple(names or model_names())
+    order = {name: i for i, name in enumerate(names)}
+    scans = _Scans(x, y)
+    trials = []
+    for name in names:
+        try:
+            trial = trial_fit(get_model(name), x, y, noise, scans, node_floor=node_floor,
+                              loss=loss, floor_dchi2=floor_dchi2, min_nodes=min_nodes)
+        except (ValueError, FloatingPointError, np.linalg.LinAlgError):
+            trial = None
+        if trial is not None and np.isfinite(trial.chisq_over_noise):
+            trial.bic = trial.chisq_over_noise + trial.parameters * np.log(x.size)
+            trials.append(trial)
+    # A model whose shape parameter ran to the end of its range does not fit: left out.
+    excluded = [{"model": t.name, "reason": f"{', '.join(t.at_limit)} ran to the end of the "
+                 "range the model describes"} for t in trials if t.at_limit]
+    trials = [t for t in trials if not t.at_limit]
+    if not trials:
+        return None
+    trials.sort(key=lambda t: t.bic)
+    lowest = trials[0]
+    within = [t for t in trials if t.bic - lowest.bic < MARGIN]
+    chosen = min(within, key=lambda t: _simplicity(t, order))
+    runner = next((t for t in trials if t is not chosen), None)
+    clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
+    block = {
+        "criterion": CRITERION,
+        "margin": MARGIN,
+        "noise_A": float(noise),
+        "points": int(x.size),
+        "chosen": chosen.name,
+        "lowest_criterion": lowest.name,
+        "runner_up": None if runner is None else runner.name,
+        "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
+        "decision": "clear" if clear else "near tie",
+        "candidates": [{"model": t.name, "bic": float(t.bic),
+                        "delta_bic": float(t.bic - lowest.bic),
+                        "chisq_over_noise": float(t.chisq_over_noise),
+                        "parameters": t.parameters, "node_floor": t.floor}
+                       for t in trials],
+        "excluded": excluded,
+    }
+    return ModelChoice(chosen.name, dict(chosen.params), block)
+
+
+def joint_choice(blocks, names=None) -> dict | None:
+    """One model for all branches of a junction: the per-branch BICs summed per model.
+
+    ``blocks`` are the ``model_choice`` blocks of the branches; only models fitted
+    on every branch compete. Returns the same layout as one branch's block (the
+    candidates carry summed values), or ``None`` with fewer than two blocks.
+    """
+    blocks = [b for b in blocks if b]
+    if len(blocks) < 2:
+        return None
+    names = tuple(names or model_names())
+    order = {name: i for i, name in enumerate(names)}
+    per_model = {}
+    for block in blocks:
+        for c in block["candidates"]:
+            entry = per_model.setdefault(c["model"], [0.0, 0.0, 0, False, 0])
+            entry[0] += c["bic"]
+            entry[1] += c["chisq_over_noise"]
+            entry[2] += c["parameters"]
+            entry[3] |= c["node_floor"]
+            entry[4] += 1
+    trials = [Trial(m, {}, v[1], v[2], v[3], v[0]) for m, v in per_model.items()
+              if v[4] == len(blocks)]
+    if not trials:
+        return None
+    trials.sort(key=lambda t: t.bic)
+    lowest = trials[0]
+    within = [t for t in trials if t.bic - lowest.bic < MARGIN]
+    chosen = min(within, key=lambda t: _simplicity(t, order))
+    runner = next((t for t in trials if t is not chosen), None)
+    clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
+    return {
+        "criterion": CRITERION, "margin": MARGIN, "branches": len(blocks),
+        "chosen": chosen.name, "lowest_criterion": lowest.name,
+        "runner_up": None if runner is None else runner.name,
+        "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
+        "decision": "clear" if clear else "near tie",
+        "candidates": [{"model": t.name, "bic": float(t.bic),
+                        "delta_bic": float(t.bic - lowest.bic),
+                        "chisq_over_noise": float(t.chisq_over_noise),
+                        "parameters": t.parameters, "node_floor": t.floor} for t in trials],
+    }
