@@ -91,9 +91,10 @@ def _analysis_parent() -> argparse.ArgumentParser:
 
     names = model_names()
     group.add_argument("--model", "--geometry", dest="model", choices=("auto",) + names,
-                       default="auto", metavar="MODEL",
-                       help="pattern model (default: auto, every model fitted and one chosen "
-                            "by the Bayesian information criterion with a margin): " + "; ".join(
+                       default="rectangular", metavar="MODEL",
+                       help="pattern model (default: rectangular; auto fits every model and "
+                            "chooses by the Bayesian information criterion with a margin): "
+                            + "; ".join(
                            f"{n}: {get_model(n).description}" for n in names))
     group.add_argument("--node-floor", choices=("auto", "on", "off"), default="auto",
                        help="fit a floor for lifted nodes; auto keeps it when it helps "
