@@ -266,10 +266,11 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     for b, sign in zip(branches, (1.0, -1.0), strict=True):
         if b.source == "switching":
             b.retrapping = retrapping_summary(field_T, b.ic_A, b.retrap_A)
-            if ivmap.kind == "voltage":
-                b.phase_diffusion = rounding_summary(
-                    field_T, sig, bias, offsets, noise, rn,
-                    level if crit.name == "voltage" else None, b.ic_A, sign)
+            if crit.name == "voltage":
+                # The derivative and V/I criteria read Ic off by their own shapes
+                # (smoothing, the fraction of Rn): the tests below assume the threshold.
+                b.phase_diffusion = rounding_summary(field_T, sig, bias, offsets, noise, rn,
+                                                     level, b.ic_A, sign)
     result = Extraction(ivmap, field_T, branches, crit.name, info, offset, noise, rn,
                         int((~keep).sum()))
     result.flags = _flags(result)

@@ -38,7 +38,7 @@ FOOT_SIGMAS = 5.0
 FOOT_FROM = 0.6
 #: At most this many points of a row go into its fit, up to this many times its
 #: switching current.
-FIT_POINTS = 150
+FIT_POINTS = 80
 FIT_TO = 2.0
 #: The resistive branch used for the RSJ Ic, in units of the switching current.
 KNEE_FROM, KNEE_TO = 1.15, 1.6
@@ -187,9 +187,9 @@ def rounding_summary(field_T, signal, bias_A, offsets_V, noise_V, rn_ohm, level_
     either exceeds :data:`FOOT_SIGMAS` (and the knee by over 1 %) the rows are
     fitted (:func:`fit_row`); the curves are ``rounded`` when the fitted Gamma
     is that many of its standard errors above zero. ``level_V`` is the voltage
-    criterion's level (``None`` for other criteria), ``ic_A`` the extracted
-    switching current per row, ``sign`` the polarity. ``None`` when no row
-    could be tested.
+    criterion's level (the engine runs this for that criterion only), ``ic_A``
+    the extracted switching current per row, ``sign`` the polarity. ``None``
+    when no row could be tested.
     """
     from . import criteria as cr
     from .hysteresis import main_lobe_rows
@@ -210,14 +210,18 @@ def rounding_summary(field_T, signal, bias_A, offsets_V, noise_V, rn_ohm, level_
         mag, volts = mag[order], volts[order]
         step = float(np.median(np.diff(mag)))
         i_sw = float(ic_A[r])
-        # Below the current where a resistively shunted junction would still read zero.
-        window = (mag >= FOOT_FROM * i_sw) & (mag < np.sqrt(max(i_sw**2 - floor**2, 0.0))
-                                               - step)
+        knee = knee_current(mag, volts, i_sw, noise_V)
+        # Below the current where a resistively shunted junction would still read zero:
+        # the reading less the criterion's own floor, and the RSJ Ic of the resistive
+        # branch where that is lower (a criterion that reads above Ic).
+        zero_until = np.sqrt(max(i_sw**2 - floor**2, 0.0))
+        if knee is not None:
+            zero_until = min(zero_until, knee[0] - 3.0 * knee[1])
+        window = (mag >= FOOT_FROM * i_sw) & (mag < zero_until - step)
         if window.sum() < 3:
             continue
         rows.append(r)
         feet.append(float(volts[window].sum() / (noise_V * np.sqrt(window.sum()))))
-        knee = knee_current(mag, volts, i_sw, noise_V)
         knees.append((np.nan, np.nan) if knee is None else
                      ((knee[0] - i_sw) / knee[1], 1.0 - i_sw / knee[0]))
         curves.append((mag, volts))
