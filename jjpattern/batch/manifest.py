@@ -275,9 +275,9 @@ def _value(text: str, col: _Column, where: str):
         if col.target == "fit.model":
             from ..physics.patterns import PATTERNS
 
-            if text not in PATTERNS:
+            if text not in PATTERNS and text != "auto":  # auto: the choice by BIC
                 raise InputError(f"{where}, column {col.header!r}: unknown model {text!r}; use "
-                                 f"{', '.join(PATTERNS)}")
+                                 f"auto, {', '.join(PATTERNS)}")
         return text
     positive = col.target.startswith("junction.")
     values = value if isinstance(value, tuple) else (value,)
