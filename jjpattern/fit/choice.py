@@ -89,7 +89,12 @@ def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float
     for i, p in enumerate(spec.extra, start=len(names) - len(spec.extra)):
         if p.name not in start:
             v0[i] = p.start
-    scale = np.maximum(np.abs(v0), 1e-30)
+    # Steps in units of natural scales: a field offset near zero still moves by fractions
+    # of a period, an extra parameter by fractions of one.
+    natural = {"ic0_A": abs(v0[0]), "period_T": abs(v0[1]), "field_offset_T": abs(v0[1]),
+               "floor_A": abs(v0[0])}
+    scale = np.array([natural.get(n, max(abs(v), 1.0)) for n, v in zip(names, v0, strict=True)])
+    scale = np.maximum(scale, 1e-300)
 
     def residual(v):
         return spec.formula(x, **dict(zip(names, v * scale, strict=True)), **fixed) - y
