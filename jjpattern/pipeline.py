@@ -267,7 +267,10 @@ def icrn_block(fits, rn_ohm, settings: Settings, metadata: dict):
     """
     from .physics.junction import ambegaokar_baratoff_V, bcs_gap_J
 
-    ic0 = next((f.ic0_A for f in fits if f.ic0_A is not None), None)
+    # The junction's own critical current: for a long junction Jc W L (the model derives
+    # it), not the self-field-limited Ic at zero field.
+    ic0 = next((f.derived.get("jc_times_area_A", f.ic0_A) for f in fits
+                if f.ic0_A is not None), None)
     if ic0 is None or rn_ohm is None:
         return None
     es = settings.extract

@@ -150,9 +150,10 @@ class FitResult:
                    ic_A=np.asarray(points.get("ic_A", []), dtype=float))
 
     def model_A(self, field_T) -> np.ndarray:
-        """The best-fit curve at ``field_T``; NaN when nothing was fitted. For a fit
-        withheld as poor (``withheld``) this is the trial curve, which describes nothing."""
-        if not self.best_params:
+        """The best-fit curve at ``field_T``; NaN when nothing was fitted, and for a fit
+        withheld because the model misses the data (its trial parameters stay in
+        ``best_params``, but a curve would suggest it fits)."""
+        if not self.best_params or self.withheld:
             return np.full(np.shape(field_T), np.nan)
         from .physics.patterns import PATTERNS
 

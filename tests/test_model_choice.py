@@ -129,6 +129,8 @@ def test_a_pattern_no_model_fits_gives_nulls_a_flag_and_words(tmp_path):
                     "period_stderr_T", "ic0_stderr_A"):
             assert getattr(fit, key) is None, key
         assert fit.withheld["reason"] == "poor-fit" and fit.reduced_chisq > 4
+        # No curve: the trial parameters are kept, but the model gives no values.
+        assert np.all(np.isnan(fit.model_A(fit.field_T))) and fit.best_params["period_T"] > 0
     poor = [f for f in result.flags if f.code == "poor-fit"]
     assert len(poor) == 2 and all(f.severity == "error" for f in poor)
     assert result.current_density == {}

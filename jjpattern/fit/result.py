@@ -86,10 +86,10 @@ class PatternFit:
         return out
 
     def model_A(self, field_T) -> np.ndarray:
-        """The best-fit curve at ``field_T`` (also where offset or Ic0 are withheld; for a
-        fit withheld as poor it is the trial curve, which describes nothing)."""
+        """The best-fit curve at ``field_T`` (also where offset or Ic0 are withheld); NaN
+        for a fit withheld because the model misses the data (``withheld``)."""
         p = self.best_params
-        if not p:
+        if not p or self.withheld:
             return np.full(np.shape(field_T), np.nan)
         return get_model(self.model).formula(np.asarray(field_T, dtype=float), **p)
 

@@ -127,29 +127,31 @@ def _reading_text(result) -> list[str]:
 
 def _model_choice_text(result, cited) -> str:
     """How the model was chosen, when it was chosen automatically."""
-    choices = [f.model_choice for f in result.fits if f.model_choice]
+    choices = [(f.branch, f.model_choice) for f in result.fits if f.model_choice]
     if not choices:
         return ""
     cited += ["schwarz", "kass"]
-    first = choices[0]
-    names = ", ".join(c["model"] for c in first["candidates"])
+    first = choices[0][1]
+    names = ", ".join(sorted(c["model"] for c in first["candidates"]))
     text = (f"The model was chosen automatically: each branch was fitted with every model "
             f"({names}) and they were ranked by the Bayesian information criterion "
             f"BIC = chi^2/sigma^2 + k ln n [schwarz], with sigma the point-to-point noise "
-            f"of the data and k the number of fitted parameters; a model is reported when "
-            f"no simpler one lies within {first['margin']:g} of it [kass], otherwise the "
-            "simplest within that margin.")
-    for fit in result.fits:
-        c = fit.model_choice
-        if not c or c.get("runner_up") is None:
+            f"of the data and k the number of fitted parameters; the model with the lowest "
+            f"BIC was reported unless a simpler one lay within {first['margin']:g} of it "
+            "[kass], in which case the simplest within that margin was reported.")
+    if first.get("branches"):
+        n = first["branches"]
+        choices = [(f"{'both' if n == 2 else n} branches together (BIC summed)", first)]
+    for where, c in choices:
+        if c.get("runner_up") is None:
             continue
         if c["decision"] == "clear":
-            text += (f" For the {fit.branch} branch {c['chosen']} was preferred, with "
-                     f"{c['runner_up']} next at a BIC higher by {c['criterion_difference']:.1f}.")
+            text += (f" For the {where} {c['chosen']} had the lowest BIC, with "
+                     f"{c['runner_up']} next, higher by {c['criterion_difference']:.1f}.")
         else:
             other = (c["lowest_criterion"] if c["lowest_criterion"] != c["chosen"]
                      else c["runner_up"])
-            text += (f" For the {fit.branch} branch the choice was a near tie ({other} within "
+            text += (f" For the {where} the choice was a near tie ({other} within "
                      f"{c['margin']:g} of {c['chosen']}), and the simpler {c['chosen']} model "
                      "is reported.")
     return text

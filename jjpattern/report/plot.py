@@ -70,6 +70,9 @@ def pattern_figure(fits, title: str = ""):
         if getattr(fit, "withheld", None):
             # A model that misses the data is not drawn: a curve would suggest it fits.
             top.plot([], [], " ", label=f"{fit.branch}: no model fits, none drawn")
+    if not drawn:
+        bottom.text(0.5, 0.5, "no residuals: no model describes these data",
+                    transform=bottom.transAxes, ha="center", va="center", fontsize=8)
     bottom.axhline(0.0, color="#888888", lw=0.8)
     top.set_ylabel(f"critical current ({cunit})")
     bottom.set_ylabel(f"residual ({cunit})")

@@ -137,15 +137,26 @@ def choice_sentence(choice: dict | None) -> str:
             f"{choice['margin']:g}); the simpler {chosen} model is reported")
 
 
+#: Names for people of the numbers models derive (others: the key in words).
+DERIVED_NAMES = {
+    "length_over_josephson_depth": "L/lambda_J",
+    "jc_times_area_A": "Jc W L",
+    "lower_critical_field_T": "lower critical field mu0 Hc1",
+    "pattern_max_A": "largest Ic",
+    "pattern_max_field_from_offset_T": "largest Ic at B - B0 =",
+}
+
+
 def derived_items(fit) -> list:
     """``(name, text)`` for the model's own derived numbers (L/lambda_J, Jc W L, ...)."""
     rows = []
     for key, value in (fit.derived or {}).items():
         err = (fit.derived_stderr or {}).get(key)
-        name = key.removesuffix("_A").removesuffix("_T").replace("_", " ")
+        name = DERIVED_NAMES.get(key) or key.removesuffix("_A").removesuffix("_T").replace(
+            "_", " ")
         text = (format_measure(value, err, CURRENT_UNITS) if key.endswith("_A")
                 else format_si_key(key, value, err))
-        rows.append((name.replace("jc times area", "Jc times area"), text))
+        rows.append((name, text))
     return rows
 
 
