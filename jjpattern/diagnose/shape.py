@@ -17,6 +17,8 @@ FLOOR_SIGMAS = 4.0
 #: Points whose curve stays above this many noise units cannot fold: their noise is
 #: the noise that folds at the nodes.
 FLOOR_CLEAR = 2.0
+#: The floor must lift some measured point by this many noise units to count.
+FLOOR_VISIBLE = 0.5
 #: Fewest points away from the nodes for a noise estimate of their own.
 FLOOR_MIN_POINTS = 30
 #: MAD to standard deviation for Gaussian noise.
@@ -187,7 +189,8 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
     folded, and the null is then the criterion's floor alone. Nodes are lifted
     when the fitted floor exceeds the null by ``FLOOR_SIGMAS`` combined standard
     errors (the floor's, scaled up by the scatter of the points at the nodes when it
-    exceeds the noise, and the null's, through the noise estimate).
+    exceeds the noise, and the null's, through the noise estimate) and lifts some
+    measured point by :data:`FLOOR_VISIBLE` noise units.
     """
     from scipy import optimize
 
@@ -218,6 +221,10 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
         left = y[near] - fit.model_A(x[near])
         spread = max(1.0, float(np.sqrt(np.mean(left**2))) / fit.residual_rms_A)
     err = float(np.hypot(spread * fit.node_floor_stderr_A, null_err))
+    # A floor that lifts no measured point by a fair part of the noise is below what the
+    # sampling of the nodes shows (a noiseless pattern fits a floor of 1e-8 Ic0 with a
+    # standard error from rounding residuals).
+    visible = float(np.max(np.hypot(curve, fit.node_floor_A) - curve))
     excess = fit.node_floor_A - null
     return {
         "node_floor_A": fit.node_floor_A, "criterion_floor_A": criterion_floor_A,
@@ -225,8 +232,9 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
         "noise_A": sigma,
         "lifted_floor_A": float(np.sqrt(max(fit.node_floor_A**2 - null**2, 0.0))),
         "floor_stderr_A": fit.node_floor_stderr_A, "node_scatter_over_noise": round(spread, 3),
-        "excess_sigmas": round(excess / err, 2),
-        "threshold_sigmas": FLOOR_SIGMAS, "lifted": bool(excess > FLOOR_SIGMAS * err),
+        "excess_sigmas": round(excess / err, 2), "threshold_sigmas": FLOOR_SIGMAS,
+        "floor_visible_over_noise": round(visible / sigma, 3),
+        "lifted": bool(excess > FLOOR_SIGMAS * err and visible > FLOOR_VISIBLE * sigma),
     }
 
 
