@@ -111,6 +111,16 @@ CATALOGUE = {
         "reconstruction does not apply. The long-inline and long-overlap models fit the "
         "sine-Gordon pattern, give the period in its short-junction meaning and L/lambda_J.",
     ),
+    "period-unlike-geometry": (
+        "warning",
+        "The measured period is more than the tolerance (a factor given in the evidence) away "
+        "from the period the junction's geometry and materials give, Phi0 / (L d'), or from "
+        "every period the given films allow for any London depth. Check the length given "
+        "(the side perpendicular to the field), the field calibration (coil constant, units "
+        "of the field column), and the thicknesses; flux focusing by wide electrodes or a "
+        "ground plane shortens the period, a tilted field lengthens it. The derived "
+        "thicknesses and depths rest on this period.",
+    ),
     "censored-rows": (
         "info",
         "Some field rows gave no critical current: either the junction never switched inside "

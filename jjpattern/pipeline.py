@@ -83,13 +83,17 @@ def analyze_data(data, settings: Settings | None = None, *, command=None) -> Res
     from .diagnose.hysteresis import field_hysteresis
 
     hysteresis, hysteresis_flags = field_hysteresis(labelled)
+    from .diagnose.geometry_check import period_geometry_flags
+
+    geometry_flags = period_geometry_flags(diagnostics.get("geometry"))
     if extraction is not None:
         icrn = icrn_block(fits, extraction["normal_resistance_ohm"], settings,
                           sweep.metadata)
     return Result(
         input=sweep.summary(),
         fits=[_fit_result(f, segment) for f, segment in labelled],
-        flags=fit_flags + extraction_flags + diagnostics.get("flags", []) + hysteresis_flags,
+        flags=(fit_flags + extraction_flags + diagnostics.get("flags", []) + geometry_flags
+               + hysteresis_flags),
         settings=settings,
         method=fit_method(settings),
         extraction=extraction,

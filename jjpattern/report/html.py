@@ -8,8 +8,15 @@ from __future__ import annotations
 import base64
 import html
 
+from ..fmt import RESISTANCE_UNITS, VOLTAGE_UNITS, evidence_text, plural, shown_path
 from .display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
-from .summary import branch_words, flag_words, hysteresis_lines, layout_lines
+from .summary import (
+    branch_words,
+    edge_fraction_text,
+    flag_words,
+    hysteresis_lines,
+    layout_lines,
+)
 
 _CSS = """
 body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; color: #1a1a1a;
@@ -18,7 +25,8 @@ h1 { font-size: 1.5rem; margin-bottom: 0.2rem; }
 h2 { font-size: 1.15rem; border-bottom: 1px solid #ccc; padding-bottom: 0.2rem;
      margin-top: 2rem; }
 .meta { color: #555; font-size: 0.9rem; }
-table { border-collapse: collapse; margin: 0.5rem 0; font-size: 0.88rem; }
+.table-wrap { max-width: 100%; overflow-x: auto; margin: 0.5rem 0; }
+table { border-collapse: collapse; font-size: 0.88rem; max-width: 100%; }
 table.headline { width: 100%; }
 th, td { border-bottom: 1px solid #e2e2e2; padding: 0.3rem 0.7rem; text-align: left;
          vertical-align: top; }
@@ -36,14 +44,23 @@ figcaption { font-size: 0.85rem; color: #555; }
 pre, code { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, monospace; }
 pre { background: #f4f4f4; padding: 0.6rem; overflow-x: auto; white-space: pre-wrap; }
 .methods { white-space: pre-wrap; }
-@media print { body { margin: 0; max-width: none; } h2 { break-after: avoid; }
-               figure { break-inside: avoid; } }
+@page { size: A4; margin: 15mm; }
+@media print { body { margin: 0; max-width: none; font-size: 10pt; }
+               h2 { break-after: avoid; } figure, tr, .flag { break-inside: avoid; }
+               .table-wrap { overflow: visible; } table { font-size: 8pt; width: 100%; }
+               th, td { padding: 0.15rem 0.3rem; } td.num { white-space: normal; }
+               pre { font-size: 7pt; } }
 """
 
 
 def esc(value) -> str:
     """Text from anywhere (a user's file included) made safe for HTML."""
     return html.escape("" if value is None else str(value), quote=True)
+
+
+def wrap_table(table_html: str) -> str:
+    """A table in a box that scrolls sideways rather than widening the page."""
+    return f'<div class="table-wrap">{table_html}</div>'
 
 
 def png_data_uri(data: bytes) -> str:
@@ -56,7 +73,8 @@ def _headline_rows(fits) -> str:
         funit = pick_unit(fit.period_T or fit.best_params.get("period_T") or 1e-3, FIELD_UNITS)
         cunit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
         if fit.withheld:
-            cells = [fit.branch] + ["withheld"] * 5 + [f"{fit.reduced_chisq:.2f}", ""]
+            cells = ([branch_words(fit.branch, fit.segment).removesuffix(" branch")]
+                     + ["withheld"] * 5 + [f"{fit.reduced_chisq:.2f}", ""])
             rows.append("<tr>" + "".join(
                 f'<td{" class=num" if i else ""}>{esc(c)}</td>' for i, c in enumerate(cells))
                 + "</tr>")
@@ -77,8 +95,8 @@ def _headline_rows(fits) -> str:
             + "</tr>")
     head = ("branch", "period", "effective area", "field offset", "Ic0", "node floor",
             "reduced χ²", "lobes")
-    return ("<table class=headline><tr>" + "".join(f"<th>{h}</th>" for h in head) + "</tr>"
-            + "".join(rows) + "</table>")
+    return wrap_table("<table class=headline><tr>" + "".join(f"<th>{h}</th>" for h in head)
+                      + "</tr>" + "".join(rows) + "</table>")
 
 
 def _model_notes(fits) -> str:
@@ -108,31 +126,40 @@ def _flags(flags, fits=()) -> str:
         return "<p>No flags: the pattern is consistent with the model within the noise.</p>"
     out = []
     for f in flags:
-        evidence = ", ".join(f"{esc(k)} = {esc(v)}" for k, v in f.evidence.items())
+        evidence = evidence_text(f.evidence)
         out.append(
             f'<div class="flag {esc(f.severity)}"><code>{esc(f.code)}</code> '
             f"<span>({esc(f.severity)}, {esc(flag_words(f, fits))})</span>"
-            f"<p>{esc(f.message)}</p><p class=evidence>Evidence: {evidence}</p></div>")
+            f"<p>{esc(f.message)}</p>"
+            + (f"<p class=evidence>Evidence: {esc(evidence)}</p>" if evidence else "")
+            + "</div>")
     return "".join(out)
 
 
 def _key_values(pairs) -> str:
-    return ("<table>" + "".join(f"<tr><th>{esc(k)}</th><td>{esc(v)}</td></tr>"
-                                for k, v in pairs) + "</table>")
+    return wrap_table("<table>" + "".join(f"<tr><th>{esc(k)}</th><td>{esc(v)}</td></tr>"
+                                          for k, v in pairs) + "</table>")
 
 
-def _number(value, unit="") -> str:
-    return "not determined" if value is None else f"{value:.4g} {unit}".strip()
+def _level(threshold: dict) -> str:
+    value = threshold.get("value")
+    units = {"V": VOLTAGE_UNITS, "ohm": RESISTANCE_UNITS, "Ω": RESISTANCE_UNITS}.get(
+        threshold.get("unit"))
+    if value is None or units is None:
+        return format_measure(value, None, digits=3) + f" {threshold.get('unit') or ''}"
+    return format_measure(value, None, units, digits=3)
 
 
 def _extraction_rows(ex: dict) -> list:
     threshold = ex["threshold"]
     level = threshold.get("value")
+    shown = _level(threshold).strip() if level is not None else "none"
     rows = [("criterion", ex["criterion"]),
-            ("level", f"{_number(level, threshold.get('unit', ''))} "
-                      f"({threshold.get('chosen')})"),
-            ("normal resistance", _number(ex["normal_resistance_ohm"], "Ω")),
-            ("amplifier offset", _number(ex["amplifier_offset_V"], "V")),
+            ("level", f"{shown} ({threshold.get('chosen')})"),
+            ("normal resistance", format_measure(ex["normal_resistance_ohm"], None,
+                                                 RESISTANCE_UNITS)),
+            ("amplifier offset", format_measure(ex["amplifier_offset_V"], None,
+                                                VOLTAGE_UNITS)),
             ("rows skipped (mostly missing)", ex["rows_skipped"])]
     for b in ex["branches"]:
         counts = ", ".join(f"{v} {k}" for k, v in sorted(b["status_counts"].items()))
@@ -157,7 +184,7 @@ def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
     geometry) add after the figures.
     """
     meta = result.metadata
-    title = meta.get("junction") or result.input["path"]
+    title = meta.get("junction") or shown_path(result.input["path"])
     meta_line = " · ".join(f"{esc(k)}: {esc(v)}" for k, v in meta.items())
     parts = [
         "<!DOCTYPE html>",
@@ -166,8 +193,8 @@ def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
         f"<title>jjpattern report: {esc(title)}</title><style>{_CSS}</style></head><body>",
         f"<h1>Interference pattern of {esc(title)}</h1>",
         f'<p class="meta">{meta_line}</p>',
-        f'<p class="meta">Input <code>{esc(result.input["path"])}</code>, '
-        f'{esc(result.input["points_used"])} points used. '
+        f'<p class="meta">Input <code>{esc(shown_path(result.input["path"]))}</code>, '
+        f'{esc(plural(result.input["points_used"], "point"))} used. '
         f'Generated {esc(result.generated_utc)} by jjpattern '
         f'{esc(result.tool["version"])}.</p>',
         '<section id="headline"><h2>Headline numbers</h2>',
@@ -216,7 +243,7 @@ def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
         '<section id="provenance"><h2>Provenance</h2>',
         _key_values([("command", provenance["command"] or "not recorded"),
                      ("report command", provenance["report_command"]),
-                     ("input", provenance["input_path"]),
+                     ("input", shown_path(provenance["input_path"])),
                      ("input SHA-256", provenance["input_sha256"])]
                     + [(name, v) for name, v in provenance["versions"].items()]),
         f"<pre>{esc(provenance['settings_json'])}</pre></section>",
@@ -240,8 +267,7 @@ def density_section(current_density: dict, png: bytes, files) -> tuple:
 
         rows += [(f"{branch}: method", f"{d['method']} ({d['assumption']})"),
                  (f"{branch}: resolution", f"{d['resolution_over_length']:.3f} L"),
-                 (f"{branch}: edge fraction",
-                  f"{d['edge_fraction']:.3f} ± {d.get('edge_fraction_stderr', 0):.3f}"
+                 (f"{branch}: edge fraction", edge_fraction_text(d)
                   + versus("edge_fraction", ".3f")),
                  (f"{branch}: centre of mass", f"{d['centre_of_mass_over_length']:+.3f} L"),
                  (f"{branch}: non-uniformity", f"{d['nonuniformity']:.3f}"
@@ -257,8 +283,12 @@ def density_section(current_density: dict, png: bytes, files) -> tuple:
 
 def geometry_section(block: dict) -> tuple:
     """``(id, title, html)`` for the numbers derived from geometry and materials."""
-    from .display import derived_rows, format_si_key
+    from .geometry import geometry_rows
 
-    rows = [(f"given: {k}", format_si_key(k, v)) for k, v in block["inputs"].items()]
-    rows += [("branch", block["branch"])] + derived_rows(block)
-    return ("geometry", "Geometry and materials", _key_values(rows))
+    rows = "".join(f"<tr><td>{esc(name)}</td><td class=num>{esc(value)}</td>"
+                   f"<td>{esc(note)}</td></tr>" for name, value, note in geometry_rows(block))
+    table = ("<table class=geometry><tr><th>quantity</th><th>value</th><th>source</th></tr>"
+             + rows + "</table>")
+    return ("geometry", "Geometry and materials", wrap_table(table)
+            + "<p class=meta>Uncertainties are one standard error from the period and Ic0 "
+              "alone; the geometry given is taken as exact.</p>")

@@ -10,8 +10,9 @@ from .display import (
     VOLTAGE_UNITS,
     format_measure,
     pick_unit,
+    plural,
 )
-from .summary import branch_words, sweep_words
+from .summary import branch_words, edge_fraction_text, sweep_words
 
 REFERENCES = {
     "lm": "K. Levenberg, Q. Appl. Math. 2, 164 (1944); D. W. Marquardt, J. Soc. Ind. Appl. "
@@ -81,13 +82,13 @@ def _reading_text(result) -> list[str]:
                  else f"above {_field(lo)}" if lo is not None else f"below {_field(hi)}")
         count = window.get("points_outside_range")
         out.append(f"Only points with the applied field {where} were analysed"
-                   + (f" ({count} points outside were left out)." if count is not None
+                   + (f" ({plural(count, 'point')} outside left out)." if count is not None
                       else "."))
     if read.exclude_T:
         spans = ", ".join(f"{_field(lo)} to {_field(hi)}" for lo, hi in read.exclude_T)
         count = window.get("points_excluded")
         out.append(f"Points with the field from {spans} were excluded by hand"
-                   + (f" ({count} points)." if count is not None else "."))
+                   + (f" ({plural(count, 'point')})." if count is not None else "."))
     for signed in layout.get("signed_columns", []):
         zero = signed["zero_rows_set_aside"]
         text = (f"Positive and negative critical currents recorded in one signed column "
@@ -103,8 +104,8 @@ def _reading_text(result) -> list[str]:
         aside = layout.get("points_in_short_reversals")
         out.append(f"The field was swept in both directions ({names}); each sweep was fitted "
                    "separately"
-                   + (f", and {aside} points recorded while the field briefly turned back were "
-                      "set aside." if aside else "."))
+                   + (f", and {plural(aside, 'point')} recorded while the field briefly turned "
+                      f"back {'was' if aside == 1 else 'were'} set aside." if aside else "."))
     for pair in (result.field_hysteresis or {}).get("pairs", []):
         if pair.get("offset_shift_T") is None:
             continue
@@ -120,8 +121,8 @@ def _reading_text(result) -> list[str]:
         out.append(text + ".")
     merged = result.input.get("duplicates_merged") or 0
     if merged and result.extraction is None:
-        out.append(f"{merged} points at a field already measured in the same branch and sweep "
-                   "direction were averaged with it.")
+        out.append(f"{plural(merged, 'point')} at a field already measured in the same branch "
+                   f"and sweep direction {'was' if merged == 1 else 'were'} averaged with it.")
     return out
 
 
@@ -236,8 +237,8 @@ def methods_paragraph(result, field_calibration: str) -> str:
         out.append(field_calibration)
     for fit in fits:
         if fit.withheld:
-            out.append(f"For the {fit.branch} branch ({fit.points_used} points) no period, "
-                       f"field offset or Ic0 is given: {fit.withheld['text']}, and no fit "
+            out.append(f"For the {fit.branch} branch ({plural(fit.points_used, 'point')}) no "
+                       f"period, field offset or Ic0 is given: {fit.withheld['text']}, and no fit "
                        "curve is shown.")
             continue
         if fit.period_T is None:
@@ -246,8 +247,9 @@ def methods_paragraph(result, field_calibration: str) -> str:
             out.append(f"For the {branch_words(fit.branch, fit.segment)} no period could be "
                        f"identified ({codes}).")
             continue
-        sentence = (f"For the {branch_words(fit.branch, fit.segment)} ({fit.points_used} points, "
-                    f"{fit.lobes_observed} lobes in the window) we obtain {_fit_numbers(fit)}")
+        sentence = (f"For the {branch_words(fit.branch, fit.segment)} "
+                    f"({plural(fit.points_used, 'point')}, {plural(fit.lobes_observed, 'lobe')} "
+                    f"in the window) we obtain {_fit_numbers(fit)}")
         if fit.field_offset_T is None:
             sentence += ("; the field offset and Ic0 are not given because the main lobe lies "
                          "outside the measured window and the side lobes do not locate it")
@@ -259,10 +261,12 @@ def methods_paragraph(result, field_calibration: str) -> str:
     dropped = result.input["points_dropped"]
     outliers = sum(f.points_downweighted for f in fits)
     if dropped and result.extraction is None:
-        out.append(f"{dropped} points with missing values were excluded.")
+        out.append(f"{plural(dropped, 'point')} with missing values "
+                   f"{'was' if dropped == 1 else 'were'} excluded.")
     out += _reading_text(result)
     if outliers:
-        out.append(f"{outliers} points lay more than four noise units from the fit and were "
+        out.append(f"{plural(outliers, 'point')} lay more than four noise units from the fit "
+                   f"and {'was' if outliers == 1 else 'were'} "
                    "down-weighted by the robust loss.")
     seed = result.settings.diagnose.seed
     by_method = {}
@@ -280,10 +284,10 @@ def methods_paragraph(result, field_calibration: str) -> str:
         cited.append("df")
         names = _and([b for b, _ in items])
         first = items[0][1]
-        edges = ", ".join(f"{d['edge_fraction']:.3f} ({b})" for b, d in items)
-        plural = len(items) > 1
-        out.append(f"The current density of the {names} branch{'es' if plural else ''} "
-                   f"{'were' if plural else 'was'} reconstructed {how}, with a Tukey window "
+        edges = ", ".join(f"{edge_fraction_text(d)} ({b})" for b, d in items)
+        many = len(items) > 1
+        out.append(f"The current density of the {names} branch{'es' if many else ''} "
+                   f"was reconstructed {how}, with a Tukey window "
                    f"(alpha 0.4) and a 68 % band from {first['resamples']} resamplings of "
                    f"the noise (seed {seed}); the "
                    f"resolution is {first['resolution_over_length']:.3f} of the junction "

@@ -2,16 +2,17 @@
 
 from __future__ import annotations
 
+from ..fmt import RESISTANCE_UNITS, plural, shown_path
 from .display import (
     AREA_UNITS,
     CURRENT_UNITS,
     FIELD_UNITS,
     VOLTAGE_UNITS,
-    derived_rows,
     format_measure,
     format_si_key,
     pick_unit,
 )
+from .geometry import geometry_rows
 
 
 def sweep_words(segment: str) -> str:
@@ -22,17 +23,23 @@ def sweep_words(segment: str) -> str:
 
 def branch_words(branch: str | None, segment: str = "") -> str:
     """``'positive branch'``, or ``'positive branch, up sweep'`` for a fit of one segment."""
-    if branch is None:
+    if not branch:
         return "both branches" + (f", {sweep_words(segment)}" if segment else "")
     polarity = branch.removesuffix(f" {segment}") if segment else branch
     return f"{polarity} branch" + (f", {sweep_words(segment)}" if segment else "")
 
 
 def flag_words(flag, fits) -> str:
-    """Where a flag applies, in words (branch and sweep)."""
+    """Where a flag applies, in words: ``'positive branch'``, ``'negative branch, down
+    sweep'``, ``'both branches'`` (a flag without a branch covers the whole junction)."""
     segments = {f.branch: f.segment for f in fits}
     segment = segments.get(flag.branch) or flag.evidence.get("segment") or ""
     return branch_words(flag.branch, segment)
+
+
+def flag_heading(flag, fits) -> str:
+    """``'[warning] branch-asymmetry (both branches)'``: a flag's one-line heading."""
+    return f"[{flag.severity}] {flag.code} ({flag_words(flag, fits)})"
 
 
 _PLAIN = (("", 1.0),)
@@ -167,7 +174,7 @@ def _fit_lines(fit) -> list[str]:
         choice = choice_sentence(fit.model_choice)
         if choice:
             lines.append(f"  model {choice}")
-        return lines + [f"  in window: {fit.points_used} points; no fit curve is drawn"]
+        return lines + [f"  in window: {plural(fit.points_used, 'point')}; no fit curve is drawn"]
     scale = fit.period_T or fit.best_params.get("period_T") or abs(fit.field_max_T)
     field_unit = pick_unit(scale, FIELD_UNITS)
     current_unit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
@@ -187,11 +194,12 @@ def _fit_lines(fit) -> list[str]:
         rows.append(("reduced chi-square", f"{fit.reduced_chisq:.2f} (point-to-point noise "
                                            f"{noise})"))
     if fit.lobes_observed is not None:
-        rows.append(("in window", f"{fit.lobes_observed} lobes, {fit.nodes_observed} nodes, "
-                                  f"{fit.points_used} points"))
+        rows.append(("in window", f"{plural(fit.lobes_observed, 'lobe')}, "
+                                  f"{plural(fit.nodes_observed, 'node')}, "
+                                  f"{plural(fit.points_used, 'point')}"))
     if fit.loss != "linear":
-        rows.append(("robust loss", f"{fit.loss}, {fit.points_downweighted} points "
-                                    "down-weighted"))
+        rows.append(("robust loss", f"{fit.loss}, "
+                                    f"{plural(fit.points_downweighted, 'point')} down-weighted"))
     rows += derived_items(fit)
     choice = choice_sentence(fit.model_choice)
     if choice:
@@ -210,6 +218,11 @@ def _fit_lines(fit) -> list[str]:
     return lines
 
 
+def edge_fraction_text(d: dict) -> str:
+    """The edge fraction with its spread over the resamplings, rounded to it."""
+    return format_measure(d["edge_fraction"], d.get("edge_fraction_stderr"), digits=3)
+
+
 def _counts(entry: dict) -> str:
     return ", ".join(f"{v} {k}" for k, v in sorted(entry["status_counts"].items()))
 
@@ -223,12 +236,13 @@ def _extraction_lines(result) -> list[str]:
     elif threshold["unit"] == "V":
         shown = f"{format_measure(level, None, VOLTAGE_UNITS, digits=3)} ({threshold['chosen']})"
     else:
-        shown = f"{level:.3g} Ω ({threshold['chosen']})"
+        shown = f"{format_measure(level, None, RESISTANCE_UNITS, digits=3)} ({threshold['chosen']})"
     n_field, n_bias = ex["map_shape"]
     lines = [f"  extracted from a {n_field} x {n_bias} {ex['signal']} map: "
              f"{ex['criterion']} criterion, level {shown}"]
     if ex["normal_resistance_ohm"] is not None:
-        lines.append(f"  normal resistance {ex['normal_resistance_ohm']:.4g} Ω")
+        lines.append("  normal resistance "
+                     + format_measure(ex["normal_resistance_ohm"], None, RESISTANCE_UNITS))
     for b in ex["branches"]:
         ratio = b["retrapping_over_switching"]
         ratio = "" if ratio is None else f", retrapping/switching {ratio:.3f}"
@@ -247,13 +261,13 @@ def _extraction_lines(result) -> list[str]:
 def render_summary(result) -> str:
     """Several short blocks: the input, each branch's numbers, then the flags."""
     info = result.input
-    lines = [f"jjpattern {result.tool['version']}: {info['path']}"]
+    lines = [f"jjpattern {result.tool['version']}: {shown_path(info['path'])}"]
     meta = info["metadata"]
     if meta:
         lines.append("  " + "; ".join(f"{k}: {v}" for k, v in meta.items()))
     lines.append(
-        f"  {info['points_used']} points used, {info['points_dropped']} non-finite dropped, "
-        f"{info['duplicates_merged']} duplicate fields averaged"
+        f"  {plural(info['points_used'], 'point')} used, {info['points_dropped']} non-finite "
+        f"dropped, {plural(info['duplicates_merged'], 'duplicate field')} averaged"
     )
     lines.extend(f"  {line}" for line in layout_lines(info))
     if result.extraction is not None:
@@ -268,15 +282,16 @@ def render_summary(result) -> str:
                      f"({d['method']}, resolution "
                      f"{d['resolution_over_length']:.3f} L)")
         ref = d.get("uniform_reference")
-        uniform = (f"{ref['edge_fraction']:.3f} for a uniform junction through the same "
-                   "reconstruction" if ref else "0.2 for exactly uniform current")
-        lines.append(f"  edge fraction {d['edge_fraction']:.3f} (outer 10 % each side; "
+        uniform = (f"{format_measure(ref['edge_fraction'], None, digits=3)} for a uniform "
+                   "junction through the same reconstruction" if ref
+                   else "0.2 for exactly uniform current")
+        lines.append(f"  edge fraction {edge_fraction_text(d)} (outer 10 % each side; "
                      f"{uniform}), centre of mass {d['centre_of_mass_over_length']:+.3f} L")
     if result.geometry:
         lines.append("")
         lines.append("geometry and materials")
-        for name, text in derived_rows(result.geometry):
-            lines.append(f"  {name}: {text}")
+        for name, text, note in geometry_rows(result.geometry):
+            lines.append(f"  {name}: {text}" + (f" ({note})" if note else ""))
     hysteresis = hysteresis_lines(getattr(result, "field_hysteresis", None))
     if hysteresis:
         lines.append("")
@@ -289,6 +304,5 @@ def render_summary(result) -> str:
     else:
         lines.append("flags:")
         for flag in flags:
-            where = flag_words(flag, result.fits)
-            lines.append(f"  [{flag.severity}] {flag.code} ({where}): {flag.message}")
+            lines.append(f"  {flag_heading(flag, result.fits)}: {flag.message}")
     return "\n".join(lines)
