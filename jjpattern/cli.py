@@ -322,7 +322,10 @@ def run_report(args) -> int:
         result, ivmap = done.result, done.data
     paths = write_report(result, args.out, args.argv,
                          ivmap=ivmap if result.extraction is not None else None)
-    print(f"report written to {paths['report.html']}")
+    from .report.summary import short_summary
+
+    print("\n".join(short_summary(result)))
+    print(f"report written to {paths['report.html']} ({len(paths)} files in {args.out})")
     record_after_run(args, result, source_path=None if saved else args.path)
     return EXIT_OK
 
@@ -379,12 +382,10 @@ def run_extract(args) -> int:
     for b in block["branches"]:
         counts = ", ".join(f"{v} {k}" for k, v in sorted(b["status_counts"].items()))
         print(f"{b['branch']} branch ({b['source']}): {counts}")
-    level = block["threshold"].get("value")
-    shown = "none" if level is None else f"{level:.4g} {block['threshold']['unit']}"
-    rn = block["normal_resistance_ohm"]
-    rn = "not fitted" if rn is None else f"{rn:.4g} Ohm"
-    print(f"criterion {block['criterion']}, level {shown} "
-          f"({block['threshold'].get('chosen')}), Rn {rn}")
+    from .report.summary import level_text, rn_text
+
+    print(f"criterion {block['criterion']}, level {level_text(block['threshold'])}, "
+          f"Rn {rn_text(block['normal_resistance_ohm'])}")
     print(f"table written to {args.out}")
     if args.plot:
         from .report.plot import map_figure, save_figure

@@ -110,7 +110,7 @@ def evidence_text(evidence: dict) -> str:
 
 def csv_number(value) -> str:
     """A float for a CSV field: its shortest round-trip text (``repr``), except that
-    the noise a unit conversion leaves in the last two binary places is dropped
+    the noise a unit conversion leaves in the last binary place is dropped
     (``-0.001475``, not ``-0.0014750000000000002``); empty for ``None`` and non-finite
     values."""
     if value is None:
@@ -119,7 +119,7 @@ def csv_number(value) -> str:
     if not math.isfinite(value):
         return ""
     near = float(f"{value:.15g}")
-    return repr(near if abs(near - value) <= 2 * math.ulp(value) else value)
+    return repr(near if abs(near - value) <= math.ulp(value) else value)
 
 
 def plural(count: int, word: str, many: str | None = None) -> str:

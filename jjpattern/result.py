@@ -31,8 +31,9 @@ FIT_KEYS = (
 )
 #: The one key whose value changes from run to run.
 TIMESTAMP_KEY = "generated_utc"
-#: Version of the document layout; readers refuse a newer one.
-SCHEMA_VERSION = 1
+#: Version of the document layout; readers refuse a newer one. 2: the current density
+#: as J over its mean (``j_over_mean``, ...) instead of arbitrary units under ``j``.
+SCHEMA_VERSION = 2
 
 
 def plain(value):
@@ -279,7 +280,8 @@ class Result:
                                    "tool", TIMESTAMP_KEY, "settings_sha256",
                                    "field_hysteresis")
                if k in doc and k in known},
-            current_density=doc.get("current_density") or {},
+            current_density={branch: _density_keys(d) for branch, d in
+                             (doc.get("current_density") or {}).items()},
         )
 
     @classmethod
@@ -306,3 +308,30 @@ class Result:
             return cls.from_dict(doc)
         except InputError as exc:
             raise InputError(f"{path}: {exc}") from None
+
+
+#: Keys of the current density before they said they are over the mean (layout 1).
+_OLD_DENSITY_KEYS = {"j": "j_over_mean", "j_low": "j_low_over_mean",
+                     "j_high": "j_high_over_mean", "j_uniform": "j_uniform_over_mean"}
+
+
+def _density_keys(d: dict) -> dict:
+    """A current-density block with today's keys; an older document held J(x) in
+    arbitrary units under ``j``, ``j_low``, ``j_high`` and ``j_uniform``."""
+    if "j" not in d:
+        return d
+    import numpy as np
+
+    x = np.asarray(d["x_over_length"], dtype=float)
+    inside = np.abs(x) <= 0.5 + 1e-9
+
+    def mean(j):
+        value = float(np.trapezoid(np.asarray(j, dtype=float)[inside], x[inside]))
+        return value if value > 0 else 1.0
+
+    out = {k: v for k, v in d.items() if k not in _OLD_DENSITY_KEYS}
+    for old, new in _OLD_DENSITY_KEYS.items():
+        if d.get(old) is not None:
+            scale = mean(d["j_uniform"] if old == "j_uniform" else d["j"])
+            out[new] = [v / scale for v in d[old]]
+    return out

@@ -60,7 +60,7 @@ def support_loop(field_T, ic_A, period_T, offset_T, noise_A, rng, resamples=200,
 def support_batch(field_T, ic_A, period_T, offset_T, noise_A, rng):
     """The current implementation: (profile, band)."""
     d = rc.reconstruct(field_T, ic_A, period_T, offset_T, noise_A, rng, method="support")
-    return d["j"], (d["j_low"], d["j_high"])
+    return d["j_over_mean"], (d["j_low_over_mean"], d["j_high_over_mean"])
 
 
 def best_of(repeats, fn):

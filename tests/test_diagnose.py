@@ -39,14 +39,14 @@ def test_symmetric_reconstruction_round_trip(profile, edge):
     x = d["x_over_length"]
     truth = PROFILES[profile](x)
     inside = np.abs(x) < 0.35
-    scale = np.trapezoid(np.clip(d["j"], 0, None)[np.abs(x) <= 0.5], x[np.abs(x) <= 0.5])
+    scale = np.trapezoid(np.clip(d["j_over_mean"], 0, None)[np.abs(x) <= 0.5], x[np.abs(x) <= 0.5])
     scale /= np.trapezoid(truth[np.abs(x) <= 0.5], x[np.abs(x) <= 0.5])
     # Away from the edges (resolution 1/22 of L) the profile comes back within 6 %.
-    assert np.max(np.abs(d["j"][inside] / scale - truth[inside])) < 0.06 * truth.max()
+    assert np.max(np.abs(d["j_over_mean"][inside] / scale - truth[inside])) < 0.06 * truth.max()
     assert d["edge_fraction"] == pytest.approx(edge, abs=0.05)
     assert abs(d["centre_of_mass_over_length"]) < 0.01
     assert d["resolution_over_length"] == pytest.approx(1 / 22, rel=0.05)
-    assert np.all(d["j_low"] <= d["j_high"])
+    assert np.all(d["j_low_over_mean"] <= d["j_high_over_mean"])
 
 
 def test_node_signs_keep_the_sign_at_a_double_zero():

@@ -41,7 +41,7 @@ def test_uniform_rectangle_reads_its_own_reference(lobes):
     # ... and the measured uniform junction reads what the reference says.
     assert d["edge_fraction"] == pytest.approx(ref["edge_fraction"],
                                                abs=max(0.01, 3 * d["edge_fraction_stderr"]))
-    assert d["j_uniform"].shape == d["j"].shape
+    assert d["j_uniform_over_mean"].shape == d["j_over_mean"].shape
 
 
 def test_reference_depends_on_the_window():

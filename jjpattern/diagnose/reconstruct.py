@@ -179,7 +179,7 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
         fields, goes through the same window, grid and method; its numbers are the
         ``uniform_reference`` the measured ones are read against (a truncated,
         windowed transform rounds the edges of even a uniform profile, so its edge
-        fraction is not 0.2) and its profile is ``j_uniform``.
+        fraction is not 0.2) and its profile is ``j_uniform_over_mean``.
     """
     u = (np.asarray(field_T) - field_offset_T) / period_T
     ic = np.asarray(ic_A, dtype=float)
@@ -228,16 +228,24 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
                        "J(x) >= 0 and confined to the junction; J(x) and J(-x) are "
                        "indistinguishable (mirror ambiguity)"),
         "x_over_length": x,
-        "j": j,
-        "j_low": low,
-        "j_high": high,
+        # Dimensionless: J(x) over its mean across the junction (1 for uniform current).
+        "j_over_mean": j / _junction_mean(x, j),
+        "j_low_over_mean": low / _junction_mean(x, j),
+        "j_high_over_mean": high / _junction_mean(x, j),
         "resolution_over_length": float(1.0 / (2.0 * np.max(np.abs(grid)))),
         "window": f"Tukey, alpha {WINDOW_ALPHA}",
         "resamples": int(band.shape[0]),
         **profile_numbers(x, j, band),
         "uniform_reference": reference,
-        "j_uniform": j_flat,
+        "j_uniform_over_mean": j_flat / _junction_mean(x, j_flat),
     }
+
+
+def _junction_mean(x, j) -> float:
+    """Mean of J over the junction, |x| <= L/2 (its integral over x/L); 1 if none."""
+    inside = np.abs(x) <= 0.5 + 1e-9
+    mean = float(np.trapezoid(j[inside], x[inside]))
+    return mean if mean > 0 else 1.0
 
 
 def profile_numbers(x, j, band=None) -> dict:

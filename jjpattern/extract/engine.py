@@ -16,6 +16,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..flags import make_flag
+from ..fmt import csv_number
 from ..io.maps import IVMap
 from ..io.sweep import MIN_POINTS, Branch, Sweep
 from ..sampling import tidy
@@ -178,8 +179,7 @@ def extraction_table_csv(block: dict) -> str:
         data += [b["ic_A"], b["status"], b["retrap_A"]]
     lines = [",".join(cols)]
     for row in zip(*data, strict=True):
-        lines.append(",".join("" if v is None else v if isinstance(v, str) else repr(float(v))
-                              for v in row))
+        lines.append(",".join(v if isinstance(v, str) else csv_number(v) for v in row))
     return "\n".join(lines) + "\n"
 
 

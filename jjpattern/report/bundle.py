@@ -12,6 +12,7 @@ import os
 
 import numpy as np
 
+from ..fmt import csv_number
 from .files import write_text
 from .methods import methods_paragraph
 from .provenance import provenance
@@ -23,9 +24,9 @@ def fit_table_csv(fits) -> str:
     for fit in fits:
         model = fit.model_A(fit.field_T)
         for b, i, m in zip(fit.field_T, fit.ic_A, model, strict=True):
-            m_text = repr(float(m)) if np.isfinite(m) else ""
-            r_text = repr(float(i - m)) if np.isfinite(m) else ""
-            lines.append(f"{fit.branch},{float(b)!r},{float(i)!r},{m_text},{r_text}")
+            r = i - m if np.isfinite(m) else None
+            lines.append(f"{fit.branch},{csv_number(b)},{csv_number(i)},{csv_number(m)},"
+                         f"{csv_number(r)}")
     return "\n".join(lines) + "\n"
 
 

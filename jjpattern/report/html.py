@@ -8,7 +8,7 @@ from __future__ import annotations
 import base64
 import html
 
-from ..fmt import RESISTANCE_UNITS, VOLTAGE_UNITS, evidence_text, plural, shown_path
+from ..fmt import VOLTAGE_UNITS, evidence_text, plural, shown_path
 from .display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
 from .summary import (
     branch_words,
@@ -16,6 +16,8 @@ from .summary import (
     flag_words,
     hysteresis_lines,
     layout_lines,
+    level_text,
+    rn_text,
 )
 
 _CSS = """
@@ -141,23 +143,11 @@ def _key_values(pairs) -> str:
                                           for k, v in pairs) + "</table>")
 
 
-def _level(threshold: dict) -> str:
-    value = threshold.get("value")
-    units = {"V": VOLTAGE_UNITS, "ohm": RESISTANCE_UNITS, "Ω": RESISTANCE_UNITS}.get(
-        threshold.get("unit"))
-    if value is None or units is None:
-        return format_measure(value, None, digits=3) + f" {threshold.get('unit') or ''}"
-    return format_measure(value, None, units, digits=3)
-
-
 def _extraction_rows(ex: dict) -> list:
     threshold = ex["threshold"]
-    level = threshold.get("value")
-    shown = _level(threshold).strip() if level is not None else "none"
     rows = [("criterion", ex["criterion"]),
-            ("level", f"{shown} ({threshold.get('chosen')})"),
-            ("normal resistance", format_measure(ex["normal_resistance_ohm"], None,
-                                                 RESISTANCE_UNITS)),
+            ("level", level_text(threshold)),
+            ("normal resistance", rn_text(ex["normal_resistance_ohm"])),
             ("amplifier offset", format_measure(ex["amplifier_offset_V"], None,
                                                 VOLTAGE_UNITS)),
             ("rows skipped (mostly missing)", ex["rows_skipped"])]

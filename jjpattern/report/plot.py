@@ -214,15 +214,15 @@ def density_figure(current_density: dict, title: str = ""):
         # (the resolution limit), which reads as current that is not there.
         inside = np.abs(x) <= 0.5
         x = x[inside]
-        j = np.asarray(d["j"])[inside]
+        j = np.asarray(d["j_over_mean"])[inside]
         scale = np.max(np.abs(j)) or 1.0
         colour = BRANCH_COLOURS.get(branch, "#009E73")
-        ax.fill_between(x, np.asarray(d["j_low"])[inside] / scale,
-                        np.asarray(d["j_high"])[inside] / scale, color=colour, alpha=0.25,
+        ax.fill_between(x, np.asarray(d["j_low_over_mean"])[inside] / scale,
+                        np.asarray(d["j_high_over_mean"])[inside] / scale, color=colour, alpha=0.25,
                         lw=0)
         ax.plot(x, j / scale, color=colour, label=f"{branch} branch ({d['method']})")
-        if d.get("j_uniform") is not None:
-            flat = np.asarray(d["j_uniform"])[inside]
+        if d.get("j_uniform_over_mean") is not None:
+            flat = np.asarray(d["j_uniform_over_mean"])[inside]
             # Scaled to the same total current, so the two shapes compare directly.
             ratio = np.trapezoid(np.clip(j, 0, None), x) / (
                 np.trapezoid(np.clip(flat, 0, None), x) or 1.0)

@@ -227,22 +227,29 @@ def _counts(entry: dict) -> str:
     return ", ".join(f"{v} {k}" for k, v in sorted(entry["status_counts"].items()))
 
 
+def level_text(threshold: dict) -> str:
+    """The extraction level and how it was chosen: ``'1.26 µV (5 x zero-branch noise)'``."""
+    level, chosen = threshold.get("value"), threshold.get("chosen") or ""
+    if level is None:
+        return chosen or "none"
+    units = VOLTAGE_UNITS if threshold.get("unit") == "V" else RESISTANCE_UNITS
+    text = format_measure(level, None, units, digits=3)
+    return f"{text} ({chosen})" if chosen else text
+
+
+def rn_text(rn_ohm) -> str:
+    """The normal resistance, or that it was not fitted."""
+    return "not fitted" if rn_ohm is None else format_measure(rn_ohm, None, RESISTANCE_UNITS)
+
+
 def _extraction_lines(result) -> list[str]:
     ex = result.extraction
-    threshold = ex["threshold"]
-    level = threshold.get("value")
-    if level is None:
-        shown = threshold.get("chosen", "")
-    elif threshold["unit"] == "V":
-        shown = f"{format_measure(level, None, VOLTAGE_UNITS, digits=3)} ({threshold['chosen']})"
-    else:
-        shown = f"{format_measure(level, None, RESISTANCE_UNITS, digits=3)} ({threshold['chosen']})"
+    shown = level_text(ex["threshold"])
     n_field, n_bias = ex["map_shape"]
     lines = [f"  extracted from a {n_field} x {n_bias} {ex['signal']} map: "
              f"{ex['criterion']} criterion, level {shown}"]
     if ex["normal_resistance_ohm"] is not None:
-        lines.append("  normal resistance "
-                     + format_measure(ex["normal_resistance_ohm"], None, RESISTANCE_UNITS))
+        lines.append(f"  normal resistance {rn_text(ex['normal_resistance_ohm'])}")
     for b in ex["branches"]:
         ratio = b["retrapping_over_switching"]
         ratio = "" if ratio is None else f", retrapping/switching {ratio:.3f}"
@@ -306,3 +313,28 @@ def render_summary(result) -> str:
         for flag in flags:
             lines.append(f"  {flag_heading(flag, result.fits)}: {flag.message}")
     return "\n".join(lines)
+
+
+def short_summary(result) -> list[str]:
+    """A few lines on what was found: each branch's period and Ic0, and the flags counted."""
+    lines = [f"{result.title}: {plural(len(result.fits), 'branch', 'branches')} fitted"]
+    for fit in result.fits:
+        where = branch_words(fit.branch, fit.segment)
+        if fit.withheld or fit.period_T is None:
+            lines.append(f"  {where}: numbers withheld ({fit.model} model)")
+            continue
+        period = format_measure(fit.period_T, fit.period_stderr_T, FIELD_UNITS)
+        ic0 = ("Ic0 not given" if fit.ic0_A is None else
+               "Ic0 " + format_measure(fit.ic0_A, fit.ic0_stderr_A, CURRENT_UNITS,
+                                       pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)))
+        lines.append(f"  {where}: period {period}, {ic0} ({fit.model} model)")
+    by_severity = {}
+    for flag in result.flags:
+        by_severity.setdefault(flag.severity, []).append(flag.code)
+    if not by_severity:
+        lines.append("  flags: none")
+    for severity in ("error", "warning", "info"):
+        codes = list(dict.fromkeys(by_severity.get(severity, [])))
+        if codes:
+            lines.append(f"  {severity}: {', '.join(codes)}")
+    return lines
