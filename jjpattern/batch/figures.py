@@ -44,15 +44,16 @@ def _mark_outliers(ax, x, y, names, mask, label):
     if mask.any():
         ax.plot(x[mask], y[mask], "x", ms=7, mew=1.5, color=OUTLIER, label=label)
         for xi, yi, name in zip(x[mask], y[mask], np.asarray(names)[mask], strict=True):
+            # Junction names are the user's text: a "$" in one is not mathtext.
             ax.annotate(name, (xi, yi), xytext=(4, 4), textcoords="offset points", fontsize=7,
-                        color=OUTLIER)
+                        color=OUTLIER, parse_math=False)
 
 
 def _finish(fig, ax, title):
     ax.grid(alpha=0.25, lw=0.5)
     ax.legend(frameon=False, fontsize=8)
     if title:
-        ax.set_title(title, fontsize=10)
+        ax.set_title(title, fontsize=10, parse_math=False)
     return fig
 
 
@@ -162,7 +163,7 @@ def chip_map_figure(table, summary: dict, title: str = "", xy_unit: str = ""):
         ax.set_title(name, fontsize=9)
         ax.legend(frameon=False, fontsize=7, loc="best")
     if title:
-        fig.suptitle(title, fontsize=10)
+        fig.suptitle(title, fontsize=10, parse_math=False)
     return fig
 
 
@@ -186,7 +187,7 @@ def flag_figure(summary: dict, title: str = ""):
     ax.xaxis.get_major_locator().set_params(integer=True)
     ax.grid(axis="x", alpha=0.25, lw=0.5)
     if title:
-        ax.set_title(title, fontsize=10)
+        ax.set_title(title, fontsize=10, parse_math=False)
     return fig
 
 

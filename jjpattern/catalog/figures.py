@@ -66,7 +66,8 @@ def history_figure(history: dict):
     axes[-1].set_xticklabels([_tick(r) for r in records], rotation=30, ha="right", fontsize=8)
     axes[-1].set_xlabel("measurement (record, cooldown or date), oldest first")
     chip = f" (chip {history['chip']})" if history["chip"] else ""
-    fig.suptitle(f"history of junction {history['junction']}{chip}", fontsize=10)
+    fig.suptitle(f"history of junction {history['junction']}{chip}", fontsize=10,
+                 parse_math=False)
     return fig
 
 
@@ -114,7 +115,7 @@ def compare_figure(comparison: dict):
         e = flag["evidence"]
         title += (f"\nchip-wide: {e['quantity']} {e['direction']} in {e['junctions_changed']} "
                   f"of {e['junctions_compared']} junctions")
-    fig.suptitle(title, fontsize=9)
+    fig.suptitle(title, fontsize=9, parse_math=False)
     return fig
 
 

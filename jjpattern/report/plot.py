@@ -11,6 +11,11 @@ from .display import CURRENT_UNITS, FIELD_UNITS, pick_unit
 
 #: Okabe-Ito colours, distinguishable with the common colour-vision deficiencies.
 BRANCH_COLOURS = {"positive": "#0072B2", "negative": "#D55E00"}
+#: Marker of each polarity, so that the series differ in print without colour too.
+BRANCH_MARKERS = {"positive": "o", "negative": "s"}
+#: Retrapping currents, one style per polarity (switching uses the branch style).
+RETRAP_STYLES = {"positive": dict(marker="x", color="#CC79A7"),
+                 "negative": dict(marker="+", color="#009E73")}
 FIT_COLOUR = "#222222"
 FORMATS = {".png", ".pdf", ".svg"}
 
@@ -40,6 +45,8 @@ def pattern_figure(fits, title: str = ""):
     matplotlib.use("Agg")
     from matplotlib import pyplot as plt
 
+    from .summary import branch_words
+
     periods = [f.period_T for f in fits if f.period_T]
     span = max(max(abs(f.field_min_T), abs(f.field_max_T)) for f in fits)
     funit, ffac = pick_unit(periods[0] if periods else span, FIELD_UNITS)
@@ -50,13 +57,15 @@ def pattern_figure(fits, title: str = ""):
         layout="constrained",
     )
     for fit in fits:
-        # Colour by polarity; a sweep back down gets open markers and a dashed fit.
-        colour = BRANCH_COLOURS.get(fit.branch.split()[0], "#009E73")
-        back = getattr(fit, "segment", "").startswith("down")
-        marker = dict(marker="o", ms=2.5, mfc="none", mew=0.6) if back else dict(marker=".",
-                                                                                  ms=3)
+        # Colour and marker by polarity; a sweep back down gets open markers and a dashed fit.
+        polarity = fit.branch.split()[0]
+        colour = BRANCH_COLOURS.get(polarity, "#009E73")
+        back = (getattr(fit, "segment", "") or "").startswith("down")
+        marker = dict(marker=BRANCH_MARKERS.get(polarity, "^"), ms=2.2, mew=0.5)
+        if back:
+            marker.update(mfc="none", ms=2.8)
         top.plot(fit.field_T / ffac, fit.ic_A / cfac, ls="none", color=colour,
-                 label=f"{fit.branch} branch", **marker)
+                 label=branch_words(fit.branch, getattr(fit, "segment", "")), **marker)
         if fit.best_params and not getattr(fit, "withheld", None):
             dense = np.linspace(fit.field_min_T, fit.field_max_T, 4000)
             top.plot(dense / ffac, fit.model_A(dense) / cfac, "--" if back else "-", lw=1.0,
@@ -78,7 +87,7 @@ def pattern_figure(fits, title: str = ""):
     bottom.set_ylabel(f"residual ({cunit})")
     bottom.set_xlabel(f"applied field ({funit})")
     top.set_ylim(bottom=0)
-    top.legend(frameon=False, fontsize=8)
+    legend_once(top, frameon=False, fontsize=8)
     for ax in (top, bottom):
         ax.grid(alpha=0.25, lw=0.5)
     ref = next((f for f in fits if f.period_T and f.field_offset_T is not None), None)
@@ -88,8 +97,15 @@ def pattern_figure(fits, title: str = ""):
                                                      lambda u: u * p + b0))
         flux.set_xlabel(f"flux Φ/Φ0 ({ref.branch} branch)")
     if title:
-        fig.suptitle(title, fontsize=10)
+        fig.suptitle(title, fontsize=10, parse_math=False)
     return fig
+
+
+def legend_once(ax, **options):
+    """A legend with each label once (series drawn in pieces repeat their label)."""
+    handles, labels = ax.get_legend_handles_labels()
+    unique = dict(zip(labels, handles, strict=True))
+    return ax.legend(list(unique.values()), list(unique), **options)
 
 
 def save_figure(fig, *paths: str, dpi: int = 200, png_bytes: bool = False):
@@ -186,16 +202,17 @@ def map_figure(ivmap, extraction: dict, title: str = ""):
         sign = 1.0 if name == "positive" else -1.0
         ic_A = np.asarray(b["ic_A"], dtype=float)
         retrap_A = np.asarray(b["retrap_A"], dtype=float)
-        colour = BRANCH_COLOURS[name]
-        ax.plot(field_T / ffac, sign * ic_A / cfac, ".", ms=2.5, color=colour,
+        ax.plot(field_T / ffac, sign * ic_A / cfac, ls="none", ms=2.2, mew=0.5,
+                marker=BRANCH_MARKERS[name], color=BRANCH_COLOURS[name],
                 label=f"Ic {name} ({source})")
         if np.isfinite(retrap_A).any() and source == "switching":
-            ax.plot(field_T / ffac, sign * retrap_A / cfac, "x", ms=2.5,
-                    mew=0.6, color="#CC79A7", label=f"retrapping {name}")
+            ax.plot(field_T / ffac, sign * retrap_A / cfac, ls="none", ms=3, mew=0.7,
+                    label=f"retrapping {name}", **RETRAP_STYLES[name])
     ax.set_xlabel(f"applied field ({funit})")
     ax.set_ylabel(f"bias current ({cunit})")
-    ax.legend(frameon=True, fontsize=7, loc="upper right")
-    ax.set_title(title or f"extraction: {extraction['criterion']} criterion", fontsize=10)
+    legend_once(ax, frameon=True, fontsize=7, loc="upper right")
+    ax.set_title(title or f"extraction: {extraction['criterion']} criterion", fontsize=10,
+                 parse_math=False)
     return fig
 
 
@@ -232,9 +249,9 @@ def density_figure(current_density: dict, title: str = ""):
         ax.axvline(edge, color="#888888", lw=0.8, ls="--")
     ax.axhline(0.0, color="#888888", lw=0.6)
     ax.set_xlabel("position across the junction, x / L")
-    ax.set_ylabel("current density (scaled)")
-    ax.legend(frameon=False, fontsize=8)
+    ax.set_ylabel("current density (scaled to the largest)")
+    legend_once(ax, frameon=False, fontsize=8)
     ax.grid(alpha=0.25, lw=0.5)
     if title:
-        ax.set_title(title, fontsize=10)
+        ax.set_title(title, fontsize=10, parse_math=False)
     return fig
