@@ -235,6 +235,26 @@ class Result:
                 return f
         raise KeyError(branch)
 
+    def plot(self, title: str | None = None):
+        """The pattern figure: data and fit of every branch above, residuals below.
+
+        Returns a matplotlib ``Figure`` (save it with ``fig.savefig(path)``).
+        """
+        from .notebook import pattern_figure
+
+        return pattern_figure(self.fits, self.title if title is None else title)
+
+    def _repr_html_(self) -> str:
+        """Jupyter's rich display: headline table, flags and the pattern figure inline."""
+        from .notebook import result_html
+
+        return result_html(self)
+
+    def __repr__(self) -> str:
+        fits = ", ".join(f"{f.branch}: {f.model}" for f in self.fits)
+        return (f"Result({self.title!r}, fits=[{fits}], flags={len(self.flags)}, "
+                f"settings_sha256={self.settings_sha256[:12]!r}...)")
+
     def to_dict(self) -> dict:
         """The JSON document as plain Python (keys in a fixed, readable order)."""
         doc = {

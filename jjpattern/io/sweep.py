@@ -58,6 +58,9 @@ class Branch:
     def points_used(self) -> int:
         return int(self.field_T.size)
 
+    def __repr__(self) -> str:
+        return f"Branch({self.label!r}, column={self.column!r}, points={self.points_used})"
+
     @property
     def label(self) -> str:
         """The name of this fit in the result: ``"positive"``, or ``"positive up"``."""
@@ -77,6 +80,20 @@ class Sweep:
     #: How the file was laid out and what reading did about it (decimal comma, units row,
     #: signed column, segments, field window); empty for a plain table.
     layout: dict = field(default_factory=dict)
+
+    def __repr__(self) -> str:
+        points = sum(b.points_used for b in self.branches)
+        fields = [b.field_T for b in self.branches if b.field_T.size]
+        if not fields:
+            return f"Sweep(branches={len(self.branches)}, points={points})"
+        lo = min(float(f.min()) for f in fields)
+        hi = max(float(f.max()) for f in fields)
+        from ..fmt import FIELD_UNITS, pick_unit
+
+        unit, factor = pick_unit(max(abs(lo), abs(hi)), FIELD_UNITS)
+        column = f" {self.field_column!r}" if self.field_column else ""
+        return (f"Sweep(branches={len(self.branches)}, points={points}, field{column} "
+                f"{lo / factor:.3g}..{hi / factor:.3g} {unit})")
 
     def branch(self, name: str) -> Branch:
         for b in self.branches:

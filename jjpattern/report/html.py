@@ -5,15 +5,11 @@ Every string that comes from a user's file passes through :func:`html.escape`.
 
 from __future__ import annotations
 
-import base64
-import html
-
-from ..fmt import VOLTAGE_UNITS, evidence_text, plural, shown_path
-from .display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
+from ..fmt import VOLTAGE_UNITS, plural, shown_path
+from ..notebook import esc, flags_html, headline_table, png_data_uri, wrap_table
+from .display import format_measure
 from .summary import (
-    branch_words,
     edge_fraction_text,
-    flag_words,
     hysteresis_lines,
     layout_lines,
     level_text,
@@ -55,52 +51,6 @@ pre { background: #f4f4f4; padding: 0.6rem; overflow-x: auto; white-space: pre-w
 """
 
 
-def esc(value) -> str:
-    """Text from anywhere (a user's file included) made safe for HTML."""
-    return html.escape("" if value is None else str(value), quote=True)
-
-
-def wrap_table(table_html: str) -> str:
-    """A table in a box that scrolls sideways rather than widening the page."""
-    return f'<div class="table-wrap">{table_html}</div>'
-
-
-def png_data_uri(data: bytes) -> str:
-    return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
-
-
-def _headline_rows(fits) -> str:
-    rows = []
-    for fit in fits:
-        funit = pick_unit(fit.period_T or fit.best_params.get("period_T") or 1e-3, FIELD_UNITS)
-        cunit = pick_unit(fit.ic_max_A or 1e-6, CURRENT_UNITS)
-        if fit.withheld:
-            cells = ([branch_words(fit.branch, fit.segment).removesuffix(" branch")]
-                     + ["withheld"] * 5 + [f"{fit.reduced_chisq:.2f}", ""])
-            rows.append("<tr>" + "".join(
-                f'<td{" class=num" if i else ""}>{esc(c)}</td>' for i, c in enumerate(cells))
-                + "</tr>")
-            continue
-        cells = [
-            branch_words(fit.branch, fit.segment).removesuffix(" branch"),
-            format_measure(fit.period_T, fit.period_stderr_T, FIELD_UNITS, funit),
-            format_measure(fit.effective_area_m2, fit.effective_area_stderr_m2, AREA_UNITS),
-            format_measure(fit.field_offset_T, fit.field_offset_stderr_T, FIELD_UNITS, funit),
-            format_measure(fit.ic0_A, fit.ic0_stderr_A, CURRENT_UNITS, cunit),
-            ("none" if fit.node_floor_A is None else
-             format_measure(fit.node_floor_A, fit.node_floor_stderr_A, CURRENT_UNITS, cunit)),
-            "" if fit.reduced_chisq is None else f"{fit.reduced_chisq:.2f}",
-            "" if fit.lobes_observed is None else str(fit.lobes_observed),
-        ]
-        rows.append("<tr>" + "".join(
-            f'<td{" class=num" if i else ""}>{esc(c)}</td>' for i, c in enumerate(cells))
-            + "</tr>")
-    head = ("branch", "period", "effective area", "field offset", "Ic0", "node floor",
-            "reduced χ²", "lobes")
-    return wrap_table("<table class=headline><tr>" + "".join(f"<th>{h}</th>" for h in head)
-                      + "</tr>" + "".join(rows) + "</table>")
-
-
 def _model_notes(fits) -> str:
     """The model of each branch, how it was chosen, and any withheld numbers, in words."""
     from .summary import choice_sentence
@@ -121,21 +71,6 @@ def _model_notes(fits) -> str:
                 f"{name} {value}" for name, value in derived_items(fit))
         items.append(f"<li>{esc(text)}.</li>")
     return "<ul>" + "".join(items) + "</ul>"
-
-
-def _flags(flags, fits=()) -> str:
-    if not flags:
-        return "<p>No flags: the pattern is consistent with the model within the noise.</p>"
-    out = []
-    for f in flags:
-        evidence = evidence_text(f.evidence)
-        out.append(
-            f'<div class="flag {esc(f.severity)}"><code>{esc(f.code)}</code> '
-            f"<span>({esc(f.severity)}, {esc(flag_words(f, fits))})</span>"
-            f"<p>{esc(f.message)}</p>"
-            + (f"<p class=evidence>Evidence: {esc(evidence)}</p>" if evidence else "")
-            + "</div>")
-    return "".join(out)
 
 
 def _key_values(pairs) -> str:
@@ -188,7 +123,7 @@ def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
         f'Generated {esc(result.generated_utc)} by jjpattern '
         f'{esc(result.tool["version"])}.</p>',
         '<section id="headline"><h2>Headline numbers</h2>',
-        _headline_rows(result.fits),
+        headline_table(result.fits),
         _model_notes(result.fits),
         "<p class=meta>Uncertainties are one standard error. Effective area = Φ0 / period. "
         "Reduced χ² is against the point-to-point noise of the data.</p></section>",
@@ -198,7 +133,7 @@ def render_html(result, *, pattern_png: bytes, map_png: bytes | None,
         parts += ['<section id="reading"><h2>How the file was read</h2>',
                   "".join(f"<p>{esc(line)}</p>" for line in reading), "</section>"]
     parts += [
-        '<section id="flags"><h2>Diagnostic flags</h2>', _flags(result.flags, result.fits),
+        '<section id="flags"><h2>Diagnostic flags</h2>', flags_html(result.flags, result.fits),
         "</section>",
     ]
     hysteresis = hysteresis_lines(getattr(result, "field_hysteresis", None))

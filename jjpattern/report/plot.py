@@ -7,16 +7,15 @@ import os
 import numpy as np
 
 from ..errors import InputError
+from ..notebook import (  # noqa: F401  (pattern_figure is part of this module's interface)
+    BRANCH_COLOURS,
+    BRANCH_MARKERS,
+    RETRAP_STYLES,
+    legend_once,
+    pattern_figure,
+)
 from .display import CURRENT_UNITS, FIELD_UNITS, pick_unit
 
-#: Okabe-Ito colours, distinguishable with the common colour-vision deficiencies.
-BRANCH_COLOURS = {"positive": "#0072B2", "negative": "#D55E00"}
-#: Marker of each polarity, so that the series differ in print without colour too.
-BRANCH_MARKERS = {"positive": "o", "negative": "s"}
-#: Retrapping currents, one style per polarity (switching uses the branch style).
-RETRAP_STYLES = {"positive": dict(marker="x", color="#CC79A7"),
-                 "negative": dict(marker="+", color="#009E73")}
-FIT_COLOUR = "#222222"
 FORMATS = {".png", ".pdf", ".svg"}
 
 #: Fixed metadata so that reruns give identical files.
@@ -36,76 +35,6 @@ def check_plot_path(path: str) -> str:
     if not os.path.isdir(folder):
         raise InputError(f"{path}: the folder {folder} does not exist; create it first")
     return suffix
-
-
-def pattern_figure(fits, title: str = ""):
-    """A matplotlib figure of every branch: data and fit above, residuals below."""
-    import matplotlib
-
-    matplotlib.use("Agg")
-    from matplotlib import pyplot as plt
-
-    from .summary import branch_words
-
-    periods = [f.period_T for f in fits if f.period_T]
-    span = max(max(abs(f.field_min_T), abs(f.field_max_T)) for f in fits)
-    funit, ffac = pick_unit(periods[0] if periods else span, FIELD_UNITS)
-    cunit, cfac = pick_unit(max(f.ic_max_A for f in fits), CURRENT_UNITS)
-
-    fig, (top, bottom) = plt.subplots(
-        2, 1, sharex=True, figsize=(7.0, 5.2), gridspec_kw={"height_ratios": [3, 1]},
-        layout="constrained",
-    )
-    for fit in fits:
-        # Colour and marker by polarity; a sweep back down gets open markers and a dashed fit.
-        polarity = fit.branch.split()[0]
-        colour = BRANCH_COLOURS.get(polarity, "#009E73")
-        back = (getattr(fit, "segment", "") or "").startswith("down")
-        marker = dict(marker=BRANCH_MARKERS.get(polarity, "^"), ms=2.2, mew=0.5)
-        if back:
-            marker.update(mfc="none", ms=2.8)
-        top.plot(fit.field_T / ffac, fit.ic_A / cfac, ls="none", color=colour,
-                 label=branch_words(fit.branch, getattr(fit, "segment", "")), **marker)
-        if fit.best_params and not getattr(fit, "withheld", None):
-            dense = np.linspace(fit.field_min_T, fit.field_max_T, 4000)
-            top.plot(dense / ffac, fit.model_A(dense) / cfac, "--" if back else "-", lw=1.0,
-                     color=FIT_COLOUR)
-            bottom.plot(fit.field_T / ffac, fit.residual_A() / cfac, ls="none", color=colour,
-                        **marker)
-    drawn = sorted({f.model for f in fits if f.best_params and not getattr(f, "withheld", None)})
-    if drawn:
-        top.plot([], [], "-", color=FIT_COLOUR, lw=1.0, label=f"fit ({', '.join(drawn)})")
-    for fit in fits:
-        if getattr(fit, "withheld", None):
-            # A model that misses the data is not drawn: a curve would suggest it fits.
-            top.plot([], [], " ", label=f"{fit.branch}: no model fits, none drawn")
-    if not drawn:
-        bottom.text(0.5, 0.5, "no residuals: no model describes these data",
-                    transform=bottom.transAxes, ha="center", va="center", fontsize=8)
-    bottom.axhline(0.0, color="#888888", lw=0.8)
-    top.set_ylabel(f"critical current ({cunit})")
-    bottom.set_ylabel(f"residual ({cunit})")
-    bottom.set_xlabel(f"applied field ({funit})")
-    top.set_ylim(bottom=0)
-    legend_once(top, frameon=False, fontsize=8)
-    for ax in (top, bottom):
-        ax.grid(alpha=0.25, lw=0.5)
-    ref = next((f for f in fits if f.period_T and f.field_offset_T is not None), None)
-    if ref is not None:
-        b0, p = ref.field_offset_T / ffac, ref.period_T / ffac
-        flux = top.secondary_xaxis("top", functions=(lambda b: (b - b0) / p,
-                                                     lambda u: u * p + b0))
-        flux.set_xlabel(f"flux Φ/Φ0 ({ref.branch} branch)")
-    if title:
-        fig.suptitle(title, fontsize=10, parse_math=False)
-    return fig
-
-
-def legend_once(ax, **options):
-    """A legend with each label once (series drawn in pieces repeat their label)."""
-    handles, labels = ax.get_legend_handles_labels()
-    unique = dict(zip(labels, handles, strict=True))
-    return ax.legend(list(unique.values()), list(unique), **options)
 
 
 def save_figure(fig, *paths: str, dpi: int = 200, png_bytes: bool = False):

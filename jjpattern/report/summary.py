@@ -2,7 +2,15 @@
 
 from __future__ import annotations
 
-from ..fmt import RESISTANCE_UNITS, plural, shown_path
+from ..fmt import (  # noqa: F401  (the words are re-exported for html and methods)
+    RESISTANCE_UNITS,
+    branch_words,
+    flag_heading,
+    flag_words,
+    plural,
+    shown_path,
+    sweep_words,
+)
 from .display import (
     AREA_UNITS,
     CURRENT_UNITS,
@@ -13,34 +21,6 @@ from .display import (
     pick_unit,
 )
 from .geometry import geometry_rows
-
-
-def sweep_words(segment: str) -> str:
-    """``'up sweep'``, ``'down sweep'``, ``'up sweep 2'``; ``''`` for a one-way sweep."""
-    direction, _, number = (segment or "").partition(" ")
-    return f"{direction} sweep" + (f" {number}" if number else "") if direction else ""
-
-
-def branch_words(branch: str | None, segment: str = "") -> str:
-    """``'positive branch'``, or ``'positive branch, up sweep'`` for a fit of one segment."""
-    if not branch:
-        return "both branches" + (f", {sweep_words(segment)}" if segment else "")
-    polarity = branch.removesuffix(f" {segment}") if segment else branch
-    return f"{polarity} branch" + (f", {sweep_words(segment)}" if segment else "")
-
-
-def flag_words(flag, fits) -> str:
-    """Where a flag applies, in words: ``'positive branch'``, ``'negative branch, down
-    sweep'``, ``'both branches'`` (a flag without a branch covers the whole junction)."""
-    segments = {f.branch: f.segment for f in fits}
-    segment = segments.get(flag.branch) or flag.evidence.get("segment") or ""
-    return branch_words(flag.branch, segment)
-
-
-def flag_heading(flag, fits) -> str:
-    """``'[warning] branch-asymmetry (both branches)'``: a flag's one-line heading."""
-    return f"[{flag.severity}] {flag.code} ({flag_words(flag, fits)})"
-
 
 _PLAIN = (("", 1.0),)
 
