@@ -12,3 +12,18 @@ for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
 os.environ.pop("JJPATTERN_CATALOG", None)
 os.environ["XDG_DATA_HOME"] = os.path.join(
     tempfile.mkdtemp(prefix="jjpattern-tests-"), "data")
+
+
+import pytest  # noqa: E402  (after the thread settings above)
+
+
+@pytest.fixture(scope="session")
+def map_report_dir(tmp_path_factory):
+    """The report of the demo map (voltage map, both branches, Tc given), made once."""
+    from jjpattern.cli import main
+    from jjpattern.demo import demo_files
+
+    out = tmp_path_factory.mktemp("map-report") / "r"
+    assert main(["report", demo_files()["kt14_j07_map.h5"], "--out", str(out),
+                 "--tc-K", "9.2", "--figures", "png,pdf,svg"]) == 0
+    return out
