@@ -42,7 +42,8 @@ def pick_unit(magnitude: float, units) -> tuple[str, float]:
     return units[-1]
 
 
-def _fixed(value: float, decimals: int) -> str:
+def fixed(value: float, decimals: int) -> str:
+    """``value`` with ``decimals`` decimals, never ``-0.000``."""
     text = f"{value:.{decimals}f}"
     # -0.000 after rounding is a zero, not a negative number.
     return text[1:] if text.startswith("-") and float(text) == 0 else text
@@ -69,7 +70,7 @@ def measure(value, stderr=None, units=PLAIN, unit=None, digits=4) -> str:
         return f"{v:.{digits}g} {name}".strip()
     e = stderr / factor
     decimals = max(0, 1 - int(math.floor(math.log10(e))))
-    return f"{_fixed(v, decimals)} ± {_fixed(e, decimals)} {name}".strip()
+    return f"{fixed(v, decimals)} ± {fixed(e, decimals)} {name}".strip()
 
 
 def key_unit(key: str):

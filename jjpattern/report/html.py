@@ -9,6 +9,7 @@ from ..fmt import VOLTAGE_UNITS, plural, shown_path
 from ..notebook import esc, flags_html, headline_table, png_data_uri, wrap_table
 from .display import format_measure
 from .summary import (
+    centre_text,
     edge_fraction_text,
     hysteresis_lines,
     layout_lines,
@@ -18,14 +19,15 @@ from .summary import (
 
 _CSS = """
 body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; color: #1a1a1a;
-       max-width: 60rem; margin: 2rem auto; padding: 0 1rem; line-height: 1.45; }
+       max-width: 64rem; margin: 2rem auto; padding: 0 1rem; line-height: 1.45; }
 h1 { font-size: 1.5rem; margin-bottom: 0.2rem; }
 h2 { font-size: 1.15rem; border-bottom: 1px solid #ccc; padding-bottom: 0.2rem;
      margin-top: 2rem; }
 .meta { color: #555; font-size: 0.9rem; }
 .table-wrap { max-width: 100%; overflow-x: auto; margin: 0.5rem 0; }
 table { border-collapse: collapse; font-size: 0.88rem; max-width: 100%; }
-table.headline { width: 100%; }
+table.headline { width: 100%; font-size: 0.82rem; }
+table.headline th, table.headline td { padding: 0.3rem 0.4rem; }
 th, td { border-bottom: 1px solid #e2e2e2; padding: 0.3rem 0.7rem; text-align: left;
          vertical-align: top; }
 th { background: #f4f4f4; }
@@ -194,7 +196,7 @@ def density_section(current_density: dict, png: bytes, files) -> tuple:
                  (f"{branch}: resolution", f"{d['resolution_over_length']:.3f} L"),
                  (f"{branch}: edge fraction", edge_fraction_text(d)
                   + versus("edge_fraction", ".3f")),
-                 (f"{branch}: centre of mass", f"{d['centre_of_mass_over_length']:+.3f} L"),
+                 (f"{branch}: centre of mass", centre_text(d)),
                  (f"{branch}: non-uniformity", f"{d['nonuniformity']:.3f}"
                   + versus("nonuniformity", ".3f"))]
     caption = ("Current density across the junction (between the dashed lines) from the "

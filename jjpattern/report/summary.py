@@ -5,6 +5,7 @@ from __future__ import annotations
 from ..fmt import (  # noqa: F401  (the words are re-exported for html and methods)
     RESISTANCE_UNITS,
     branch_words,
+    fixed,
     flag_heading,
     flag_words,
     plural,
@@ -203,6 +204,15 @@ def edge_fraction_text(d: dict) -> str:
     return format_measure(d["edge_fraction"], d.get("edge_fraction_stderr"), digits=3)
 
 
+def centre_text(d: dict) -> str:
+    """The centre of mass of J(x) in junction lengths, rounded to its spread, and to
+    0.001 L where the spread is smaller (a symmetric reconstruction is centred exactly)."""
+    value, spread = d["centre_of_mass_over_length"], d.get("centre_of_mass_stderr")
+    if spread is None or spread < 5e-4:
+        return f"{fixed(value, 3)} L"
+    return format_measure(value, spread, (("L", 1.0),), ("L", 1.0))
+
+
 def _counts(entry: dict) -> str:
     return ", ".join(f"{v} {k}" for k, v in sorted(entry["status_counts"].items()))
 
@@ -273,7 +283,7 @@ def render_summary(result) -> str:
                    "junction through the same reconstruction" if ref
                    else "0.2 for exactly uniform current")
         lines.append(f"  edge fraction {edge_fraction_text(d)} (outer 10 % each side; "
-                     f"{uniform}), centre of mass {d['centre_of_mass_over_length']:+.3f} L")
+                     f"{uniform}), centre of mass {centre_text(d)}")
     if result.geometry:
         lines.append("")
         lines.append("geometry and materials")
