@@ -59,9 +59,9 @@ def measure(value, stderr=None, units=PLAIN, unit=None, digits=4) -> str:
         return "not determined"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         return str(value)
-    if isinstance(value, int):
-        return f"{value} {(unit or units[0])[0]}".strip() if unit or units != PLAIN else str(
-            value)
+    if isinstance(value, int) and unit is None and units == PLAIN:
+        return str(value)  # a count
+    value = float(value)
     if not math.isfinite(value):
         return "not finite"
     name, factor = unit or pick_unit(abs(value), units)

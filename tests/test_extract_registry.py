@@ -21,6 +21,7 @@ from jjpattern.extract.registry import (
     parse_threshold,
     resolve,
 )
+from jjpattern.fmt import csv_number
 from jjpattern.io.maps import IVMap
 from jjpattern.synthetic import bias_sweep, ideal, rsj_map
 
@@ -145,8 +146,8 @@ def _table_as_before(ex):
         data += [b.ic_A, b.status, b.retrap_A]
     lines = [",".join(cols)]
     for i in range(ex.field_T.size):
-        lines.append(",".join(c[i] if isinstance(c[i], str) else
-                              ("" if not np.isfinite(c[i]) else repr(float(c[i]))) for c in data))
+        lines.append(",".join(c[i] if isinstance(c[i], str) else csv_number(c[i])
+                              for c in data))
     return "\n".join(lines) + "\n"
 
 

@@ -153,7 +153,7 @@ def test_a_pattern_no_model_fits_gives_nulls_a_flag_and_words(tmp_path):
     assert "positive: no model fits, none drawn" in labels
     from jjpattern.report import html
 
-    page = html._headline_rows(result.fits) + html._model_notes(result.fits)
+    page = html.headline_table(result.fits) + html._model_notes(result.fits)
     assert page.count("withheld") >= 10 and "not drawn" in page
 
 
