@@ -125,6 +125,17 @@ class FitResult:
         """The fitted numbers only (the ``FIT_KEYS``), as in a summary table row."""
         return {key: getattr(self, key) for key in FIT_KEYS}
 
+    def __repr__(self) -> str:
+        from .fmt import CURRENT_UNITS, FIELD_UNITS, measure
+
+        if self.period_T is None:
+            numbers = "numbers withheld" if self.withheld else "no period"
+        else:
+            numbers = (f"period {measure(self.period_T, self.period_stderr_T, FIELD_UNITS)}, "
+                       f"Ic0 {measure(self.ic0_A, self.ic0_stderr_A, CURRENT_UNITS)}")
+        return (f"FitResult({self.branch!r}, {self.model}, {numbers}, "
+                f"points={self.points_used})")
+
     def to_dict(self) -> dict:
         out = plain(self.numbers())
         out["best_params"] = plain(self.best_params)

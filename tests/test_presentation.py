@@ -262,6 +262,8 @@ def test_notebook_display_and_names(map_report_dir):
     assert all(SCOPE.match(h) for h in parser.headings) and parser.headings
     assert parser._stack == []  # every opened element closed
     assert repr(result).startswith("Result('KT14-J07', fits=[positive: rectangular")
+    assert re.fullmatch(r"FitResult\('positive', rectangular, period 0\.\d+ ± 0\.\d+ mT, "
+                        r"Ic0 \d+\.\d+ ± 0\.\d+ µA, points=161\)", repr(result.fits[0]))
     from matplotlib.figure import Figure
 
     assert isinstance(result.plot(), Figure)
