@@ -304,6 +304,13 @@ def _is_saved_result(path: str) -> bool:
     return path.lower().endswith(".json") and os.path.isfile(path)
 
 
+def _terminal_progress():
+    """Stage words on standard error, only when a person watches a terminal there."""
+    if not sys.stderr.isatty():
+        return None
+    return lambda words: print(f"jjpattern: {words} ...", file=sys.stderr, flush=True)
+
+
 def run_report(args) -> int:
     from .report.bundle import write_report
 
@@ -318,8 +325,12 @@ def run_report(args) -> int:
     else:
         from .pipeline import analyze_input
 
-        done = analyze_input(args.path, settings_from_args(args), command=args.argv)
+        done = analyze_input(args.path, settings_from_args(args), command=args.argv,
+                             progress=_terminal_progress())
         result, ivmap = done.result, done.data
+    say = _terminal_progress()
+    if say:
+        say(f"writing the report to {args.out}")
     paths = write_report(result, args.out, args.argv,
                          ivmap=ivmap if result.extraction is not None else None)
     from .report.summary import short_summary
@@ -335,7 +346,8 @@ def run_analyze(args) -> int:
     from .report.summary import render_summary
 
     _check_plots(args.plot, args.map_plot)
-    done = analyze_input(args.path, settings_from_args(args), command=args.argv)
+    done = analyze_input(args.path, settings_from_args(args), command=args.argv,
+                         progress=_terminal_progress())
     result = done.result
     written = []
     if args.plot:

@@ -44,21 +44,34 @@ def analyze(source, settings: Settings | None = None, *, command=None, **keyword
     return analyze_input(source, settings, command=command, **keywords).result
 
 
-def analyze_input(source, settings: Settings | None = None, *, command=None,
+def analyze_input(source, settings: Settings | None = None, *, command=None, progress=None,
                   **keywords) -> Analysed:
-    """Like :func:`analyze`, but keep the data read (for the raw-map figure)."""
+    """Like :func:`analyze`, but keep the data read (for the raw-map figure).
+
+    ``progress``, when given, is called with a few words as each stage starts.
+    """
     from .io import read, read_object
 
     settings = keyword_settings(settings, **keywords)
+    _say(progress, "reading the input")
     if isinstance(source, (str, bytes, os.PathLike)):
         data = read(os.fspath(source), settings.read)
     else:
         data = read_object(source, settings.read)
-    return Analysed(analyze_data(data, settings, command=command), data)
+    return Analysed(analyze_data(data, settings, command=command, progress=progress), data)
 
 
-def analyze_data(data, settings: Settings | None = None, *, command=None) -> Result:
-    """Analyse a :class:`~jjpattern.io.Sweep` or a raw :class:`~jjpattern.io.maps.IVMap`."""
+def _say(progress, words: str) -> None:
+    if progress is not None:
+        progress(words)
+
+
+def analyze_data(data, settings: Settings | None = None, *, command=None,
+                 progress=None) -> Result:
+    """Analyse a :class:`~jjpattern.io.Sweep` or a raw :class:`~jjpattern.io.maps.IVMap`.
+
+    ``progress``, when given, is called with a few words as each stage starts.
+    """
     from .io.maps import IVMap
 
     settings = settings or Settings()
@@ -67,6 +80,7 @@ def analyze_data(data, settings: Settings | None = None, *, command=None) -> Res
     if isinstance(data, IVMap):
         from .extract.engine import extract
 
+        _say(progress, f"extracting Ic from a {data.shape[0]} x {data.shape[1]} map")
         ex = extract(data, criterion=settings.extract.criterion,
                      threshold=settings.extract.threshold)
         if ex.criterion == "voltage" and ex.rn_ohm:
@@ -78,6 +92,7 @@ def analyze_data(data, settings: Settings | None = None, *, command=None) -> Res
         extraction_flags = list(ex.flags)
     else:
         sweep, extraction_flags = data, []
+    _say(progress, "fitting and diagnosing the pattern")
     labelled, fit_flags, diagnostics = _by_segment(sweep, settings, floor_A)
     fits = [fit for fit, _ in labelled]
     from .diagnose.hysteresis import field_hysteresis

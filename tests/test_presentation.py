@@ -296,3 +296,13 @@ def test_arrays_in_mT_and_uA():
                                     geometry="rectangular")
     assert fit.period_T == pytest.approx(0.7e-3, rel=0.01)
     assert fit.ic0_A == pytest.approx(10e-6, rel=0.02)
+
+
+def test_stages_are_announced_to_a_progress_callback():
+    from jjpattern.cli import _terminal_progress
+    from jjpattern.pipeline import analyze_input
+
+    said = []
+    analyze_input(demo_files()["kt14_j11.tsv"], model="rectangular", progress=said.append)
+    assert said == ["reading the input", "fitting and diagnosing the pattern"]
+    assert _terminal_progress() is None  # standard error is not a terminal under pytest
