@@ -307,7 +307,11 @@ def render_summary(result) -> str:
 
 def short_summary(result) -> list[str]:
     """A few lines on what was found: each branch's period and Ic0, and the flags counted."""
-    lines = [f"{result.title}: {plural(len(result.fits), 'branch', 'branches')} fitted"]
+    polarities = len({f.branch.split()[0] for f in result.fits if f.branch})
+    head = f"{result.title}: {plural(polarities, 'branch', 'branches')} fitted"
+    if len(result.fits) > polarities:
+        head += f", each sweep of the field on its own ({len(result.fits)} fits)"
+    lines = [head]
     for fit in result.fits:
         where = branch_words(fit.branch, fit.segment)
         if fit.withheld or fit.period_T is None:
