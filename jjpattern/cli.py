@@ -7,6 +7,7 @@ Exit status: 0 analysed (flags or not), 2 bad input or usage, 1 internal error;
 from __future__ import annotations
 
 import argparse
+import errno
 import os
 import sys
 
@@ -292,12 +293,14 @@ def settings_from_args(args):
                     report=report)
 
 
-def _check_plots(*paths):
+def _check_plots(source, *paths):
+    from .outdir import check_file_target
     from .report.plot import check_plot_path
 
     for path in paths:
         if path:
             check_plot_path(path)
+            check_file_target(path, inputs=[source])
 
 
 def _is_saved_result(path: str) -> bool:
@@ -305,8 +308,9 @@ def _is_saved_result(path: str) -> bool:
 
 
 def run_report(args) -> int:
-    from .report.bundle import write_report
+    from .report.bundle import check_report_folder, write_report
 
+    check_report_folder(args.out, inputs=[args.path])
     saved = _is_saved_result(args.path)
     if saved:
         from .result import Result
@@ -321,7 +325,8 @@ def run_report(args) -> int:
         done = analyze_input(args.path, settings_from_args(args), command=args.argv)
         result, ivmap = done.result, done.data
     paths = write_report(result, args.out, args.argv,
-                         ivmap=ivmap if result.extraction is not None else None)
+                         ivmap=ivmap if result.extraction is not None else None,
+                         inputs=[args.path])
     print(f"report written to {paths['report.html']}")
     record_after_run(args, result, source_path=None if saved else args.path)
     return EXIT_OK
@@ -331,7 +336,11 @@ def run_analyze(args) -> int:
     from .pipeline import analyze_input
     from .report.summary import render_summary
 
-    _check_plots(args.plot, args.map_plot)
+    _check_plots(args.path, args.plot, args.map_plot)
+    if args.report:
+        from .report.bundle import check_report_folder
+
+        check_report_folder(args.report, inputs=[args.path])
     done = analyze_input(args.path, settings_from_args(args), command=args.argv)
     result = done.result
     written = []
@@ -350,7 +359,8 @@ def run_analyze(args) -> int:
         from .report.bundle import write_report
 
         report = write_report(result, args.report, args.argv,
-                              ivmap=done.data if result.extraction is not None else None)
+                              ivmap=done.data if result.extraction is not None else None,
+                              inputs=[args.path])
     if args.json:
         print(result.to_json())
     else:
@@ -367,9 +377,10 @@ def run_analyze(args) -> int:
 def run_extract(args) -> int:
     from .extract.engine import extract, extraction_table_csv
     from .io import load_map
-    from .report.files import write_text
+    from .outdir import check_file_target, write_text
 
-    _check_plots(args.plot)
+    check_file_target(args.out, inputs=[args.path])
+    _check_plots(args.path, args.plot)
     settings = settings_from_args(args)
     ivmap = load_map(args.path, settings.read)
     extraction = extract(ivmap, criterion=settings.extract.criterion,
@@ -449,20 +460,55 @@ def main(argv=None) -> int:
     handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
                 "batch": run_batch, "demo": run_demo}
     try:
-        return getattr(args, "handler", handlers.get(args.command))(args)
+        status = getattr(args, "handler", handlers.get(args.command))(args)
+        sys.stdout.flush()  # a closed pipe shows here, not in the interpreter's last flush
+        return status
+    except BrokenPipeError:
+        return _closed_pipe()
     except InputError as exc:
         print(f"jjpattern: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except OSError as exc:
+        if exc.errno not in _OUTPUT_ERRNOS:
+            return _internal(exc)
+        from .outdir import output_error
+
+        print(f"jjpattern: {output_error(exc, exc.filename or 'output')}", file=sys.stderr)
         return EXIT_INPUT
     except KeyboardInterrupt:
         print("jjpattern: interrupted", file=sys.stderr)
         return 130
     except Exception as exc:  # noqa: BLE001 - last line of defence, no traceback for users
-        if os.environ.get("JJPATTERN_DEBUG"):
-            raise
-        print(f"jjpattern: internal error ({exc.__class__.__name__}: {exc}); this is a bug, "
-              "please report it with the input file (JJPATTERN_DEBUG=1 shows the traceback)",
-              file=sys.stderr)
-        return EXIT_INTERNAL
+        return _internal(exc)
+
+
+#: Errors of the file system that writing an output meets (full disk, read-only, ...):
+#: the user's to fix, so exit 2 with a sentence rather than "internal error".
+_OUTPUT_ERRNOS = {errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EACCES, errno.EPERM,
+                  errno.EISDIR, errno.ENOTDIR, errno.ENAMETOOLONG, errno.EFBIG}
+#: Status after the reader of stdout went away (``| head``): 128 + SIGPIPE, as a tool
+#: stopped by the signal itself would report.
+EXIT_CLOSED_PIPE = 141
+
+
+def _closed_pipe() -> int:
+    """Quiet end on a closed stdout: point it at /dev/null so the exit flush cannot fail."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError, AttributeError):
+        pass
+    return EXIT_CLOSED_PIPE
+
+
+def _internal(exc: BaseException) -> int:
+    if os.environ.get("JJPATTERN_DEBUG"):
+        raise exc
+    print(f"jjpattern: internal error ({exc.__class__.__name__}: {exc}); this is a bug, "
+          "please report it with the input file (JJPATTERN_DEBUG=1 shows the traceback)",
+          file=sys.stderr)
+    return EXIT_INTERNAL
 
 
 if __name__ == "__main__":

@@ -11,7 +11,7 @@ PACKAGE = pathlib.Path(jjpattern.__file__).parent
 #: Tier of each top-level part of the package; higher tiers call lower ones.
 TIERS = {
     "errors": 0, "flags": 0, "settings": 0, "result": 0, "sampling": 0, "provenance": 0,
-    "physics": 0, "io": 0, "synthetic": 0, "demo_data": 0, "__init__": 0,
+    "physics": 0, "io": 0, "synthetic": 0, "demo_data": 0, "outdir": 0, "__init__": 0,
     "fit": 1, "extract": 1, "diagnose": 1,
     "pipeline": 2, "report": 2, "batch": 2, "catalog": 2,
     "cli": 3, "cli_catalog": 3, "demo": 3,
