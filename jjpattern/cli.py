@@ -473,7 +473,11 @@ def main(argv=None) -> int:
             return _internal(exc)
         from .outdir import output_error
 
-        print(f"jjpattern: {output_error(exc, exc.filename or 'output')}", file=sys.stderr)
+        name = exc.filename or "a file"
+        message = (f"{name}: permission denied; check the permissions of the file and its "
+                   "folder" if exc.errno in (errno.EACCES, errno.EPERM)
+                   else output_error(exc, name))  # the others only happen when writing
+        print(f"jjpattern: {message}", file=sys.stderr)
         return EXIT_INPUT
     except KeyboardInterrupt:
         print("jjpattern: interrupted", file=sys.stderr)

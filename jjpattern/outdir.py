@@ -25,6 +25,7 @@ import os
 import secrets
 import shutil
 import signal
+import stat
 import tempfile
 import time
 
@@ -81,9 +82,12 @@ def _umask() -> int:
 def _mode(path: str, default: int) -> int:
     """Permissions of a new output: those of the file it replaces, else the umask's."""
     try:
-        return os.stat(path).st_mode & 0o7777
+        st = os.lstat(path)  # a symlink there is replaced, so its target's mode is no guide
     except OSError:
-        return default & ~_umask()
+        st = None
+    if st is not None and (stat.S_ISREG(st.st_mode) or stat.S_ISDIR(st.st_mode)):
+        return st.st_mode & 0o7777
+    return default & ~_umask()
 
 
 def _fsync_dir(folder: str) -> None:
@@ -286,6 +290,9 @@ def check_folder_target(out_dir, inputs=(), owned=None) -> str:
         if os.path.exists(source) and _inside(source, target):
             raise OutputError(f"{shown}: the input {os.fspath(source)} is inside this folder, "
                               "which the output replaces as a whole; choose another folder")
+    if _inside(os.getcwd(), target):
+        raise OutputError(f"{shown}: the current folder is inside it, and the output replaces "
+                          "it as a whole; run from another folder or choose another folder")
     try:
         if os.path.isdir(target) and not _may_replace(target, owned):
             raise OutputError(f"{shown}: the folder holds files that are not from an earlier "

@@ -250,6 +250,24 @@ def test_a_full_disk_is_one_sentence_and_keeps_the_old_file(tmp_path, monkeypatc
     assert os.listdir(tmp_path) == ["ic.csv"]
 
 
+def test_a_file_system_error_anywhere_is_one_sentence(tmp_path, monkeypatch, capsys):
+    def full(path, *args, **kwargs):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(path))
+
+    monkeypatch.setattr(os, "makedirs", full)
+    assert main(["demo", "--out", str(tmp_path / "d")]) == 2
+    line = _one_sentence(capsys.readouterr().err)
+    assert f"{tmp_path / 'd'}: cannot write (the disk is full" in line
+
+
+def test_a_report_over_the_current_folder_is_refused(tmp_path, monkeypatch, capsys):
+    _old_report(tmp_path / "rep")
+    monkeypatch.chdir(tmp_path / "rep")
+    assert main(["report", demo_files()["kt14_j03.csv"], "--out", "."]) == 2
+    assert "the current folder is inside it" in _one_sentence(capsys.readouterr().err)
+    assert sorted(os.listdir(tmp_path / "rep")) == sorted([COMPLETE, *_OLD])
+
+
 def test_a_closed_pipe_ends_quietly(tmp_path):
     # ``analyze --json | head -1`` with the reader gone before the first byte.
     env = {**os.environ, "PYTHONPATH": ROOT}
