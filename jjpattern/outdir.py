@@ -118,10 +118,11 @@ def atomic_file(path, binary: bool = False):
     if not os.path.isdir(folder):
         raise OutputError(f"{path}: the folder {folder} does not exist; create it first")
     try:
-        fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".{name[:60]}{TEMP_MARK}")
+        fd, tmp = tempfile.mkstemp(dir=folder, prefix=_temp_prefix(name))
     except OSError as exc:
         raise output_error(exc, path) from None
     try:
+        fcntl.flock(fd, fcntl.LOCK_EX)  # says "alive" to clean_partial until the fd closes
         with os.fdopen(fd, "wb" if binary else "w", **(
                 {} if binary else {"encoding": "utf-8", "newline": "\n"})) as handle:
             yield handle
@@ -136,6 +137,29 @@ def atomic_file(path, binary: bool = False):
     finally:
         with contextlib.suppress(FileNotFoundError):
             os.remove(tmp)
+
+
+def _temp_prefix(name: str) -> str:
+    return f".{name[:60]}{TEMP_MARK}"
+
+
+def _remove_if_stale(path: str) -> None:
+    """Remove a temporary file unless its writer is alive (it holds a lock on it)."""
+    try:
+        fd = os.open(path, os.O_RDONLY | os.O_NOFOLLOW | os.O_NONBLOCK)
+    except OSError:  # a symlink or gone: a symlink is removed, never opened
+        with contextlib.suppress(OSError):
+            if os.path.islink(path):
+                os.remove(path)
+        return
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        return  # being written right now
+    finally:
+        os.close(fd)
+    with contextlib.suppress(OSError):
+        os.remove(path)
 
 
 def write_text(path, text: str) -> None:
@@ -161,6 +185,7 @@ def check_file_target(path, inputs=()) -> None:
     for source in inputs:
         if os.path.exists(path) and os.path.exists(source) and os.path.samefile(path, source):
             raise OutputError(f"{path}: it is the input; choose another output name")
+    clean_partial(folder, only=os.path.basename(path))
 
 
 def _inside(path: str, folder: str) -> bool:
@@ -231,21 +256,21 @@ def _exchange(a: str, b: str) -> bool:
     raise OSError(code, os.strerror(code), b)
 
 
-def clean_partial(folder) -> None:
-    """Remove what killed runs left in ``folder``: temporary files, and temporary folders
-    whose owner no longer holds the lock of the folder they were built for."""
+def clean_partial(folder, only: str | None = None) -> None:
+    """Remove what killed runs left in ``folder`` (for the output named ``only``, or all):
+    temporary files and folders whose writers are gone. A live writer's are kept."""
     folder = os.fspath(folder)
     try:
         names = os.listdir(folder)
     except OSError:
         return
     for name in names:
-        if TEMP_MARK not in name:
+        if TEMP_MARK not in name or (only is not None and not name.startswith(
+                (_temp_prefix(only), f".{only}{TEMP_MARK}"))):
             continue
         entry = os.path.join(folder, name)
         if not os.path.isdir(entry) or os.path.islink(entry):
-            with contextlib.suppress(OSError):
-                os.remove(entry)
+            _remove_if_stale(entry)
             continue
         target = os.path.join(folder, name[1:].split(TEMP_MARK)[0])
         try:

@@ -91,8 +91,16 @@ def test_a_file_write_killed_leaves_the_old_or_new_file_and_a_hidden_temporary(t
     # A cut-off temporary stays after SIGKILL, but hidden and never under a figure's suffix.
     assert len(left) == (1 if phase == "written" else 0)
     assert all(n.startswith(".") and TEMP_MARK in n and not n.endswith(".svg") for n in left)
-    outdir.clean_partial(tmp_path)
+    outdir.check_file_target(out)  # the next write of the same file cleans up first
     assert os.listdir(tmp_path) == ["pattern.svg"]
+
+
+def test_cleaning_spares_a_temporary_that_is_being_written(tmp_path):
+    with outdir.atomic_file(tmp_path / "a.csv") as handle:
+        handle.write("x")
+        outdir.clean_partial(tmp_path)
+        assert len(os.listdir(tmp_path)) == 1
+    assert os.listdir(tmp_path) == ["a.csv"]
 
 
 # -- whole folders -------------------------------------------------------------------------
