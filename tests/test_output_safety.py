@@ -144,6 +144,10 @@ def test_a_report_killed_part_way_leaves_the_old_or_the_new_folder(tmp_path, kil
         tree = _tree(out)
         assert json.loads(tree.pop(COMPLETE))["files"] == sorted(expect)
         assert tree == expect
+    if kill_at == "rep:swapped":  # the old folder waits beside, under a temporary name
+        kind = "build-" if exchange else "old-"
+        aside, = [n for n in os.listdir(tmp_path) if f"{TEMP_MARK}{kind}" in n]
+        assert {k: v for k, v in _tree(tmp_path / aside).items() if k != COMPLETE} == _OLD
     # The next report cleans what the killed one left and lands whole.
     with outdir.replace_folder(out) as build:
         outdir.write_text(os.path.join(build, "report.html"), "third")
