@@ -1,21 +1,26 @@
 """Command line: arguments mapped onto :class:`~jjpattern.settings.Settings` in one place.
 
-Exit status: 0 analysed (flags or not), 2 bad input or usage, 1 internal error;
-``batch --strict``: 3 when a junction failed.
+Exit status (see :mod:`jjpattern.cli_exit`): 0 analysed (flags or not), 2 bad input, usage or
+output, 1 internal error, 141 stdout closed by its reader; ``batch --strict``: 3 when a
+junction failed.
 """
 
 from __future__ import annotations
 
 import argparse
-import errno
 import os
 import sys
 
 from . import __version__
 from .cli_catalog import add_catalog_commands, add_catalog_options, record_after_run
-
-EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAILED_JUNCTIONS = 0, 1, 2, 3
-
+from .cli_exit import (  # noqa: F401 - the statuses are part of this module's interface
+    EXIT_CLOSED_PIPE,
+    EXIT_FAILED_JUNCTIONS,
+    EXIT_INPUT,
+    EXIT_INTERNAL,
+    EXIT_OK,
+    run_guarded,
+)
 
 
 def _reading_parent() -> argparse.ArgumentParser:
@@ -455,64 +460,9 @@ def main(argv=None) -> int:
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT
-    from .errors import InputError
-
     handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
                 "batch": run_batch, "demo": run_demo}
-    try:
-        status = getattr(args, "handler", handlers.get(args.command))(args)
-        sys.stdout.flush()  # a closed pipe shows here, not in the interpreter's last flush
-        return status
-    except BrokenPipeError:
-        return _closed_pipe()
-    except InputError as exc:
-        print(f"jjpattern: {exc}", file=sys.stderr)
-        return EXIT_INPUT
-    except OSError as exc:
-        if exc.errno not in _OUTPUT_ERRNOS:
-            return _internal(exc)
-        from .outdir import output_error
-
-        name = exc.filename or "a file"
-        message = (f"{name}: permission denied; check the permissions of the file and its "
-                   "folder" if exc.errno in (errno.EACCES, errno.EPERM)
-                   else output_error(exc, name))  # the others only happen when writing
-        print(f"jjpattern: {message}", file=sys.stderr)
-        return EXIT_INPUT
-    except KeyboardInterrupt:
-        print("jjpattern: interrupted", file=sys.stderr)
-        return 130
-    except Exception as exc:  # noqa: BLE001 - last line of defence, no traceback for users
-        return _internal(exc)
-
-
-#: Errors of the file system that writing an output meets (full disk, read-only, ...):
-#: the user's to fix, so exit 2 with a sentence rather than "internal error".
-_OUTPUT_ERRNOS = {errno.ENOSPC, errno.EDQUOT, errno.EROFS, errno.EACCES, errno.EPERM,
-                  errno.EISDIR, errno.ENOTDIR, errno.ENAMETOOLONG, errno.EFBIG}
-#: Status after the reader of stdout went away (``| head``): 128 + SIGPIPE, as a tool
-#: stopped by the signal itself would report.
-EXIT_CLOSED_PIPE = 141
-
-
-def _closed_pipe() -> int:
-    """Quiet end on a closed stdout: point it at /dev/null so the exit flush cannot fail."""
-    try:
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
-        os.close(devnull)
-    except (OSError, ValueError, AttributeError):
-        pass
-    return EXIT_CLOSED_PIPE
-
-
-def _internal(exc: BaseException) -> int:
-    if os.environ.get("JJPATTERN_DEBUG"):
-        raise exc
-    print(f"jjpattern: internal error ({exc.__class__.__name__}: {exc}); this is a bug, "
-          "please report it with the input file (JJPATTERN_DEBUG=1 shows the traceback)",
-          file=sys.stderr)
-    return EXIT_INTERNAL
+    return run_guarded(getattr(args, "handler", handlers.get(args.command)), args)
 
 
 if __name__ == "__main__":

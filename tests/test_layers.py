@@ -14,7 +14,7 @@ TIERS = {
     "physics": 0, "io": 0, "synthetic": 0, "demo_data": 0, "outdir": 0, "__init__": 0,
     "fit": 1, "extract": 1, "diagnose": 1,
     "pipeline": 2, "report": 2, "batch": 2, "catalog": 2,
-    "cli": 3, "cli_catalog": 3, "demo": 3,
+    "cli": 3, "cli_catalog": 3, "cli_exit": 3, "demo": 3,
 }
 
 
