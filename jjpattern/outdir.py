@@ -299,9 +299,15 @@ def _leftovers(target: str) -> list:
     return sorted(os.path.join(parent, n) for n in os.listdir(parent) if n.startswith(prefix))
 
 
-def _may_replace(target: str, owned) -> bool:
+def _strangers(target: str, owned) -> list:
+    """Entries of ``target`` that an earlier complete folder did not write (someone's own)."""
     entries = os.listdir(target)
-    return not entries or COMPLETE in entries or (owned is not None and all(map(owned, entries)))
+    try:
+        with open(os.path.join(target, COMPLETE), encoding="utf-8") as handle:
+            known = {f.split("/")[0] for f in json.load(handle)["files"]} | {COMPLETE}
+    except (OSError, ValueError, KeyError, TypeError, AttributeError):
+        known = set()
+    return sorted(e for e in entries if e not in known and not (owned and owned(e)))
 
 
 def check_folder_target(out_dir, inputs=(), owned=None) -> str:
@@ -319,9 +325,10 @@ def check_folder_target(out_dir, inputs=(), owned=None) -> str:
         raise OutputError(f"{shown}: the current folder is inside it, and the output replaces "
                           "it as a whole; run from another folder or choose another folder")
     try:
-        if os.path.isdir(target) and not _may_replace(target, owned):
-            raise OutputError(f"{shown}: the folder holds files that are not from an earlier "
-                              "report; choose a new or empty folder")
+        strangers = _strangers(target, owned) if os.path.isdir(target) else []
+        if strangers:
+            raise OutputError(f"{shown}: the folder holds {strangers[0][:80]!r}, which is not "
+                              "from an earlier report; move it away or choose another folder")
     except OSError as exc:
         raise output_error(exc, out_dir) from None
     return target

@@ -180,10 +180,16 @@ def test_two_reports_into_one_folder_wait_for_each_other(tmp_path):
 
 def test_a_folder_that_is_not_a_report_is_refused(tmp_path):
     (tmp_path / "notes.txt").write_text("lab notes")
-    with pytest.raises(OutputError, match="not from an earlier report"), \
+    with pytest.raises(OutputError, match="'notes.txt', which is not from an earlier report"), \
             outdir.replace_folder(tmp_path):
         pass
     assert os.listdir(tmp_path) == ["notes.txt"]
+    # Nor is a report someone has added a file of their own to.
+    _old_report(tmp_path / "rep")
+    (tmp_path / "rep" / "notes.txt").write_text("lab notes")
+    with pytest.raises(OutputError, match="'notes.txt'"), outdir.replace_folder(tmp_path / "rep"):
+        pass
+    assert sorted(os.listdir(tmp_path / "rep")) == sorted([COMPLETE, "notes.txt", *_OLD])
 
 
 # -- the command line ----------------------------------------------------------------------
