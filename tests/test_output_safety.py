@@ -221,6 +221,17 @@ def test_report_into_the_inputs_own_folder_is_refused(sweep_folder, capsys):
     assert {n: (sweep_folder / n).read_bytes() for n in os.listdir(sweep_folder)} == before
 
 
+def test_a_batch_whose_outputs_would_hold_its_inputs_is_refused(sweep_folder, capsys):
+    results = sweep_folder / "results"  # where the batch writes its result documents
+    results.mkdir()
+    (results / "j1.csv").write_bytes((sweep_folder / "fit.csv").read_bytes())
+    manifest = sweep_folder / "manifest.csv"
+    manifest.write_text("file,junction\nresults/j1.csv,J1\n")
+    assert main(["batch", str(manifest), "--out", str(sweep_folder)]) == 2
+    assert "would overwrite its input" in _one_sentence(capsys.readouterr().err)
+    assert sorted(os.listdir(results)) == ["j1.csv"]
+
+
 def test_output_paths_that_cannot_be_written_are_one_sentence(sweep_folder, tmp_path, capsys):
     sweep = str(sweep_folder / "fit.csv")
     cases = [
