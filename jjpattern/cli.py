@@ -1,7 +1,8 @@
 """Command line: arguments mapped onto :class:`~jjpattern.settings.Settings` in one place.
 
-Exit status: 0 analysed (flags or not), 2 bad input or usage, 1 internal error;
-``batch --strict``: 3 when a junction failed.
+Exit status (see :mod:`jjpattern.cli_exit`): 0 analysed (flags or not), 2 bad input, usage or
+output, 1 internal error, 141 stdout closed by its reader; ``batch --strict``: 3 when a
+junction failed.
 """
 
 from __future__ import annotations
@@ -12,9 +13,14 @@ import sys
 
 from . import __version__
 from .cli_catalog import add_catalog_commands, add_catalog_options, record_after_run
-
-EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_FAILED_JUNCTIONS = 0, 1, 2, 3
-
+from .cli_exit import (  # noqa: F401 - the statuses are part of this module's interface
+    EXIT_CLOSED_PIPE,
+    EXIT_FAILED_JUNCTIONS,
+    EXIT_INPUT,
+    EXIT_INTERNAL,
+    EXIT_OK,
+    run_guarded,
+)
 
 
 def _reading_parent() -> argparse.ArgumentParser:
@@ -292,12 +298,14 @@ def settings_from_args(args):
                     report=report)
 
 
-def _check_plots(*paths):
+def _check_plots(source, *paths):
+    from .outdir import check_file_target
     from .report.plot import check_plot_path
 
     for path in paths:
         if path:
             check_plot_path(path)
+            check_file_target(path, inputs=[source])
 
 
 def _is_saved_result(path: str) -> bool:
@@ -312,8 +320,9 @@ def _terminal_progress():
 
 
 def run_report(args) -> int:
-    from .report.bundle import write_report
+    from .report.bundle import check_report_folder, write_report
 
+    check_report_folder(args.out, inputs=[args.path])
     saved = _is_saved_result(args.path)
     if saved:
         from .result import Result
@@ -332,7 +341,8 @@ def run_report(args) -> int:
     if say:
         say(f"writing the report to {args.out}")
     paths = write_report(result, args.out, args.argv,
-                         ivmap=ivmap if result.extraction is not None else None)
+                         ivmap=ivmap if result.extraction is not None else None,
+                         inputs=[args.path])
     from .report.summary import short_summary
 
     print("\n".join(short_summary(result)))
@@ -345,7 +355,11 @@ def run_analyze(args) -> int:
     from .pipeline import analyze_input
     from .report.summary import render_summary
 
-    _check_plots(args.plot, args.map_plot)
+    _check_plots(args.path, args.plot, args.map_plot)
+    if args.report:
+        from .report.bundle import check_report_folder
+
+        check_report_folder(args.report, inputs=[args.path])
     done = analyze_input(args.path, settings_from_args(args), command=args.argv,
                          progress=_terminal_progress())
     result = done.result
@@ -365,7 +379,8 @@ def run_analyze(args) -> int:
         from .report.bundle import write_report
 
         report = write_report(result, args.report, args.argv,
-                              ivmap=done.data if result.extraction is not None else None)
+                              ivmap=done.data if result.extraction is not None else None,
+                              inputs=[args.path])
     if args.json:
         print(result.to_json())
     else:
@@ -382,9 +397,10 @@ def run_analyze(args) -> int:
 def run_extract(args) -> int:
     from .extract.engine import extract, extraction_table_csv
     from .io import load_map
-    from .report.files import write_text
+    from .outdir import check_file_target, write_text
 
-    _check_plots(args.plot)
+    check_file_target(args.out, inputs=[args.path])
+    _check_plots(args.path, args.plot)
     settings = settings_from_args(args)
     ivmap = load_map(args.path, settings.read)
     extraction = extract(ivmap, criterion=settings.extract.criterion,
@@ -457,25 +473,9 @@ def main(argv=None) -> int:
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT
-    from .errors import InputError
-
     handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
                 "batch": run_batch, "demo": run_demo}
-    try:
-        return getattr(args, "handler", handlers.get(args.command))(args)
-    except InputError as exc:
-        print(f"jjpattern: {exc}", file=sys.stderr)
-        return EXIT_INPUT
-    except KeyboardInterrupt:
-        print("jjpattern: interrupted", file=sys.stderr)
-        return 130
-    except Exception as exc:  # noqa: BLE001 - last line of defence, no traceback for users
-        if os.environ.get("JJPATTERN_DEBUG"):
-            raise
-        print(f"jjpattern: internal error ({exc.__class__.__name__}: {exc}); this is a bug, "
-              "please report it with the input file (JJPATTERN_DEBUG=1 shows the traceback)",
-              file=sys.stderr)
-        return EXIT_INTERNAL
+    return run_guarded(getattr(args, "handler", handlers.get(args.command)), args)
 
 
 if __name__ == "__main__":

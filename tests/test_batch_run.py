@@ -21,6 +21,7 @@ from scipy.constants import e, h
 from jjpattern.batch.runner import Progress, result_stem, run_batch
 from jjpattern.batch.worker import input_sha256
 from jjpattern.cli import main
+from jjpattern.outdir import TEMP_MARK, file_lock
 from jjpattern.settings import Settings
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
@@ -194,7 +195,7 @@ def test_resume_after_sigkill(chip, tmp_path):
     # Exactly the junctions saved before the kill are skipped; the others are analysed now.
     assert again.skipped == len(saved) < 5
     assert again.analysed == 5 and again.failed == 1
-    assert not [n for n in os.listdir(results) if ".tmp" in n]
+    assert not [n for n in os.listdir(results) if ".tmp" in n or TEMP_MARK in n]
     assert _read(out / "summary.csv") == chip["summary"]
 
 
@@ -227,12 +228,13 @@ def test_cli_batch_strict_and_manifest_errors(chip, tmp_path, capsys):
     out = tmp_path / "x"
     assert main(["batch", chip["manifest"]]) == 2
     assert "--out DIR" in capsys.readouterr().err
-    # One batch per output folder at a time; a lock left by a dead process is taken over.
+    # One batch per output folder at a time (an flock, which the kernel drops when its
+    # holder dies, so a killed batch leaves no stale lock).
     busy = tmp_path / "busy"
     busy.mkdir()
-    (busy / ".jjpattern-batch.lock").write_text(str(os.getpid()))
-    assert main(["batch", chip["manifest"], "--out", str(busy)]) == 2
-    assert "another batch" in capsys.readouterr().err
+    with file_lock(busy / ".jjpattern-batch.lock", "held by the test", timeout_s=0):
+        assert main(["batch", chip["manifest"], "--out", str(busy)]) == 2
+        assert "another batch" in capsys.readouterr().err
     bad = tmp_path / "bad.csv"
     bad.write_text("file,junction,length (um)\nj1.csv,J1,ten\n")
     (tmp_path / "j1.csv").write_text(_read(chip["folder"] / "j1.csv"))

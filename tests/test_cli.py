@@ -9,6 +9,7 @@ import pytest
 
 from jjpattern.cli import main
 from jjpattern.demo import demo_files
+from jjpattern.outdir import TEMP_MARK
 
 FIT_KEYS = {
     "branch", "model", "period_T", "period_stderr_T", "field_offset_T", "field_offset_stderr_T",
@@ -68,13 +69,13 @@ def test_plot_formats(demo, tmp_path, capsys, suffix, magic):
     path = tmp_path / f"fig{suffix}"
     assert main(["analyze", demo["kt14_j03.csv"], "--plot", str(path)]) == 0
     assert path.read_bytes().startswith(magic)
-    assert not [p for p in os.listdir(tmp_path) if ".tmp" in p]
+    assert not [p for p in os.listdir(tmp_path) if ".tmp" in p or TEMP_MARK in p]
 
 
 def test_demo_writes_results_and_says_where(tmp_path, capsys):
     assert main(["demo", "--out", str(tmp_path / "d")]) == 0
     out = capsys.readouterr().out
-    files = sorted(os.listdir(tmp_path / "d"))
+    files = sorted(n for n in os.listdir(tmp_path / "d") if not n.startswith("."))
     expected = [f"kt14_j{n}.{s}" for n in ("03", "05", "11", "07_map") for s in ("json", "png")]
     assert files == sorted(expected + ["kt14_j07_map_extraction.png", "report_kt14_j07",
                                        "chip_kt14"])

@@ -12,11 +12,11 @@ PACKAGE = pathlib.Path(jjpattern.__file__).parent
 TIERS = {
     "errors": 0, "flags": 0, "settings": 0, "result": 0, "sampling": 0, "provenance": 0,
     "physics": 0, "io": 0, "synthetic": 0, "demo_data": 0, "__init__": 0, "fmt": 0,
-    "notebook": 0,
+    "notebook": 0, "outdir": 0,
     "fit": 1, "extract": 1, "diagnose": 1,
     "pipeline": 2, "report": 2, "batch": 2, "catalog": 2,
     "api": 2,
-    "cli": 3, "cli_catalog": 3, "demo": 3,
+    "cli": 3, "cli_catalog": 3, "cli_exit": 3, "demo": 3,
 }
 
 

@@ -13,6 +13,7 @@ import pytest
 
 from jjpattern.cli import main
 from jjpattern.demo import demo_files
+from jjpattern.outdir import TEMP_MARK
 
 
 class _Page(HTMLParser):
@@ -64,7 +65,7 @@ def test_figures_in_three_formats(map_report):
         assert (map_report / f"{stem}.pdf").read_bytes()[:4] == b"%PDF"
         root = ET.parse(map_report / f"{stem}.svg").getroot()
         assert root.tag.endswith("svg")
-    assert not [p for p in os.listdir(map_report) if ".tmp" in p]
+    assert not [p for p in os.listdir(map_report) if ".tmp" in p or TEMP_MARK in p]
 
 
 def test_result_json_matches_analyze_json(map_report, capsys):

@@ -199,16 +199,13 @@ def save_figure(fig, *paths: str) -> None:
     import matplotlib
     from matplotlib import pyplot as plt
 
+    from ..outdir import atomic_file
+
     try:
         for path in paths:
             suffix = os.path.splitext(path)[1].lower()
-            tmp = f"{path}.tmp{os.getpid()}{suffix}"
-            try:
-                with matplotlib.rc_context({"svg.hashsalt": "jjpattern"}):
-                    fig.savefig(tmp, dpi=200, metadata=_METADATA[suffix])
-                os.replace(tmp, path)
-            finally:
-                if os.path.exists(tmp):
-                    os.remove(tmp)
+            with atomic_file(path, binary=True) as handle, \
+                    matplotlib.rc_context({"svg.hashsalt": "jjpattern"}):
+                fig.savefig(handle, format=suffix[1:], dpi=200, metadata=_METADATA[suffix])
     finally:
         plt.close(fig)

@@ -9,6 +9,7 @@ the documents alone.
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import os
@@ -20,7 +21,7 @@ from dataclasses import dataclass, field
 from ..errors import InputError
 from . import worker
 
-RESULTS, REPORTS = "results", "reports"
+RESULTS, REPORTS, CHIPS = "results", "reports", "chips"
 #: Largest number of junctions sent to a worker at once.
 MAX_CHUNK = 8
 _TEMP = re.compile(r"\.tmp\d+")
@@ -76,46 +77,41 @@ def _saved(path: str, input_sha: str, settings_hash: str):
     return result
 
 
-def _clean_temp(folder: str) -> None:
-    """Remove temporary files a killed run left behind (never a file under a final name)."""
-    for name in os.listdir(folder):
-        if _TEMP.search(name):
-            try:
-                os.remove(os.path.join(folder, name))
-            except OSError:
-                pass
+def _clean_temp(out_dir: str) -> None:
+    """Remove what a killed run left behind: temporary files and half-built report folders
+    (never anything under a final name)."""
+    from ..outdir import clean_partial
+
+    folders = [out_dir, os.path.join(out_dir, RESULTS), os.path.join(out_dir, REPORTS)]
+    chips = os.path.join(out_dir, CHIPS)
+    if os.path.isdir(chips):
+        folders += [os.path.join(chips, n) for n in os.listdir(chips)]
+    for folder in folders:
+        clean_partial(folder)
+        if os.path.basename(folder) == RESULTS:  # names of versions before jjpattern.outdir
+            for name in os.listdir(folder):
+                if _TEMP.search(name):
+                    with contextlib.suppress(OSError):
+                        os.remove(os.path.join(folder, name))
 
 
+#: Lock file of a batch inside its output folder: one batch writes a folder at a time.
 LOCK = ".jjpattern-batch.lock"
 
 
-def _lock(out_dir: str) -> str:
-    """Claim ``out_dir`` for this batch: two batches writing one folder would trip over
-    each other's temporary files. A lock left by a killed batch (its process gone) is taken
-    over."""
-    path = os.path.join(out_dir, LOCK)
-    for _ in range(2):
-        try:
-            fd = os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY)
-        except FileExistsError:
-            try:
-                with open(path, encoding="ascii") as handle:
-                    pid = int(handle.read().strip() or 0)
-                os.kill(pid, 0)
-            except (OSError, ValueError):  # no such process: a stale lock
-                try:
-                    os.remove(path)
-                except FileNotFoundError:
-                    pass
-                continue
-            raise InputError(f"{out_dir}: another batch (process {pid}) is writing there; "
-                             "wait for it to finish or choose another --out (or remove "
-                             f"{path} if no batch is running)") from None
-        with os.fdopen(fd, "w", encoding="ascii") as handle:
-            handle.write(str(os.getpid()))
-        return path
-    raise InputError(f"{out_dir}: cannot claim the folder ({path} keeps coming back); "
-                     "remove that file")
+def _check_inputs(rows, manifest: str, out_dir: str) -> None:
+    """Refuse a batch whose outputs would overwrite its manifest or one of its inputs."""
+    from ..outdir import OutputError
+
+    written = [os.path.join(out_dir, d) for d in (RESULTS, REPORTS, CHIPS)]
+    files = [os.path.join(out_dir, n) for n in ("summary.csv", "summary.parquet",
+                                                "chip_report.html", LOCK)]
+    for path in [manifest, *(r.file_path for r in rows)]:
+        real = os.path.realpath(path)
+        if any(os.path.commonpath([real, os.path.realpath(d)]) == os.path.realpath(d)
+               for d in written) or any(real == os.path.realpath(f) for f in files):
+            raise OutputError(f"{out_dir}: the batch would overwrite its input {path}; "
+                              "choose another --out")
 
 
 class Progress:
@@ -245,6 +241,7 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     command : sequence of str, optional
         The command-line arguments, recorded in every result and the chip report.
     """
+    from ..outdir import file_lock, output_error
     from .manifest import read_manifest
 
     start = time.perf_counter()
@@ -252,24 +249,27 @@ def run_batch(manifest, out_dir, *, settings=None, workers: int | None = None,
     out_dir = os.path.abspath(os.fspath(out_dir))
     rows = read_manifest(manifest)
     workers = max(1, int(workers or os.cpu_count() or 1))
-    os.makedirs(os.path.join(out_dir, RESULTS), exist_ok=True)
-    lock = _lock(out_dir)
+    _check_inputs(rows, manifest, out_dir)
     try:
+        os.makedirs(os.path.join(out_dir, RESULTS), exist_ok=True)
+    except OSError as exc:
+        raise output_error(exc, out_dir) from None
+    busy = (f"{out_dir}: another batch is writing there; wait for it to finish or choose "
+            "another --out")
+    with file_lock(os.path.join(out_dir, LOCK), busy, timeout_s=0):
         return _run_locked(rows, manifest, out_dir, start, settings, workers, scheduler,
                            reports, svg, chunk_size, progress, command)
-    finally:
-        os.remove(lock)
 
 
 def _run_locked(rows, manifest, out_dir, start, settings, workers, scheduler, reports, svg,
                 chunk_size, progress, command) -> BatchOutcome:
-    from ..report.files import write_text
+    from ..outdir import is_complete, write_text
     from ..result import Result
     from ..settings import Settings
     from .chipreport import write_chip_outputs
     from .table import failed_row, result_rows, summary_csv, write_parquet
 
-    _clean_temp(os.path.join(out_dir, RESULTS))
+    _clean_temp(out_dir)
     outcome = BatchOutcome(out_dir, total=len(rows))
     jobs = plan(rows, settings or Settings(), out_dir, os.path.dirname(manifest), reports,
                 list(command) if command is not None else None)
@@ -294,8 +294,7 @@ def _run_locked(rows, manifest, out_dir, start, settings, workers, scheduler, re
     for job in jobs:
         saved = None if "error" in job else _saved(job["result_path"], job["input_sha256"],
                                                    job["settings_sha256"])
-        report_there = not reports or os.path.exists(
-            os.path.join(job["report_dir"], "report.html"))
+        report_there = not reports or is_complete(job["report_dir"])
         if "error" in job:
             fail(job, job["error"])
         elif saved is not None and report_there:

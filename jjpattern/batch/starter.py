@@ -7,6 +7,7 @@ import os
 import re
 
 from ..errors import InputError
+from ..outdir import atomic_file
 
 #: Columns of the starter manifest; sizes and positions are left empty to fill in.
 HEADER = ["file", "junction", "chip", "cooldown", "length (um)", "width (um)", "area (um2)",
@@ -73,11 +74,9 @@ def write_starter_manifest(folder, out_path, can_read) -> list[str]:
     stems = [os.path.splitext(os.path.basename(p.rstrip("/")))[0] for p in relative]
     if len(set(stems)) < len(stems):
         stems = [os.path.splitext(p)[0].replace("/", "-") for p in relative]
-    tmp = f"{out_path}.tmp{os.getpid()}"
-    with open(tmp, "w", newline="", encoding="utf-8") as handle:
+    with atomic_file(out_path) as handle:
         writer = csv.writer(handle)
         writer.writerow(HEADER)
         for rel, stem in zip(relative, stems, strict=True):
             writer.writerow([rel, stem] + [""] * (len(HEADER) - 2))
-    os.replace(tmp, out_path)
     return relative

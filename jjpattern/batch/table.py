@@ -11,7 +11,6 @@ from __future__ import annotations
 import csv
 import io
 import math
-import os
 import re
 
 from ..result import FIT_KEYS
@@ -124,13 +123,10 @@ def write_parquet(rows: list[dict], path: str) -> bool:
         import pyarrow  # noqa: F401
     except ImportError:
         return False
-    tmp = f"{path}.tmp{os.getpid()}"
-    try:
-        summary_frame(rows).to_parquet(tmp, index=False)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+    from ..outdir import atomic_file
+
+    with atomic_file(path, binary=True) as handle:
+        summary_frame(rows).to_parquet(handle, index=False)
     return True
 
 

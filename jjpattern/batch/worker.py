@@ -122,7 +122,8 @@ def analyse_job(job: dict) -> dict:
             from ..report.bundle import write_report
 
             write_report(result, job["report_dir"], job.get("command") or [],
-                         ivmap=done.data if result.extraction is not None else None)
+                         ivmap=done.data if result.extraction is not None else None,
+                         inputs=[job["path"]])
         text = result.to_json()
     except Exception as exc:  # noqa: BLE001 - one junction's failure becomes its row
         return {"key": job["key"], "status": "failed", "error": error_text(exc),

@@ -71,19 +71,16 @@ def export_catalog(catalog, out: str, *, tol: Tolerances = DEFAULT_TOLERANCES, *
 def _write_parquet(out: str, rows) -> None:
     import pandas as pd
 
+    from ..outdir import atomic_file
     from .history import ROW_COLUMNS
 
     frame = pd.DataFrame(rows, columns=list(ROW_COLUMNS))
-    tmp = f"{out}.tmp{os.getpid()}"
     try:
-        frame.to_parquet(tmp, index=False)
-        os.replace(tmp, out)
+        with atomic_file(out, binary=True) as handle:
+            frame.to_parquet(handle, index=False)
     except ImportError:
         raise InputError(f"{out}: writing Parquet needs pyarrow (pip install pyarrow); or "
                          "export .csv") from None
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
 
 
 def _is_sqlite(path: str) -> bool:

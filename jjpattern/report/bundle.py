@@ -1,18 +1,23 @@
 """Write a whole report folder from a :class:`~jjpattern.result.Result`.
 
 File names are the same every time, so a paper's figure can be regenerated in
-place; every file is written atomically. Everything renders from the result
-document alone except the raw-map figure, which needs the map itself.
+place. The folder is built beside the target and swapped in whole
+(:func:`jjpattern.outdir.replace_folder`): a reader sees the old complete
+report or the new one, never a mix, and no input inside the folder is touched.
+Everything renders from the result document alone except the raw-map figure,
+which needs the map itself.
 """
 
 from __future__ import annotations
 
 import json
 import os
+import re
 
 import numpy as np
 
 from ..fmt import csv_number
+from ..outdir import check_folder_target, replace_folder
 from .files import write_text
 from .methods import methods_paragraph
 from .provenance import provenance
@@ -41,16 +46,33 @@ def field_calibration_text(result) -> str:
             "tesla; no further calibration was applied.")
 
 
-def write_report(result, out_dir: str, argv, ivmap=None) -> dict:
+#: Names a report folder written before the completeness marker could hold.
+_OWNED = re.compile(r"(report\.html|result\.json|fit\.csv|methods\.txt|provenance\.json|"
+                    r"extraction\.csv|(pattern|map|current_density)\.(png|pdf|svg))"
+                    r"(\.tmp\d+(\.\w+)?)?")
+
+
+def check_report_folder(out_dir: str, inputs=()) -> None:
+    """Refuse at once a report folder that :func:`write_report` would refuse (OutputError)."""
+    check_folder_target(out_dir, inputs=inputs, owned=_OWNED.fullmatch)
+
+
+def write_report(result, out_dir: str, argv, ivmap=None, inputs=()) -> dict:
     """Write the report folder and return ``{name: path}`` of everything written.
 
     ``ivmap`` is the raw map the result was extracted from, when at hand; without
-    it the report says that the map figure needs the input file.
+    it the report says that the map figure needs the input file. ``inputs`` are
+    the paths read; a folder holding one of them is refused (OutputError).
     """
+    with replace_folder(out_dir, inputs=inputs, owned=_OWNED.fullmatch) as build:
+        written = _write_into(result, build, argv, ivmap)
+    return {name: os.path.join(out_dir, name) for name in written}
+
+
+def _write_into(result, out_dir: str, argv, ivmap) -> dict:
     from .html import density_section, geometry_section, render_html
     from .plot import density_figure, map_figure, pattern_figure, save_figure
 
-    os.makedirs(out_dir, exist_ok=True)
     formats = tuple(result.settings.report.figure_formats)
     dpi = result.settings.report.dpi
     paths = {}

@@ -1,22 +1,8 @@
-"""Atomic file writes: a temporary file in the same folder, then a rename."""
+"""Atomic file writes (see :mod:`jjpattern.outdir`): a temporary file in the same folder,
+made with ``O_EXCL`` under an unpredictable name, flushed to disk, then renamed."""
 
 from __future__ import annotations
 
-import os
+from ..outdir import write_bytes, write_text
 
-from ..errors import InputError
-
-
-def write_text(path: str, text: str) -> None:
-    """Write ``text`` to ``path`` so that no reader ever sees a half-written file."""
-    folder = os.path.dirname(os.path.abspath(path))
-    if not os.path.isdir(folder):
-        raise InputError(f"{path}: the folder {folder} does not exist; create it first")
-    tmp = f"{path}.tmp{os.getpid()}"
-    try:
-        with open(tmp, "w", encoding="utf-8", newline="\n") as handle:
-            handle.write(text)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+__all__ = ["write_bytes", "write_text"]

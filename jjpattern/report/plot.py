@@ -49,21 +49,18 @@ def save_figure(fig, *paths: str, dpi: int = 200, png_bytes: bool = False):
     import matplotlib
     from matplotlib import pyplot as plt
 
+    from ..outdir import atomic_file
+
     png = None
     try:
         with matplotlib.rc_context({"svg.hashsalt": "jjpattern"}):
             for path in paths:
                 suffix = os.path.splitext(path)[1].lower()
-                tmp = f"{path}.tmp{os.getpid()}{suffix}"
-                try:
-                    fig.savefig(tmp, dpi=dpi, metadata=_METADATA[suffix])
-                    if suffix == ".png" and png_bytes:
-                        with open(tmp, "rb") as handle:
-                            png = handle.read()
-                    os.replace(tmp, path)
-                finally:
-                    if os.path.exists(tmp):
-                        os.remove(tmp)
+                with atomic_file(path, binary=True) as handle:
+                    fig.savefig(handle, format=suffix[1:], dpi=dpi, metadata=_METADATA[suffix])
+                if suffix == ".png" and png_bytes:
+                    with open(path, "rb") as handle:
+                        png = handle.read()
             if png_bytes and png is None:
                 buffer = io.BytesIO()
                 fig.savefig(buffer, format="png", dpi=dpi, metadata=_METADATA[".png"])
