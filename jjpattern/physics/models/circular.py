@@ -33,14 +33,16 @@ def _shape(u):
 
 
 def _slope(u):
-    """d/du of 2 J1(pi u)/(pi u) = -2 pi J2(pi u)/(pi u) (Abramowitz and Stegun 9.1.30)."""
+    """d/du of 2 J1(x)/x with x = pi u: -2 pi J2(x)/x (Abramowitz and Stegun 9.1.30), with
+    J2(x) = 2 J1(x)/x - J0(x) (A&S 9.1.27; j0 and j1 are much faster than jv)."""
     import numpy as np
     from scipy import special
 
     x = np.pi * u
     small = np.abs(x) < 1e-8
     safe = np.where(small, 1.0, x)
-    return np.where(small, 0.0, -2.0 * np.pi * special.jv(2, safe) / safe)
+    j2 = 2.0 * special.j1(safe) / safe - special.j0(safe)
+    return np.where(small, 0.0, -2.0 * np.pi * j2 / safe)
 
 
 def gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0):
