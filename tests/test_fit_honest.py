@@ -121,3 +121,24 @@ def test_analytic_gradients_agree_with_differences_and_a_wrong_one_is_caught(nam
                                  for f in dataclasses.fields(spec)} | {"gradient": wrong})
     assert check_model(broken) == ["gradient by period_T differs from the formula's central "
                                    "differences"]
+
+
+def test_lmfit_result_is_si_with_the_tools_reduced_chisq_and_correlations():
+    import lmfit
+
+    rng = np.random.default_rng(4)
+    x = np.linspace(-4e-3, 4e-3, 800)
+    fit = fit_pattern(x, _pattern(rng, x, 1e-3, 0.1e-3, 2e-6, 0.02), geometry="rectangular")
+    result = fit.lmfit_result
+    assert result.redchi == pytest.approx(fit.reduced_chisq, rel=1e-12)
+    assert 0.8 < fit.reduced_chisq < 1.2  # 2 % folded noise against the model-free noise
+    report = lmfit.fit_report(result)
+    assert f"reduced chi-square = {result.redchi:.8f}" in report
+    # Starting values (the converged inner fit lmfit started from) are reported in SI too.
+    assert result.params["period_T"].init_value == pytest.approx(1e-3, rel=0.2)
+    uvars = result.params.create_uvars(result.covar)
+    assert uvars["period_T"].s == pytest.approx(fit.period_stderr_T, rel=1e-9)
+    area = 2.067833848e-15 / uvars["period_T"]  # Phi0 (CODATA 2018, scipy.constants)
+    assert area.s == pytest.approx(fit.effective_area_stderr_m2, rel=1e-6)
+    corr = result.covar[0, 1] / np.sqrt(result.covar[0, 0] * result.covar[1, 1])
+    assert corr == pytest.approx(result.params["ic0_A"].correl["period_T"], rel=1e-9)

@@ -205,10 +205,11 @@ def _to_si(result, fixed, units: Units):
     if result.covar is not None and result.covar.shape == (len(names), len(names)):
         result.covar = result.covar * np.outer(factors, factors)
     values = units.to_si({k: p.value for k, p in params.items()})
+    starts = units.to_si({k: p.init_value for k, p in params.items()})
     for name, p in params.items():
         f = units.factor(name)
         p.min, p.max = p.min * f, p.max * f
-        p.value = values[name]
+        p.value, p.init_value = values[name], starts[name]
         if p.stderr is not None:
             p.stderr = float(p.stderr) * f
     for name, value in units.to_si(fixed).items():
