@@ -22,6 +22,12 @@ CATALOGUE = {
         "period cannot be identified. Widen the sweep to reach at least one node on each "
         "side of the main lobe.",
     ),
+    "undersampled": (
+        "error",
+        "The fitted period spans fewer field steps than it takes to tell a period from its "
+        "aliases, so the period, offset and Ic0 are withheld. Measure with a finer field "
+        "step (at least four points per period, ten or more for good numbers).",
+    ),
     "main-lobe-outside": (
         "warning",
         "The main lobe lies outside the measured field window. The period is reliable, but "

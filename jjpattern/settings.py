@@ -64,7 +64,7 @@ class FitSettings:
 
     ``model`` is the name of one model (default ``"rectangular"``) or ``"auto"``
     (every registered model is fitted and the Bayesian information criterion picks
-    one by a margin; about three times the cost of one model).
+    one by a margin; four to five times the cost of one model, see scripts/bench_fit.py).
     """
 
     model: str = "rectangular"

@@ -20,14 +20,17 @@ simpler model.
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from ..physics.models import get_model, model_names
 from .far import far_lobe_start, periodic_candidate
+from .lsq import Units, robust_weight, solve
 from .scan import scan_pattern
+
+__all__ = ["CRITERION", "MARGIN", "ModelChoice", "Trial", "choose_model", "joint_choice",
+           "quick_fit", "robust_weight", "shape_start", "trial_fit"]
 
 #: BIC difference that makes a choice clear (Kass and Raftery 1995: "very strong").
 MARGIN = 10.0
@@ -58,61 +61,16 @@ class ModelChoice:
     block: dict
 
 
-def robust_weight(z2, loss):
-    """IRLS weight of each point for a scipy loss, ``rho'(z)`` with ``z = (r / f_scale)^2``."""
-    if loss == "soft_l1":
-        return 1.0 / np.sqrt(1.0 + z2)
-    if loss == "huber":
-        return np.where(z2 <= 1.0, 1.0, 1.0 / np.sqrt(np.maximum(z2, 1.0)))
-    if loss == "cauchy":
-        return 1.0 / (1.0 + z2)
-    return np.ones_like(z2)
-
-
 def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float):
-    """Least squares of one model from ``start`` with scipy alone (no lmfit overhead).
+    """Least squares of one model from ``start`` with scipy alone (no lmfit overhead),
+    in the normalised units of ``lsq`` (``x``, ``y`` and ``start`` all normalised).
 
-    Returns ``(params, weighted chi-square in A^2, number of fitted parameters)``;
-    with a robust loss the chi-square uses the robust weights at the solution,
-    as the full fit's reduced chi-square does.
+    Returns ``(params, weighted chi-square, number of fitted parameters)``; with a
+    robust loss the chi-square uses the robust weights at the solution, as the full
+    fit's reduced chi-square does.
     """
-    from scipy import optimize
-
-    names = ["ic0_A", "period_T", "field_offset_T"]
-    if floor:
-        names.append("floor_A")
-    names += [p.name for p in spec.extra]
-    fixed = {} if floor else {"floor_A": 0.0}
-    v0 = np.array([float(start.get(n, 0.0)) for n in names])
-    if floor and v0[3] == 0.0:
-        v0[3] = 0.05 * abs(v0[0])
-    for i, p in enumerate(spec.extra, start=len(names) - len(spec.extra)):
-        if p.name not in start:
-            v0[i] = p.start
-    # Steps in units of natural scales: a field offset near zero still moves by fractions
-    # of a period, an extra parameter by fractions of one.
-    natural = {"ic0_A": abs(v0[0]), "period_T": abs(v0[1]), "field_offset_T": abs(v0[1]),
-               "floor_A": abs(v0[0])}
-    scale = np.array([natural.get(n, max(abs(v), 1.0)) for n, v in zip(names, v0, strict=True)])
-    scale = np.maximum(scale, 1e-300)
-
-    def residual(v):
-        return spec.formula(x, **dict(zip(names, v * scale, strict=True)), **fixed) - y
-
-    with np.errstate(all="ignore"), warnings.catch_warnings():
-        # An unfinished search still gives an honest (if high) chi-square to rank by.
-        warnings.simplefilter("ignore", RuntimeWarning)
-        if loss == "linear":
-            # MINPACK's lmdif directly: the least Python per iteration.
-            best = optimize.leastsq(residual, v0 / scale, maxfev=200 * (len(names) + 1))[0]
-        else:
-            best = optimize.least_squares(residual, v0 / scale, method="trf", loss=loss,
-                                          f_scale=f_scale).x
-    r = residual(best)
-    chisq = float(np.sum(robust_weight((r / f_scale) ** 2, loss) * r * r))
-    params = dict(zip(names, best * scale, strict=True))
-    params.setdefault("floor_A", 0.0)
-    return params, chisq, len(names)
+    local = solve(spec, x, y, start, floor=floor, loss=loss, f_scale=f_scale)
+    return dict(local.params), local.chisq, len(local.free)
 
 
 #: After the first model's scan, the others search periods within these factors of its
@@ -270,6 +228,9 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     """
     names = tuple(names or model_names())
     order = {name: i for i, name in enumerate(names)}
+    # The trials run in normalised units (see ``lsq``); the start handed back is SI.
+    units = Units.of(x, y)
+    noise_A, x, y, noise = noise, units.field(x), y / units.scale_A, noise / units.scale_A
     scans = _Scans(x, y)
     trials = []
     for name in names:
@@ -296,7 +257,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     block = {
         "criterion": CRITERION,
         "margin": MARGIN,
-        "noise_A": float(noise),
+        "noise_A": float(noise_A),
         "points": int(x.size),
         "chosen": chosen.name,
         "lowest_criterion": lowest.name,
@@ -310,7 +271,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
                        for t in trials],
         "excluded": excluded,
     }
-    return ModelChoice(chosen.name, dict(chosen.params), block)
+    return ModelChoice(chosen.name, units.to_si(chosen.params), block)
 
 
 def joint_choice(blocks, names=None) -> dict | None:

@@ -14,10 +14,10 @@ from ..flags import make_flag
 from ..io.sweep import MIN_POINTS
 from ..physics.models import get_model, model_names
 from ..sampling import tidy
-from .choice import choose_model, robust_weight, shape_start
+from .choice import choose_model, shape_start
 from .far import far_lobe_start
 from .lobes import OFFSET_DCHI2, check_lobe_assignment, extras_of, nodes_in_window
-from .models import PatternModel
+from .lsq import Units, final_fit, robust_weight, solve
 from .noise import difference_noise
 from .outcome import (
     MIN_NODES,
@@ -26,12 +26,17 @@ from .outcome import (
     add_flags,
     fill,
     withhold_if_poor,
+    withhold_if_undersampled,
 )
 from .result import PatternFit
+from .scan import scan_pattern
 
 #: Below this drop in chi-square (in noise units) from a flat line to the fitted
 #: pattern, the data show no modulation.
 MODULATION_DCHI2 = 30.0
+#: The modulation must stand without the points that carry most of it: this many are
+#: left out for the second test (a single spike on zero is no pattern).
+MODULATION_POINTS = 2
 #: A node floor is kept when it lowers chi-square by more than this (noise units).
 FLOOR_DCHI2 = 10.0
 #: Robust loss scale in units of the model-free noise.
@@ -39,7 +44,8 @@ ROBUST_SCALE = 2.0
 #: ``geometry`` value that fits every registered model and chooses one (``fit.choice``).
 AUTO = "auto"
 
-__all__ = ["AUTO", "FLOOR_DCHI2", "MIN_NODES", "MODULATION_DCHI2", "OFFSET_DCHI2",
+__all__ = ["AUTO", "FLOOR_DCHI2", "MIN_NODES", "MODULATION_DCHI2", "MODULATION_POINTS",
+           "OFFSET_DCHI2",
            "OUTLIER_SIGMAS", "POOR_FIT_REDCHI", "ROBUST_SCALE", "fit_pattern", "local_fit"]
 
 LOSSES = ("linear", "soft_l1", "huber", "cauchy")
@@ -58,14 +64,6 @@ def local_fit(model, y, x, params, loss, f_scale):
     result = model.fit(y, robust.params, field_T=x, weights=np.sqrt(weights), method="leastsq")
     result.robust_weights = weights
     return result
-
-
-def _chisq(result):
-    return float(np.sum(np.square(result.residual)))
-
-
-def _value(result, name):
-    return float(result.params[name].value)
 
 
 def _uncertainty_text(loss):
@@ -146,25 +144,37 @@ def fit_pattern(
     return out
 
 
-def _start_params(model, spec, x, y, start):
-    """lmfit parameters from a start dict, or from the scan (and a shape-parameter grid)."""
-    if start is None:
-        best = model.scan(y, x).candidates[0]
-        start = {"ic0_A": best.amplitude_A + best.background_A, "period_T": best.period_T,
-                 "field_offset_T": best.field_offset_T, "background_A": best.background_A}
-        if any(p.grid for p in spec.extra):
-            start.update(shape_start(spec, x, y, best.period_T, best.field_offset_T))
-    params = model.make_params(ic0_A=start["ic0_A"], period_T=start["period_T"],
-                               field_offset_T=start["field_offset_T"])
-    for p in spec.extra:
-        if p.name in start:
-            params[p.name].set(value=start[p.name])
-    return params, max(float(start.get("background_A", 0.0)), 0.0)
+def _drop_without_top(y, local, count):
+    """Drop in chi-square from a flat line to the fit with the ``count`` points that gain
+    the most left out: a pattern carried by one or two points (a spike) is no pattern."""
+    r2 = local.weights * local.residual**2
+    gain = (y - y.mean()) ** 2 - r2
+    keep = np.ones(y.size, dtype=bool)
+    keep[np.argsort(gain)[-count:]] = False
+    rest = y[keep]
+    return float(np.sum((rest - rest.mean()) ** 2) - np.sum(r2[keep]))
+
+
+def _scan_start(spec, xn, yn):
+    """Start (normalised units) from the scan, and the shape-parameter grid."""
+    model_scan = scan_pattern(xn, yn, spec.unit_shape, **({"extend": 0.0} if spec.periodic
+                                                           else {}))
+    if not model_scan.candidates:
+        return None, 0.0
+    best = model_scan.candidates[0]
+    start = {"ic0_A": best.amplitude_A + best.background_A, "period_T": best.period_T,
+             "field_offset_T": best.field_offset_T}
+    if any(p.grid for p in spec.extra):
+        start.update(shape_start(spec, xn, yn, best.period_T, best.field_offset_T))
+    return start, max(best.background_A, 0.0)
 
 
 def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> PatternFit:
-    """The fit of one model: start, local fit, far lobe, node floor, checks, numbers."""
-    model = PatternModel(spec)
+    """The fit of one model: start, local fit, far lobe, node floor, checks, numbers.
+
+    Everything up to the reported fit runs in normalised units (``lsq.Units``) with
+    scipy; the reported fit is lmfit's, started at the converged point.
+    """
     scale = float(np.max(np.abs(y)))
     out = PatternFit(
         branch=branch, model=spec.name, points_used=int(x.size), noise_A=noise,
@@ -174,58 +184,76 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
     if scale <= 0:
         out.flags.append(make_flag("no-modulation", branch, reason="the current is zero"))
         return out
+    units = Units.of(x, y)
+    xn, yn, sigma = units.field(x), y / units.scale_A, noise / units.scale_A
+    f_scale = ROBUST_SCALE * sigma
+    given = start is not None
+    background, decided, choice_gain = 0.0, False, None
+    if given:
+        # With node_floor auto, the automatic choice has already tried the floor.
+        decided = node_floor == "auto" and "floor_gain" in start
+        choice_gain = start.get("floor_gain")
+        start = units.to_unit({k: v for k, v in start.items() if k != "floor_gain"})
+    else:
+        start, background = _scan_start(spec, xn, yn)
+        if start is None:
+            out.flags.append(make_flag("no-modulation", branch, reason="no period found"))
+            return out
 
-    f_scale = ROBUST_SCALE * noise
-    params, background = _start_params(model, spec, x, y, start)
-    result = local_fit(model, y, x, params, loss, f_scale)
-    offset = _value(result, "field_offset_T")
-    if start is None and not spec.periodic and (not x[0] <= offset <= x[-1] or nodes_in_window(
-            spec, x, abs(_value(result, "period_T")), offset,
-            extras_of(spec, result.params)) < MIN_NODES):
-        far = far_lobe_start(x, y, model.unit_shape)
+    def refit(params, floor=False):
+        return solve(spec, xn, yn, params, floor=floor, loss=loss, f_scale=f_scale)
+
+    local = refit(start)
+    offset = local.params["field_offset_T"]
+    if not given and not spec.periodic and (not xn[0] <= offset <= xn[-1] or nodes_in_window(
+            spec, xn, abs(local.params["period_T"]), offset,
+            extras_of(spec, local.params)) < MIN_NODES):
+        far = far_lobe_start(xn, yn, spec.unit_shape)
         if far is not None:
-            alt_start = result.params.copy()
-            for name, value in (("ic0_A", far.amplitude_A), ("period_T", far.period_T),
-                                ("field_offset_T", far.field_offset_T)):
-                alt_start[name].set(value=value)
-            alt = local_fit(model, y, x, alt_start, loss, f_scale)
-            if _chisq(alt) < _chisq(result):
-                result = alt
-    floor_evidence = None
-    # With node_floor auto, the automatic choice has already tried the floor.
-    decided = node_floor == "auto" and start is not None and "floor_gain" in start
-    if decided and start["floor_gain"] is not None and not spec.periodic:
-        with_floor = result.params.copy()
-        with_floor["floor_A"].set(value=max(abs(start.get("floor_A", 0.0)),
-                                            0.05 * abs(_value(result, "ic0_A"))), vary=True)
-        result = local_fit(model, y, x, with_floor, loss, f_scale)
-        floor_evidence = {"chisq_gain_over_noise": round(float(start["floor_gain"]), 2),
-                          "threshold": FLOOR_DCHI2}
+            alt = refit(dict(local.params, ic0_A=far.amplitude_A, period_T=far.period_T,
+                             field_offset_T=far.field_offset_T))
+            if alt.chisq < local.chisq:
+                local = alt
+    gain = None
+    if decided and choice_gain is not None and not spec.periodic:
+        local = refit(dict(local.params, floor_A=max(abs(start.get("floor_A", 0.0)),
+                                                     0.05 * abs(local.params["ic0_A"]))),
+                      floor=True)
+        gain = choice_gain
     elif not decided and node_floor != "off" and not spec.periodic:
-        with_floor = result.params.copy()
-        ic0 = abs(_value(result, "ic0_A"))
-        with_floor["floor_A"].set(value=max(background, 0.05 * ic0), vary=True)
-        floored = local_fit(model, y, x, with_floor, loss, f_scale)
-        gain = (_chisq(result) - _chisq(floored)) / (_chisq(floored) / max(floored.nfree, 1))
-        if node_floor == "on" or gain > FLOOR_DCHI2:
-            result = floored
-            floor_evidence = {"chisq_gain_over_noise": round(float(gain), 2),
-                              "threshold": FLOOR_DCHI2}
+        floored = refit(dict(local.params, floor_A=max(
+            background, 0.05 * abs(local.params["ic0_A"]))), floor=True)
+        trial = (local.chisq - floored.chisq) / max(floored.chisq / floored.nfree, 1e-300)
+        if node_floor == "on" or trial > FLOOR_DCHI2:
+            local, gain = floored, trial
+    floor_evidence = None if gain is None else {
+        "chisq_gain_over_noise": round(float(gain), 2), "threshold": FLOOR_DCHI2}
+    floor = "floor_A" in local.free
 
-    drop = (float(np.sum((y - y.mean()) ** 2)) - _chisq(result)) / noise**2
+    drop = (float(np.sum((yn - yn.mean()) ** 2)) - local.chisq) / sigma**2
     if drop < MODULATION_DCHI2:
         out.flags.append(make_flag(
             "no-modulation", branch, chisq_drop_over_noise=round(drop, 2),
             threshold=MODULATION_DCHI2, noise_A=noise,
         ))
         return out
+    spread = _drop_without_top(yn, local, MODULATION_POINTS) / sigma**2
+    if spread < MODULATION_DCHI2:
+        out.flags.append(make_flag(
+            "no-modulation", branch, chisq_drop_over_noise=round(drop, 2),
+            chisq_drop_without_top_points=round(spread, 2), points_left_out=MODULATION_POINTS,
+            threshold=MODULATION_DCHI2, noise_A=noise,
+            reason=f"the drop in chi-square rests on {MODULATION_POINTS} points or fewer",
+        ))
+        return out
     if spec.periodic:
         offset_ok, offset_evidence = True, None  # no main lobe: the offset is modulo a period
     else:
-        result, offset_ok, offset_evidence = check_lobe_assignment(
-            model, y, x, result, lambda p: local_fit(model, y, x, p, loss, f_scale))
+        local, offset_ok, offset_evidence = check_lobe_assignment(
+            spec, xn, local, lambda p: refit(p, floor=floor), units)
+    result = final_fit(spec, x, y, local, units, noise)
     fill(out, result, spec, x, offset_ok)
-    if out.period_T is not None:
+    if not withhold_if_undersampled(out, x) and out.period_T is not None:
         withhold_if_poor(out, spec)
-    add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, f_scale)
+    add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, f_scale * scale)
     return out

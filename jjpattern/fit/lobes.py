@@ -34,64 +34,56 @@ def nodes_in_window(spec, x, period, offset, extras=None):
     return int(np.sum((nodes > x[0] + margin) & (nodes < x[-1] - margin)))
 
 
-def _chisq(result):
-    return float(np.sum(np.square(result.residual)))
-
-
-def _value(result, name):
-    return float(result.params[name].value)
-
-
-def check_lobe_assignment(model, y, x, result, refit):
+def check_lobe_assignment(spec, x, local, refit, units):
     """When the main lobe is near or beyond an edge, test which lobe is the main one.
 
-    Refits (``refit(params) -> result``) with the offset started one lobe over walk
+    ``local`` is a :class:`~jjpattern.fit.lsq.Local` on the normalised field ``x``.
+    Refits (``refit(params) -> Local``) with the offset started one lobe over walk
     downhill in chi-square until no neighbour is better; the margin to the
     next-best assignment then decides whether the offset can be trusted. Returns
-    the best result, that verdict and its evidence.
+    the best fit, that verdict and its evidence (offsets in T through ``units``).
     """
-    spec = model.spec
-    period = abs(_value(result, "period_T"))
-    origin = _value(result, "field_offset_T")
-    reach = float(spec.nodes(1, extras_of(spec, result.params))[0]) * period
+    period = abs(local.params["period_T"])
+    origin = local.params["field_offset_T"]
+    reach = float(spec.nodes(1, extras_of(spec, local.params))[0]) * period
     if x[0] <= origin - reach and origin + reach <= x[-1]:
-        return result, True, None
-    fits = {0: result}  # by lobe index of the fitted offset
+        return local, True, None
+    fits = {0: local}  # by lobe index of the fitted offset
     tried = {0}
 
     def lobe(fit):
-        return int(round((_value(fit, "field_offset_T") - origin) / period))
+        return int(round((fit.params["field_offset_T"] - origin) / period))
 
     def explore(k):
         if k in tried:
             return
         tried.add(k)
-        params = fits[current].params.copy()
-        params["field_offset_T"].set(value=origin + k * period)
-        alt = refit(params)
+        alt = refit(dict(fits[current].params, field_offset_T=origin + k * period))
         j = lobe(alt)
-        if j not in fits or _chisq(alt) < _chisq(fits[j]):
+        if j not in fits or alt.chisq < fits[j].chisq:
             fits[j] = alt
 
     current = 0
     for _ in range(MAX_LOBE_WALK):
         for k in (current - 2, current - 1, current + 1, current + 2):
             explore(k)
-        best = min(fits, key=lambda j: _chisq(fits[j]))
+        best = min(fits, key=lambda j: fits[j].chisq)
         if best == current:
             break
         current = best
-    ranked = sorted(fits, key=lambda j: _chisq(fits[j]))
+    ranked = sorted(fits, key=lambda j: fits[j].chisq)
     best_fit = fits[ranked[0]]
     if len(ranked) < 2:
         return best_fit, True, None
     runner_up = fits[ranked[1]]
-    sigma2 = _chisq(best_fit) / max(best_fit.nfree, 1)
-    delta = (_chisq(runner_up) - _chisq(best_fit)) / sigma2
+    sigma2 = max(best_fit.chisq / best_fit.nfree, 1e-300)
+    delta = (runner_up.chisq - best_fit.chisq) / sigma2
     evidence = {
         "chisq_margin_over_noise": round(float(delta), 2),
         "threshold": OFFSET_DCHI2,
-        "best_offset_T": _value(best_fit, "field_offset_T"),
-        "next_offset_T": _value(runner_up, "field_offset_T"),
+        "best_offset_T": units.to_si({"field_offset_T": best_fit.params["field_offset_T"]})[
+            "field_offset_T"],
+        "next_offset_T": units.to_si({"field_offset_T": runner_up.params["field_offset_T"]})[
+            "field_offset_T"],
     }
     return best_fit, bool(delta >= OFFSET_DCHI2), evidence

@@ -16,6 +16,9 @@ from .result import FIT_KEYS
 
 #: Nodes that must lie inside the window for the period to be identified.
 MIN_NODES = 2
+#: Fewer field steps (median) per fitted period than this: the sampling cannot tell the
+#: period from its aliases (the scan itself searches down to four steps per period).
+MIN_STEPS_PER_PERIOD = 3.0
 #: Reduced chi-square (against the model-free noise) above which the fit is poor and
 #: its numbers are withheld.
 POOR_FIT_REDCHI = 4.0
@@ -58,8 +61,9 @@ def fill(out, result, spec, x, offset_ok):
     out.lmfit_result = result
     nfree = max(result.nfree, 1)
     out.residual_rms_A = float(np.sqrt(np.mean((out.ic_A - result.best_fit) ** 2)))
-    # Weighted residuals: for a robust fit the down-weighted points count less.
-    out.reduced_chisq = float(np.sum(result.residual**2) / nfree / out.noise_A**2)
+    # Residuals in noise units, weighted: for a robust fit the down-weighted points count
+    # less. lmfit's own reduced chi-square is this number.
+    out.reduced_chisq = float(np.sum(result.residual**2) / nfree)
 
     extras = extras_of(spec, result.params)
     out.nodes_observed = nodes_in_window(spec, x, period, offset, extras)
@@ -113,6 +117,34 @@ def derived_numbers(spec, result, offset_ok):
     return base, errors
 
 
+def withhold_if_undersampled(out, x) -> bool:
+    """Null the numbers of a fit whose period spans too few field steps; ``True`` if so."""
+    step = float(np.median(np.diff(x)))
+    steps = out.best_params["period_T"] / step if step > 0 else np.inf
+    if steps >= MIN_STEPS_PER_PERIOD:
+        return False
+    _null_numbers(out)
+    out.withheld = {
+        "reason": "undersampled", "steps_per_period": round(float(steps), 3),
+        "threshold": MIN_STEPS_PER_PERIOD, "field_step_T": step,
+        "numbers": list(WITHHELD),
+        "text": (f"the fitted period spans {steps:.2g} field steps, fewer than "
+                 f"{MIN_STEPS_PER_PERIOD:g}: the sampling cannot tell it from its aliases, "
+                 "so the period, Ic0 and everything derived from them are not given"),
+    }
+    return True
+
+
+def _null_numbers(out):
+    for key in WITHHELD:
+        setattr(out, key, None)
+        setattr(out, _stderr_name(key), None)
+    for name in list(out.extra_params):
+        out.extra_params[name] = None
+        out.extra_stderr[name] = None
+    out.derived, out.derived_stderr = {}, {}
+
+
 def withhold_if_poor(out, spec) -> bool:
     """Null the numbers of a fit that does not describe the data; ``True`` if it did.
 
@@ -124,13 +156,7 @@ def withhold_if_poor(out, spec) -> bool:
     if not at_limit and (out.reduced_chisq is None or out.reduced_chisq <= POOR_FIT_REDCHI):
         return False
     given = [k for k in WITHHELD if getattr(out, k) is not None]
-    for key in WITHHELD:
-        setattr(out, key, None)
-        setattr(out, _stderr_name(key), None)
-    for name in list(out.extra_params):
-        out.extra_params[name] = None
-        out.extra_stderr[name] = None
-    out.derived, out.derived_stderr = {}, {}
+    _null_numbers(out)
     out.withheld = {
         "reason": "poor-fit",
         "reduced_chisq": round(out.reduced_chisq, 3),
@@ -166,7 +192,12 @@ def add_flags(out, result, branch, offset_ok, offset_evidence, floor_evidence, f
             trial_period_T=out.best_params["period_T"],
         ))
         return
-    if out.withheld is not None:
+    if out.withheld is not None and out.withheld["reason"] == "undersampled":
+        evidence = {k: out.withheld[k] for k in ("steps_per_period", "threshold",
+                                                 "field_step_T")}
+        out.flags.append(make_flag("undersampled", branch, **evidence,
+                                   trial_period_T=out.best_params["period_T"]))
+    elif out.withheld is not None:
         out.flags.append(make_flag(
             "poor-fit", branch, reduced_chisq=round(out.reduced_chisq, 3),
             threshold=POOR_FIT_REDCHI, noise_A=out.noise_A, model=out.model,

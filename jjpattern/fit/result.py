@@ -24,7 +24,9 @@ class PatternFit:
 
     Attributes are ``None`` where the data do not determine the number (an
     honest "cannot tell"); ``flags`` says why. ``lmfit_result`` is the
-    underlying :class:`lmfit.model.ModelResult`, for further work.
+    reported fit, an :class:`lmfit.minimizer.MinimizerResult` in SI (``params`` with
+    ``effective_area_m2``, ``covar`` over ``var_names``, ``best_fit`` in A; its residual
+    and reduced chi-square are in units of the model-free noise), for further work.
     ``extra_params`` and ``extra_stderr`` hold the model's extra parameters by
     name (magnitudes where the pattern is even in them); those with a JSON key
     of their own (``asymmetry``) are also copied there. ``derived`` holds the

@@ -21,7 +21,8 @@ def check_model(spec: PatternModelSpec, *, rtol: float = 1e-9) -> list[str]:
     offset; floor in quadrature; the formula is ``ic0_A * unit_shape(u)`` (so the
     scan template matches what is fitted); vectorised (keeps the shape of
     ``field_T``); ``node_flux`` increasing and positive, the pattern vanishing there
-    and not between; a periodic pattern repeats, any other decays.
+    and not between; a periodic pattern repeats, any other decays; an analytic
+    ``gradient`` agrees with central differences of the formula.
     """
     import numpy as np
 
@@ -55,6 +56,33 @@ def check_model(spec: PatternModelSpec, *, rtol: float = 1e-9) -> list[str]:
     if np.shape(f(np.zeros((2, 3)), **kw)) != (2, 3):
         problems.append("formula must keep the shape of field_T")
     problems += _node_problems(spec, rtol)
+    if spec.gradient is not None:
+        problems += _gradient_problems(spec, b + 0.00377 * _PERIOD_T)
+    return problems
+
+
+def _gradient_problems(spec, b):
+    """The analytic gradient against central differences (with a floor, so no cusps; the
+    fields are shifted off round fluxes, where an interpolated table has its kinks)."""
+    import numpy as np
+
+    values = {"ic0_A": _IC0_A, "period_T": _PERIOD_T, "field_offset_T": _OFFSET_T,
+              "floor_A": _FLOOR_A}
+    values.update({p.name: 0.37 if p.start == 0 else 1.13 * p.start for p in spec.extra})
+    try:
+        grads = spec.gradient(b, **values)
+    except Exception as exc:  # noqa: BLE001 - reported as a problem, not raised
+        return [f"gradient fails on an array: {exc!r}"]
+    problems = []
+    for name, value in values.items():
+        step = 1e-6 * max(abs(value), 1.0)
+        up, down = dict(values), dict(values)
+        up[name], down[name] = value + step, value - step
+        numeric = (spec.formula(b, **up) - spec.formula(b, **down)) / (2 * step)
+        if name not in grads or not np.allclose(grads[name], numeric, rtol=1e-5,
+                                                atol=1e-6 * _IC0_A):
+            problems.append(f"gradient by {name} differs from the formula's central "
+                            "differences")
     return problems
 
 

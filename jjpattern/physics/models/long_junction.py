@@ -98,6 +98,37 @@ def shape(u, ell, feed):
     return np.abs(np.sinc(u)) + np.interp(np.abs(u), grid_u, row, right=0.0)
 
 
+def gradient(field_T, ic0_A, period_T, field_offset_T, floor_A, ell, feed):
+    """Partial derivatives of :func:`pattern` by each parameter (the fit's Jacobian).
+
+    In the flux the table is piecewise linear, so its slope is the slope of the segment;
+    in ``ell`` (a cubic Hermite) a central difference.
+    """
+    import numpy as np
+
+    grid_u = table(feed)[1]
+    u = (np.asarray(field_T, dtype=float) - field_offset_T) / period_T
+    a = np.abs(u)
+    sinc = np.sinc(u)
+    safe = np.where(u == 0, 1.0, u)
+    d_sinc = np.where(u == 0, 0.0, (np.cos(np.pi * u) - sinc) / safe)
+    row = _row(feed, min(abs(float(ell)), float(table(feed)[0][-1])))
+    i = np.clip(np.searchsorted(grid_u, a, side="right") - 1, 0, grid_u.size - 2)
+    seg = np.diff(row) / np.diff(grid_u)
+    d_table = np.where(a < grid_u[-1], seg[i], 0.0) * np.sign(u)
+    s = np.abs(sinc) + np.interp(a, grid_u, row, right=0.0)
+    d_s = np.sign(sinc) * d_sinc + d_table
+    h = 1e-4 * max(1.0, abs(float(ell)))
+    d_ell = (shape(u, ell + h, feed) - shape(u, ell - h, feed)) / (2 * h)
+    total = np.hypot(ic0_A * s, floor_A)
+    inv = np.divide(1.0, total, out=np.zeros_like(total), where=total > 0)
+    along = ic0_A * s * inv
+    d_u = along * ic0_A * d_s
+    return {"ic0_A": along * s, "period_T": -d_u * u / period_T,
+            "field_offset_T": -d_u / period_T, "floor_A": floor_A * inv,
+            "length_over_josephson_depth": along * ic0_A * d_ell}
+
+
 def zero_field_ratio(ell, feed):
     """``g(0; ell) = Ic(0) / (Jc W L)``: 1 for a short junction, 4 / ell for a long
     in-line one, 1 at any length for the overlap feed."""

@@ -29,6 +29,13 @@ def node_flux(count, length_over_josephson_depth=0.0):
     return lj.minima(count, length_over_josephson_depth, FEED)
 
 
+def gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
+             length_over_josephson_depth=0.0):
+    """Partial derivatives of :func:`formula` by each parameter (the fit's Jacobian)."""
+    return lj.gradient(field_T, ic0_A, period_T, field_offset_T, floor_A,
+                       length_over_josephson_depth, FEED)
+
+
 def derive(params):
     """L / lambda_J, Jc W L and the lower critical field (see ``long_junction.derived``)."""
     return lj.derived(params, FEED)
@@ -53,5 +60,6 @@ MODEL = PatternModelSpec(
     # rectangular model's, so that an automatic choice scans once for both.
     unit_shape=unit_shape,
     derive=derive,
+    gradient=gradient,
     ic0_meaning="Ic at the centre of the pattern; Jc W L = Ic0 / g(0; L/lambda_J) is derived",
 )

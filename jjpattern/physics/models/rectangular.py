@@ -5,6 +5,7 @@ nodes sit at every non-zero integer ``u``. numpy is imported inside the function
 so that listing the models does not load it.
 """
 
+from .gradient import quadrature_gradient
 from .spec import PatternModelSpec
 
 
@@ -22,6 +23,22 @@ def unit_shape(u):
     import numpy as np
 
     return np.abs(np.sinc(u))
+
+
+def _slope(u):
+    """d sinc(u) / du = (cos(pi u) - sinc(u)) / u, zero at u = 0."""
+    import numpy as np
+
+    safe = np.where(u == 0, 1.0, u)
+    return np.where(u == 0, 0.0, (np.cos(np.pi * u) - np.sinc(u)) / safe)
+
+
+def gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0):
+    """Partial derivatives of :func:`formula` by each parameter (the fit's Jacobian)."""
+    import numpy as np
+
+    return quadrature_gradient(field_T, ic0_A, period_T, field_offset_T, floor_A,
+                               np.sinc, _slope)
 
 
 def node_flux(count):
@@ -44,4 +61,5 @@ MODEL = PatternModelSpec(
                   "Effect (Wiley, New York, 1982).",
     },
     unit_shape=unit_shape,
+    gradient=gradient,
 )

@@ -130,6 +130,10 @@ class PatternModelSpec:
     ic0_meaning : str
         What ``ic0_A`` is for this model, one line for the reports (empty: the
         critical current at the centre of the pattern).
+    gradient : callable, optional
+        ``gradient(field_T, <the formula's parameters>) -> dict``: the partial
+        derivative of the formula by each parameter, arrays shaped like ``field_T``
+        (the fit's analytic Jacobian). Without it the fit differentiates numerically.
     """
 
     name: str
@@ -144,6 +148,7 @@ class PatternModelSpec:
     central_peak: bool = True
     derive: Callable | None = None
     ic0_meaning: str = ""
+    gradient: Callable | None = None
 
     def __post_init__(self):
         problems = structure_problems(self)
@@ -213,6 +218,8 @@ def structure_problems(spec: PatternModelSpec) -> list[str]:
         problems.append("unit_shape must be callable or None")
     if spec.derive is not None and not callable(spec.derive):
         problems.append("derive must be callable or None")
+    if spec.gradient is not None and not callable(spec.gradient):
+        problems.append("gradient must be callable or None")
     if not isinstance(spec.ic0_meaning, str) or "\n" in spec.ic0_meaning:
         problems.append("ic0_meaning must be one line")
     for key in ("description", "methods_text"):

@@ -28,6 +28,22 @@ def unit_shape(u):
     return np.abs(np.cos(np.pi * u))
 
 
+def gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
+             asymmetry=0.0):
+    """Partial derivatives of :func:`formula` by each parameter (the fit's Jacobian)."""
+    import numpy as np
+
+    u = (np.asarray(field_T, dtype=float) - field_offset_T) / period_T
+    sin, cos = np.sin(np.pi * u), np.cos(np.pi * u)
+    s2 = cos**2 + (asymmetry * sin) ** 2
+    total = np.sqrt(ic0_A**2 * s2 + floor_A**2)
+    inv = np.divide(1.0, total, out=np.zeros_like(total), where=total > 0)
+    d_u = ic0_A**2 * inv * np.pi * (asymmetry**2 - 1.0) * sin * cos
+    return {"ic0_A": ic0_A * s2 * inv, "period_T": -d_u * u / period_T,
+            "field_offset_T": -d_u / period_T, "floor_A": floor_A * inv,
+            "asymmetry": ic0_A**2 * asymmetry * sin**2 * inv}
+
+
 def node_flux(count):
     """Nodes (of the symmetric pattern) at ``u = 1/2, 3/2, ...``."""
     import numpy as np
@@ -52,4 +68,5 @@ MODEL = PatternModelSpec(
                           description="(I1 - I2) / (I1 + I2) of the two channels"),),
     periodic=True,
     unit_shape=unit_shape,
+    gradient=gradient,
 )

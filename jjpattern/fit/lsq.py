@@ -1,0 +1,231 @@
+"""Least squares in normalised units: scipy for the inner loops, lmfit for the final fit.
+
+Every fit runs on ``xn = (B - centre) / span`` and ``yn = Ic / max|Ic|`` with the
+parameters in the same units, so that the numerics (step sizes, tolerances, the
+covariance) are the same at Ic0 = 1e-15 A and at 1e3 A; values and errors are
+converted to SI once, at the end. The inner loops (scan refinement, lobe walks,
+node-floor and model-choice trials) call scipy directly with the model's analytic
+gradient where it has one; only the result that is reported goes through lmfit,
+started at the converged point, for its covariance and report.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..physics.constants import PHI0_WB
+from ..physics.models.spec import BASE_PARAMETERS
+
+#: Relative tolerances of the inner fits: their chi-squares are then within 1e-3 noise units
+#: for a thousand points, far below every threshold they are compared with (10 or more),
+#: and the reported fit (lmfit, MINPACK's default tolerances) polishes the chosen one.
+_TOL = 1e-6
+
+
+@dataclass(frozen=True)
+class Units:
+    """The normalisation of one data set: field centre and span (T), current scale (A)."""
+
+    centre_T: float
+    span_T: float
+    scale_A: float
+
+    @classmethod
+    def of(cls, x, y) -> Units:
+        """Centre and span of the sorted field ``x``, largest magnitude of ``y``."""
+        span = float(x[-1] - x[0])
+        scale = float(np.max(np.abs(y)))
+        return cls(0.5 * float(x[0] + x[-1]), span if span > 0 else 1.0,
+                   scale if scale > 0 else 1.0)
+
+    def field(self, x):
+        """The normalised field of ``x`` (T)."""
+        return (np.asarray(x, dtype=float) - self.centre_T) / self.span_T
+
+    def factor(self, name) -> float:
+        """SI over normalised units of one parameter (offsets also shift by the centre)."""
+        if name.endswith("_A"):
+            return self.scale_A
+        if name.endswith("_T"):
+            return self.span_T
+        return 1.0
+
+    def to_unit(self, params: dict) -> dict:
+        """SI parameters (by name, ``None`` kept) in normalised units."""
+        out = {k: None if v is None else float(v) / self.factor(k) for k, v in params.items()}
+        if "field_offset_T" in out:
+            out["field_offset_T"] -= self.centre_T / self.span_T
+        return out
+
+    def to_si(self, params: dict) -> dict:
+        """Normalised parameters (by name, ``None`` kept) in SI."""
+        out = {k: None if v is None else float(v) * self.factor(k) for k, v in params.items()}
+        if "field_offset_T" in out:
+            out["field_offset_T"] += self.centre_T
+        return out
+
+
+@dataclass
+class Local:
+    """One local fit in normalised units.
+
+    ``chisq`` is the sum of squared residuals (model minus data), each weighted by its
+    robust weight for a robust loss (as the reported reduced chi-square is); ``free``
+    names the fitted parameters, ``weights`` the robust weights (ones for least squares).
+    """
+
+    params: dict
+    free: tuple
+    chisq: float
+    weights: np.ndarray
+    residual: np.ndarray
+
+    @property
+    def nfree(self) -> int:
+        return max(self.weights.size - len(self.free), 1)
+
+
+def robust_weight(z2, loss):
+    """IRLS weight of each point for a scipy loss, ``rho'(z)`` with ``z = (r / f_scale)^2``."""
+    if loss == "soft_l1":
+        return 1.0 / np.sqrt(1.0 + z2)
+    if loss == "huber":
+        return np.where(z2 <= 1.0, 1.0, 1.0 / np.sqrt(np.maximum(z2, 1.0)))
+    if loss == "cauchy":
+        return 1.0 / (1.0 + z2)
+    return np.ones_like(z2)
+
+
+def free_names(spec, floor: bool) -> tuple:
+    """The fitted parameters: Ic0, period, offset, the floor when asked, the extras."""
+    names = ("ic0_A", "period_T", "field_offset_T") + (("floor_A",) if floor else ())
+    return names + tuple(p.name for p in spec.extra)
+
+
+def full_params(spec, start: dict, floor: bool) -> dict:
+    """Every formula argument from ``start``: the floor zero when not fitted, extras at
+    their starts when not given."""
+    params = {name: float(start.get(name, 0.0)) for name in BASE_PARAMETERS}
+    if not floor:
+        params["floor_A"] = 0.0
+    elif params["floor_A"] == 0.0:
+        params["floor_A"] = 0.05 * abs(params["ic0_A"])
+    for p in spec.extra:
+        params[p.name] = float(start.get(p.name, p.start))
+    return params
+
+
+def _jacobian(spec, x, names, fixed):
+    if spec.gradient is None:
+        return None
+
+    def jac(v):
+        grads = spec.gradient(x, **fixed, **dict(zip(names, v, strict=True)))
+        return np.array([grads[n] for n in names])
+    return jac
+
+
+def solve(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
+          tol: float = _TOL) -> Local:
+    """Least squares of ``spec`` from ``start`` with scipy alone, normalised units.
+
+    ``loss == "linear"`` runs MINPACK (``lmder`` with the analytic gradient, else
+    ``lmdif``) to relative tolerances ``tol``; a robust loss runs scipy's trust-region
+    reflective solver.
+    """
+    from scipy import optimize
+
+    params = full_params(spec, start, floor)
+    names = free_names(spec, floor)
+    fixed = {k: v for k, v in params.items() if k not in names}
+    v0 = np.array([params[n] for n in names])
+
+    def residual(v):
+        return spec.formula(x, **fixed, **dict(zip(names, v, strict=True))) - y
+
+    jac = _jacobian(spec, x, names, fixed)
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        # An unfinished search still gives an honest (if high) chi-square to rank by.
+        warnings.simplefilter("ignore", RuntimeWarning)
+        if loss == "linear":
+            best = optimize.leastsq(residual, v0, Dfun=jac, col_deriv=True, ftol=tol,
+                                    xtol=tol, maxfev=200 * (len(names) + 1))[0]
+        else:
+            best = optimize.least_squares(
+                residual, v0, jac=(lambda v: jac(v).T) if jac else "2-point", method="trf",
+                loss=loss, f_scale=f_scale, x_scale="jac").x
+    r = residual(best)
+    weights = robust_weight((r / f_scale) ** 2, loss)
+    params.update(zip(names, (float(b) for b in best), strict=True))
+    return Local(params, names, float(np.sum(weights * r * r)), weights, r)
+
+
+def final_fit(spec, x_T, y_A, local: Local, units: Units, noise_A: float):
+    """The reported fit: lmfit ``leastsq`` from the converged ``local``, in normalised
+    units weighted by the noise (so lmfit's reduced chi-square is the tool's), with
+    the result converted to SI.
+
+    Returns an :class:`lmfit.minimizer.MinimizerResult` whose ``params`` (SI, with
+    ``effective_area_m2`` and its standard error), ``covar`` (SI, over ``var_names``)
+    and ``best_fit`` (A) describe the fit; ``residual`` is in noise units and
+    ``robust_weights`` holds the weights of a robust loss.
+    """
+    import lmfit
+
+    xn, yn = units.field(x_T), np.asarray(y_A, dtype=float) / units.scale_A
+    weight = np.sqrt(local.weights) / (noise_A / units.scale_A)
+    bounds = {p.name: (p.min, p.max) for p in spec.extra}
+    free = local.free
+    # Only the fitted parameters are lmfit Parameters: each one costs lmfit bookkeeping.
+    fixed = {k: v for k, v in local.params.items() if k not in free}
+    params = lmfit.Parameters()
+    for name in free:
+        lo, hi = bounds.get(name, (-np.inf, np.inf))
+        params.add(name, value=local.params[name], min=lo, max=hi)
+
+    def residual(p):
+        return (spec.formula(xn, **fixed, **p.valuesdict()) - yn) * weight
+
+    kws = {}
+    # lmfit's bound transform would need the chain rule in the gradient: numeric then.
+    bounded = any(np.isfinite(bounds[n]).any() for n in free if n in bounds)
+    if spec.gradient is not None and not bounded:
+        def dfun(p):
+            grads = spec.gradient(xn, **fixed, **p.valuesdict())
+            return np.array([grads[n] * weight for n in free])
+        kws = {"Dfun": dfun, "col_deriv": 1}
+    with np.errstate(all="ignore"):
+        result = lmfit.Minimizer(residual, params).leastsq(**kws)
+    fitted = dict(fixed, **{k: float(v.value) for k, v in result.params.items()})
+    _to_si(result, fixed, units)
+    result.best_fit = spec.formula(np.asarray(x_T, dtype=float), **units.to_si(fitted))
+    result.robust_weights = local.weights
+    result.units = units
+    return result
+
+
+def _to_si(result, fixed, units: Units):
+    """Turn the normalised lmfit parameters into SI ones in place (values, bounds, errors,
+    covariance), add the fixed ones and ``effective_area_m2`` with its error."""
+    params = result.params
+    names = list(result.var_names or [])
+    factors = np.array([units.factor(n) for n in names])
+    if result.covar is not None and result.covar.shape == (len(names), len(names)):
+        result.covar = result.covar * np.outer(factors, factors)
+    values = units.to_si({k: p.value for k, p in params.items()})
+    starts = units.to_si({k: p.init_value for k, p in params.items()})
+    for name, p in params.items():
+        f = units.factor(name)
+        p.min, p.max = p.min * f, p.max * f
+        p.value, p.init_value = values[name], starts[name]
+        if p.stderr is not None:
+            p.stderr = float(p.stderr) * f
+    for name, value in units.to_si(fixed).items():
+        params.add(name, value=value, vary=False)
+    params.add("phi0_Wb", value=PHI0_WB, vary=False)
+    params.add("effective_area_m2", expr="phi0_Wb / abs(period_T)")
+    period, err = abs(params["period_T"].value), params["period_T"].stderr
+    params["effective_area_m2"].stderr = None if err is None else PHI0_WB * err / period**2
