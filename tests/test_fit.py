@@ -6,7 +6,7 @@ Invented data: these are synthetic round trips, not reference checks.
 import numpy as np
 import pytest
 
-from jjpattern import fit_pattern
+from jjpattern.fit.engine import fit_pattern
 from jjpattern.errors import InputError
 from jjpattern.fit.models import MODELS
 from jjpattern.physics.constants import PHI0_WB

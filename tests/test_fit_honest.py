@@ -10,7 +10,7 @@ import dataclasses
 import numpy as np
 import pytest
 
-from jjpattern import fit_pattern
+from jjpattern.fit.engine import fit_pattern
 from jjpattern.flags import CATALOGUE
 from jjpattern.physics.models import PatternModelSpec, get_model
 from jjpattern.physics.models.check import check_model

@@ -11,7 +11,7 @@ folding at the nodes), both polarities, swept down in file order.
 import numpy as np
 import pytest
 
-from jjpattern import fit_pattern
+from jjpattern.fit.engine import fit_pattern
 from jjpattern.fit.choice import MARGIN
 from jjpattern.io.sweep import Branch, Sweep
 from jjpattern.pipeline import analyze_data

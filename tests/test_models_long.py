@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy import special
 
-from jjpattern import fit_pattern
+from jjpattern.fit.engine import fit_pattern
 from jjpattern.physics.models import long_junction as lj
 
 
