@@ -6,8 +6,8 @@ Invented data: these are synthetic round trips, not reference checks.
 import numpy as np
 import pytest
 
-from jjpattern.fit.engine import fit_pattern
 from jjpattern.errors import InputError
+from jjpattern.fit.engine import fit_pattern
 from jjpattern.fit.models import MODELS
 from jjpattern.physics.constants import PHI0_WB
 from jjpattern.synthetic import ideal, random_case

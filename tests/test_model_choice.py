@@ -11,8 +11,8 @@ folding at the nodes), both polarities, swept down in file order.
 import numpy as np
 import pytest
 
-from jjpattern.fit.engine import fit_pattern
 from jjpattern.fit.choice import MARGIN
+from jjpattern.fit.engine import fit_pattern
 from jjpattern.io.sweep import Branch, Sweep
 from jjpattern.pipeline import analyze_data
 from jjpattern.report.methods import methods_paragraph

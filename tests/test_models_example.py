@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize
 
-from jjpattern.fit.engine import fit_pattern
 from jjpattern.errors import InputError
+from jjpattern.fit.engine import fit_pattern
 from jjpattern.physics.models import get_model, model_names, registered
 from jjpattern.physics.models.check import check_model
 
