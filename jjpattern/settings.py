@@ -26,6 +26,12 @@ class ReadSettings:
     when it is ambiguous). ``field_range_T`` is ``(low, high)`` in tesla, ``None``
     for an open end; rows outside it are left out. ``exclude_T`` holds
     ``(low, high)`` intervals whose rows are left out (glitches).
+
+    ``max_bytes`` bounds the input file (each file of a folder, and their total) and
+    ``max_points`` the values of any one array read (rows of a column, cells of a
+    map); both are checked before reading. ``allow_external`` lets an HDF5 file
+    read data kept in other files (external links, external storage, virtual
+    datasets); those files are then hashed with the input.
     """
 
     field_col: str | None = None
@@ -41,6 +47,16 @@ class ReadSettings:
     decimal: str | None = None
     field_range_T: tuple[float | None, ...] = ()
     exclude_T: tuple[tuple[float, float], ...] = ()
+    max_bytes: int = 1 << 30
+    max_points: int = 20_000_000
+    allow_external: bool = False
+
+    def __post_init__(self):
+        for name in ("max_bytes", "max_points"):
+            value = getattr(self, name)
+            if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+                raise InputError(f"settings read.{name}: {value!r} is not a positive whole "
+                                 "number")
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,146 @@
+"""What the readers accept: sizes checked before reading, numbers checked at the edge.
+
+Every reader states a container's failure in one sentence through :func:`damaged`;
+sizes are checked from the file's own declarations (:func:`check_points`) before any
+array is read; the numbers of a sweep or a map are checked once converted to SI
+(:func:`check_magnitudes`). User strings reach messages through :func:`clip`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+
+from ..errors import InputError
+from ..settings import ReadSettings
+
+#: Largest input file (a folder: each file, and all of them together) read by default.
+MAX_BYTES = ReadSettings.max_bytes
+#: Most values in one array read by default: rows of a column, cells of a map.
+MAX_POINTS = ReadSettings.max_points
+#: Largest field magnitude believed, in tesla (no laboratory magnet comes near it).
+MAX_FIELD_T = 1e3
+#: Largest current magnitude believed, in ampere (bias or critical current).
+MAX_CURRENT_A = 1e3
+#: Smallest largest-current believed, in ampere: below it the column is zero or denormal.
+MIN_CURRENT_A = 1e-18
+#: Smallest field span believed, in tesla: below it the field never moved.
+MIN_FIELD_SPAN_T = 1e-15
+#: Largest voltage (V) and differential resistance (ohm) believed in a raw map.
+MAX_SIGNAL = {"voltage": 1e3, "dvdi": 1e12}
+#: User strings in messages are cut to this many characters.
+CLIP = 80
+
+
+def clip(text, limit: int = CLIP) -> str:
+    """``repr`` of a user string, cut to about ``limit`` characters."""
+    text = str(text)
+    if len(text) <= limit:
+        return repr(text)
+    return repr(text[:limit]) + f"... ({len(text)} characters)"
+
+
+def max_bytes(settings) -> int:
+    value = getattr(settings, "max_bytes", None)
+    return MAX_BYTES if value is None else int(value)
+
+
+def max_points(settings) -> int:
+    value = getattr(settings, "max_points", None)
+    return MAX_POINTS if value is None else int(value)
+
+
+def check_file_size(path: str, size: int, settings) -> None:
+    """Refuse a file larger than ``max_bytes`` before reading it."""
+    limit = max_bytes(settings)
+    if size > limit:
+        raise InputError(f"{path}: the file holds {size:,} bytes, above the limit of "
+                         f"{limit:,}; raise the read setting max_bytes if it is meant")
+
+
+def check_points(path: str, name, shape, settings) -> None:
+    """Refuse an array declared larger than ``max_points`` values, before reading it."""
+    try:
+        count = int(np.prod([int(s) for s in shape], dtype=object))
+    except (TypeError, ValueError):
+        count = 0
+    limit = max_points(settings)
+    if count > limit:
+        raise InputError(f"{path}: {clip(name)} declares {count:,} values, above the limit of "
+                         f"{limit:,}; raise the read setting max_points if it is meant")
+
+
+def damaged(path: str, what: str, exc: BaseException) -> InputError:
+    """The sentence for a container that its library cannot read."""
+    detail = clip(f"{exc.__class__.__name__}: {exc}", 120)
+    return InputError(f"{path}: not a readable {what} (damaged or cut short: {detail}); "
+                      "export it again from the acquisition program")
+
+
+def real(values, path: str, name) -> np.ndarray:
+    """A real array, or a refusal of complex numbers (never a silently dropped imaginary part)."""
+    values = np.asarray(values)
+    if np.iscomplexobj(values):
+        raise InputError(f"{path}: {clip(name)} holds complex numbers; give its real part "
+                         "(or magnitude) as a real array")
+    return values
+
+
+def check_magnitudes(path: str, name, values, *, limit: float, unit: str,
+                     what: str) -> None:
+    """Refuse finite values beyond ``limit`` (in SI), naming the column and the first row."""
+    values = np.asarray(values)
+    with np.errstate(invalid="ignore"):
+        big = np.abs(values) > limit
+    if big.any():
+        row = int(np.flatnonzero(big.reshape(-1))[0])
+        raise InputError(f"{path}: {clip(name)} holds {what} of "
+                         f"{float(values.reshape(-1)[row]):.4g} {unit} (value {row + 1}), beyond "
+                         f"{limit:g} {unit}; check the column and its unit")
+
+
+def check_field(path: str, name, field_T) -> None:
+    """A field column: no absurd magnitude, and a span that is not zero or denormal."""
+    check_magnitudes(path, name, field_T, limit=MAX_FIELD_T, unit="T", what="a field")
+    finite = np.asarray(field_T)[np.isfinite(field_T)]
+    if finite.size > 1 and float(np.ptp(finite)) < MIN_FIELD_SPAN_T:
+        raise InputError(f"{path}: the field in {clip(name)} spans "
+                         f"{float(np.ptp(finite)):.3g} T, nothing a pattern can be fitted "
+                         "over; check the column and its unit")
+
+
+def check_current(path: str, name, current_A) -> None:
+    """A current column: no absurd magnitude, and not zero or denormal throughout."""
+    check_magnitudes(path, name, current_A, limit=MAX_CURRENT_A, unit="A", what="a current")
+    finite = np.abs(np.asarray(current_A)[np.isfinite(current_A)])
+    if finite.size and 0 < float(finite.max()) < MIN_CURRENT_A:
+        raise InputError(f"{path}: the currents in {clip(name)} are at most "
+                         f"{float(finite.max()):.3g} A, below {MIN_CURRENT_A:g} A; check the "
+                         "column and its unit")
+
+
+class LazyColumns(Mapping):
+    """Named arrays whose sizes are known from the file and whose values are read on use.
+
+    A sweep reads only its field and current columns: other arrays of the file are
+    never read (and never cost memory). ``load(name)`` reads one array.
+    """
+
+    def __init__(self, shapes: dict, load):
+        self.shapes = dict(shapes)
+        self._load = load
+        self._read: dict = {}
+
+    def __getitem__(self, name):
+        if name not in self.shapes:
+            raise KeyError(name)
+        if name not in self._read:
+            self._read[name] = self._load(name)
+        return self._read[name]
+
+    def __iter__(self):
+        return iter(self.shapes)
+
+    def __len__(self):
+        return len(self.shapes)
