@@ -179,7 +179,7 @@ def _floats(ds, path, settings, outside) -> np.ndarray:
     file?) before anything is read.
     """
     if ds.dtype.kind == "c" or (ds.dtype.names and set(ds.dtype.names) == {"r", "i"}):
-        real(np.zeros(0, complex), path, f"dataset {ds.name}")
+        real(np.zeros(0, complex), path, f"dataset {clip(ds.name)}")
     if ds.dtype.kind not in "iuf":
         raise InputError(f"{path}: dataset {clip(ds.name)} holds {ds.dtype}, not numbers")
     check_points(path, f"dataset {ds.name}", ds.shape, settings)
@@ -210,7 +210,7 @@ def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
     for name, ds in selected.items():
         if ds.ndim != 1 or ds.dtype.kind not in "iuf":
             if explicit and ds.dtype.kind == "c":
-                real(np.zeros(0, complex), path, f"dataset {name}")
+                real(np.zeros(0, complex), path, f"dataset {clip(name)}")
             if explicit:
                 raise InputError(f"{path}: dataset {clip(name)} is not a 1-D numeric array "
                                  f"(shape {ds.shape}, type {ds.dtype})")

@@ -41,6 +41,13 @@ def clip(text, limit: int = CLIP) -> str:
     return repr(text[:limit]) + f"... ({len(text)} characters)"
 
 
+def names_list(names, limit: int = 12) -> str:
+    """``'B (mT)', 'Ic (uA)'`` and how many more, each name clipped."""
+    names = list(names)
+    more = f" and {len(names) - limit} more" if len(names) > limit else ""
+    return ", ".join(clip(n) for n in names[:limit]) + more
+
+
 def max_bytes(settings) -> int:
     value = getattr(settings, "max_bytes", None)
     return MAX_BYTES if value is None else int(value)
@@ -78,46 +85,76 @@ def damaged(path: str, what: str, exc: BaseException) -> InputError:
                       "export it again from the acquisition program")
 
 
-def real(values, path: str, name) -> np.ndarray:
-    """A real array, or a refusal of complex numbers (never a silently dropped imaginary part)."""
+def real(values, path: str, label: str) -> np.ndarray:
+    """A real array, or a refusal of complex numbers (never a silently dropped imaginary part).
+
+    ``label`` names the array in words, user strings already clipped
+    (``"column 'V (uV)'"``).
+    """
     values = np.asarray(values)
     if np.iscomplexobj(values):
-        raise InputError(f"{path}: {clip(name)} holds complex numbers; give its real part "
-                         "(or magnitude) as a real array")
+        raise InputError(f"{path}: {label} holds complex numbers; give its real part (or "
+                         "magnitude) as a real array")
     return values
 
 
-def check_magnitudes(path: str, name, values, *, limit: float, unit: str,
+#: Values checked at a time: the checks of a large map cost a few MB, not a copy of it.
+BLOCK = 1 << 20
+
+
+def _blocks(values):
+    """``(offset, block)`` over the values in C order; views, when the array allows."""
+    flat = values.reshape(-1) if values.flags.c_contiguous else np.ravel(values)
+    for start in range(0, flat.size, BLOCK):
+        yield start, flat[start:start + BLOCK]
+
+
+def check_magnitudes(path: str, label: str, values, *, limit: float, unit: str,
                      what: str) -> None:
-    """Refuse finite values beyond ``limit`` (in SI), naming the column and the first row."""
-    values = np.asarray(values)
-    with np.errstate(invalid="ignore"):
-        big = np.abs(values) > limit
-    if big.any():
-        row = int(np.flatnonzero(big.reshape(-1))[0])
-        raise InputError(f"{path}: {clip(name)} holds {what} of "
-                         f"{float(values.reshape(-1)[row]):.4g} {unit} (value {row + 1}), beyond "
-                         f"{limit:g} {unit}; check the column and its unit")
+    """Refuse finite values beyond ``limit`` (in SI), naming the array and the first one."""
+    for start, block in _blocks(np.asarray(values)):
+        with np.errstate(invalid="ignore"):
+            big = np.flatnonzero(np.isfinite(block) & (np.abs(block) > limit))
+        if big.size:
+            row = int(big[0])
+            raise InputError(f"{path}: {label} holds {what} of {float(block[row]):.4g} {unit} "
+                             f"(value {start + row + 1}), beyond {limit:g} {unit}; check the "
+                             "column and its unit")
 
 
-def check_field(path: str, name, field_T) -> None:
-    """A field column: no absurd magnitude, and a span that is not zero or denormal."""
-    check_magnitudes(path, name, field_T, limit=MAX_FIELD_T, unit="T", what="a field")
-    finite = np.asarray(field_T)[np.isfinite(field_T)]
+def check_field(path: str, label: str, field_T, span: bool = True) -> None:
+    """A field column: no absurd magnitude, and (``span``) a span not zero or denormal."""
+    field_T = np.asarray(field_T)
+    check_magnitudes(path, label, field_T, limit=MAX_FIELD_T, unit="T", what="a field")
+    if not span:
+        return
+    finite = field_T[np.isfinite(field_T)]
     if finite.size > 1 and float(np.ptp(finite)) < MIN_FIELD_SPAN_T:
-        raise InputError(f"{path}: the field in {clip(name)} spans "
-                         f"{float(np.ptp(finite)):.3g} T, nothing a pattern can be fitted "
-                         "over; check the column and its unit")
+        raise InputError(f"{path}: the field in {label} spans {float(np.ptp(finite)):.3g} T, "
+                         f"below {MIN_FIELD_SPAN_T:g} T: nothing a pattern can be fitted over; "
+                         "check the column and its unit")
 
 
-def check_current(path: str, name, current_A) -> None:
+def check_current(path: str, label: str, current_A) -> None:
     """A current column: no absurd magnitude, and not zero or denormal throughout."""
-    check_magnitudes(path, name, current_A, limit=MAX_CURRENT_A, unit="A", what="a current")
-    finite = np.abs(np.asarray(current_A)[np.isfinite(current_A)])
+    current_A = np.asarray(current_A)
+    check_magnitudes(path, label, current_A, limit=MAX_CURRENT_A, unit="A", what="a current")
+    finite = np.abs(current_A[np.isfinite(current_A)])
     if finite.size and 0 < float(finite.max()) < MIN_CURRENT_A:
-        raise InputError(f"{path}: the currents in {clip(name)} are at most "
+        raise InputError(f"{path}: the currents in {label} are at most "
                          f"{float(finite.max()):.3g} A, below {MIN_CURRENT_A:g} A; check the "
                          "column and its unit")
+
+
+def check_signal(path: str, label: str, signal, kind: str) -> None:
+    """A map's voltage or dV/dI: no infinities, no absurd magnitudes (NaN marks a gap)."""
+    signal = np.asarray(signal)
+    if any(np.isinf(block).any() for _, block in _blocks(signal)):
+        raise InputError(f"{path}: {label} holds infinite values; leave missing points "
+                         "empty or NaN")
+    unit = "V" if kind == "voltage" else "Ohm"
+    check_magnitudes(path, label, signal, limit=MAX_SIGNAL[kind], unit=unit,
+                     what="a voltage" if kind == "voltage" else "a dV/dI")
 
 
 class LazyColumns(Mapping):

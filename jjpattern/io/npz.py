@@ -88,7 +88,7 @@ def read_columns(raw: bytes, source: str, settings=None) -> tuple[LazyColumns, d
         if key == "metadata":
             metadata = _metadata(archive, key, shape, dtype, source, settings)
         elif dtype.kind == "c" and len(shape) == 1:
-            real(np.zeros(0, dtype), source, f"array {key}")
+            real(np.zeros(0, dtype), source, f"array {clip(key)}")
         elif len(shape) == 1 and dtype.kind in "iuf":
             shapes[key] = shape
     if not shapes:

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from . import regional
+from .limits import clip
 from .maps import choose_kind, from_long_table, looks_like_map
 from .sweep import build_sweep
 
@@ -139,7 +140,7 @@ def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict
         raise InputError(f"{source}: line {header_no} is numbers, not a header; add a header "
                          "row such as 'B (mT), Ic (uA)'")
     if len(names) < 2:
-        raise InputError(f"{source}: only one column ({names[0]!r}); a sweep needs a field "
+        raise InputError(f"{source}: only one column ({clip(names[0])}); a sweep needs a field "
                          "column and at least one critical-current column")
     layout = {}
     line, after = _next_line(text, start)
@@ -150,7 +151,7 @@ def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict
         # The units row is blanked in place, so line numbers still count.
         text = text[:start] + "\n" * text.count("\n", start, after) + text[after:]
     if len(set(names)) < len(names):
-        raise InputError(f"{source}: the header repeats a column name: {header!r}")
+        raise InputError(f"{source}: the header repeats a column name: {clip(header)}")
     body = text[start:]
     if "#" in body:
         body = _COMMENT_LINE.sub("", body)  # blanked, so line numbers still count
@@ -296,5 +297,5 @@ class _Rows:
         if bad.size == 0:
             return values
         cell = text.iloc[bad[0]]
-        return (f"{self.source}: {self._where(bad[0])}, column {name!r}: {cell!r} is not a "
+        return (f"{self.source}: {self._where(bad[0])}, column {clip(name)}: {clip(cell)} is not a "
                 "number; expected a header row followed by rows of numbers")
