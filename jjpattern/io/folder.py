@@ -17,7 +17,7 @@ import re
 import numpy as np
 
 from ..errors import InputError
-from .limits import clip
+from .limits import check_file_size, clip
 from .maps import IVMap, from_long_table, share_bias
 from .source import combine_digests, folder_files
 from .sweep import is_field_name
@@ -41,10 +41,15 @@ def read(source, settings, kind: str = "auto") -> IVMap:
     if not names:
         raise InputError(f"{folder}: the folder holds no I-V files")
     rows, fields, digests, meta0 = [], [], [], {}
+    total = 0
     for name in names:
         path = os.path.join(folder, name)
         try:
             with open(path, "rb") as handle:
+                size = os.fstat(handle.fileno()).st_size
+                total += size
+                check_file_size(path, size, settings)
+                check_file_size(folder, total, settings, "its files hold")
                 raw = handle.read()
         except OSError as exc:
             raise InputError(f"{path}: cannot be read ({exc.strerror})") from None

@@ -58,11 +58,11 @@ def max_points(settings) -> int:
     return MAX_POINTS if value is None else int(value)
 
 
-def check_file_size(path: str, size: int, settings) -> None:
+def check_file_size(path: str, size: int, settings, what: str = "the file holds") -> None:
     """Refuse a file larger than ``max_bytes`` before reading it."""
     limit = max_bytes(settings)
     if size > limit:
-        raise InputError(f"{path}: the file holds {size:,} bytes, above the limit of "
+        raise InputError(f"{path}: {what} {size:,} bytes, above the limit of "
                          f"{limit:,}; raise the read setting max_bytes if it is meant")
 
 

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from .containers import from_named_arrays
+from .limits import check_points, clip, damaged, real
 from .sweep import ic_branch_hint, is_field_name
 from .units import split_header
 
@@ -65,12 +66,21 @@ def read(source, settings, kind: str = "auto"):
     except ImportError as exc:  # xarray without h5netcdf (or scipy's netCDF support)
         raise InputError(f"{source.path}: reading this netCDF file needs {exc.name or engine}; "
                          f"install the optional extra netcdf ({EXTRA})") from None
-    except (OSError, ValueError, TypeError, KeyError) as exc:
-        raise InputError(f"{source.path}: not a readable netCDF file "
-                         f"({exc.__class__.__name__}: {exc})") from None
-    with dataset:
-        return read_dataset(dataset, source=source.path, sha256=source.sha256,
-                            settings=settings, kind=kind, what="the netCDF file")
+    except _DAMAGE as exc:
+        raise damaged(source.path, "netCDF file", exc) from None
+    try:
+        with dataset:
+            return read_dataset(dataset, source=source.path, sha256=source.sha256,
+                                settings=settings, kind=kind, what="the netCDF file")
+    except InputError:
+        raise
+    except _DAMAGE as exc:  # values are read lazily: damage may show only now
+        raise damaged(source.path, "netCDF file", exc) from None
+
+
+#: What xarray and its engines raise on a damaged file (headers, B-trees, sizes, strings).
+_DAMAGE = (OSError, ValueError, TypeError, KeyError, IndexError, RuntimeError, OverflowError,
+           EOFError, AttributeError, MemoryError)
 
 
 def _text(value) -> str:
@@ -106,8 +116,11 @@ def read_dataset(dataset, *, source, sha256, settings, kind="auto", what="the xa
     current_dims = set()
     for name, var in list(dataset.coords.items()) + list(dataset.data_vars.items()):
         name = str(name)
+        if var.dtype.kind == "c":
+            real(np.zeros(0, complex), source, f"variable {clip(name)}")
         if var.dtype.kind not in "iuf":
             continue
+        check_points(source, f"variable {name}", var.shape, settings)
         values = np.asarray(var.values)
         unit = var.attrs.get("units", var.attrs.get("unit"))
         if values.ndim == 0:

@@ -15,7 +15,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..settings import ReadSettings
-from .limits import clip
+from .limits import clip, real
 
 FRAME_LABEL = "<pandas.DataFrame>"
 DATASET_LABEL = "<xarray.Dataset>"
@@ -72,6 +72,8 @@ def _read_frame(frame, settings, kind):
         if key in columns:
             raise InputError(f"{FRAME_LABEL}: the column name {clip(key)} comes twice; rename one")
         cells = frame.iloc[:, position]
+        if cells.dtype.kind == "c":
+            real(np.zeros(0, complex), FRAME_LABEL, f"column {clip(key)}")
         values = pd.to_numeric(cells, errors="coerce").to_numpy(dtype=float)
         bad = np.flatnonzero(np.isnan(values) & cells.notna().to_numpy())
         if bad.size:

@@ -48,7 +48,13 @@ def read(source, settings, kind: str = "auto"):
 
 
 def decode(raw: bytes, source: str) -> str:
-    """Text of a file, UTF-8 (with or without BOM) or else Latin-1."""
+    """Text of a file: UTF-16 with its BOM, UTF-8 (with or without BOM) or else Latin-1."""
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):  # spreadsheets' "Unicode text"
+        try:
+            return raw.decode("utf-16")
+        except UnicodeDecodeError:
+            raise InputError(f"{source}: starts as UTF-16 text but is not; save it as UTF-8 "
+                             "text") from None
     if b"\x00" in raw[:4096]:
         from .registry import not_read_message
 
