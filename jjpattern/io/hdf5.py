@@ -223,8 +223,13 @@ def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
         raise InputError(f"{path}: the HDF5 file holds no 1-D numeric datasets at its root; it "
                          f"holds {listing({k: v.shape for k, v in selected.items()})}; name "
                          "them with --field-col and --ic-col (dataset paths)")
-    if len({s[0] for s in shapes.values()}) > 1:
-        raise InputError(f"{path}: the datasets have different lengths ({listing(shapes)})")
+    # Only the columns a sweep can use must agree: a log of another length beside them is
+    # left alone (and never read).
+    coil = settings.coil_T_per_A is not None
+    used = {n: s for n, s in shapes.items()
+            if n in explicit or role_of(n, coil) in ("field", "ic")} or shapes
+    if len({s[0] for s in used.values()}) > 1:
+        raise InputError(f"{path}: the datasets have different lengths ({listing(used)})")
     return LazyColumns(shapes, lambda name: _floats(selected[name], path, settings,
                                                     outside)), units
 

@@ -25,8 +25,9 @@ MAX_FIELD_T = 1e3
 MAX_CURRENT_A = 1e3
 #: Smallest largest-current believed, in ampere: below it the column is zero or denormal.
 MIN_CURRENT_A = 1e-18
-#: Smallest field span believed, in tesla: below it the field never moved.
-MIN_FIELD_SPAN_T = 1e-15
+#: Smallest field span believed, in tesla: a pattern over it needs an area above 2e-3 m^2
+#: (Phi0 / area), no junction; below about 2e-14 T the fit itself fails.
+MIN_FIELD_SPAN_T = 1e-12
 #: Largest voltage (V) and differential resistance (ohm) believed in a raw map.
 MAX_SIGNAL = {"voltage": 1e3, "dvdi": 1e12}
 #: User strings in messages are cut to this many characters.
