@@ -228,6 +228,8 @@ def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
     coil = settings.coil_T_per_A is not None
     used = {n: s for n, s in shapes.items()
             if n in explicit or role_of(n, coil) in ("field", "ic")} or shapes
+    for name, shape in used.items():
+        check_points(path, f"dataset {name}", shape, settings)
     if len({s[0] for s in used.values()}) > 1:
         raise InputError(f"{path}: the datasets have different lengths ({listing(used)})")
     return LazyColumns(shapes, lambda name: _floats(selected[name], path, settings,

@@ -19,6 +19,8 @@ from ..settings import ReadSettings
 MAX_BYTES = ReadSettings.max_bytes
 #: Most values in one array read by default: rows of a column, cells of a map.
 MAX_POINTS = ReadSettings.max_points
+#: Most rows of an Ic(B) sweep by default (every row is fitted).
+MAX_ROWS = ReadSettings.max_rows
 #: Largest field magnitude believed, in tesla (no laboratory magnet comes near it).
 MAX_FIELD_T = 1e3
 #: Largest current magnitude believed, in ampere (bias or critical current).
@@ -57,6 +59,14 @@ def max_bytes(settings) -> int:
 def max_points(settings) -> int:
     value = getattr(settings, "max_points", None)
     return MAX_POINTS if value is None else int(value)
+
+
+def check_rows(path: str, rows: int, settings) -> None:
+    """Refuse a sweep of more rows than ``max_rows``."""
+    limit = getattr(settings, "max_rows", None) or MAX_ROWS
+    if rows > limit:
+        raise InputError(f"{path}: the sweep has {rows:,} rows, above the limit of {limit:,}; "
+                         "thin it, or raise the read setting max_rows if it is meant")
 
 
 def check_file_size(path: str, size: int, settings, what: str = "the file holds") -> None:

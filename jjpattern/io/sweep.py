@@ -19,7 +19,7 @@ from ..errors import InputError
 from ..sampling import tidy
 from ..settings import ReadSettings
 from .layout import MIN_POINTS, field_window, run_labels, signed_split, sweep_runs
-from .limits import check_current, check_field, clip, names_list
+from .limits import check_current, check_field, check_rows, clip, names_list
 from .units import current_factor, field_factor, split_header
 
 _FIELD_NAMES = {
@@ -200,6 +200,10 @@ def build_sweep(
                 f"{names_list(names)}; name it like 'Ic (uA)' or pass --ic-col"
             )
 
+    shapes = getattr(columns, "shapes", None)  # sizes known before reading (HDF5, npz)
+    first = None if shapes else columns[fcol]
+    check_rows(source, shapes[fcol][0] if shapes else 0 if isinstance(first, str)
+               else len(first), settings)
     field_raw = numeric(columns, fcol, where)
     f_unit = settings.field_unit or units.get(fcol) or split_header(fcol)[1]
     if not f_unit:

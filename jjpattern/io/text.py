@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from . import regional
-from .limits import clip
+from .limits import check_points, clip
 from .maps import choose_kind, from_long_table, looks_like_map
 from .sweep import build_sweep
 
@@ -38,6 +38,8 @@ def sniff(source) -> bool:
 
 def read(source, settings, kind: str = "auto"):
     """A Sweep from an Ic(B) table, or an IVMap from a long table of bias and voltage."""
+    # Lines bound the rows: a table longer than any array allowed is refused unparsed.
+    check_points(source.path, "the table's lines", (source.raw.count(b"\n") + 1,), settings)
     metadata, columns, layout = read_table(decode(source.raw, source.path), source.path,
                                            settings.decimal)
     if choose_kind(kind, settings, looks_like_map(columns)) == "map":
