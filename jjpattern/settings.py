@@ -48,7 +48,7 @@ class ReadSettings:
     decimal: str | None = None
     field_range_T: tuple[float | None, ...] = ()
     exclude_T: tuple[tuple[float, float], ...] = ()
-    max_bytes: int = 1 << 30
+    max_bytes: int = 256 << 20
     max_points: int = 20_000_000
     max_rows: int = 200_000
     allow_external: bool = False

@@ -162,12 +162,14 @@ def test_point_limit_is_a_read_setting(tmp_path):
 
 
 def test_row_limit_is_a_read_setting(tmp_path):
-    _refused(_csv(tmp_path), "61 rows", "max_rows", settings=ReadSettings(max_rows=60))
+    _refused(_csv(tmp_path), "rows, above the limit of 60", "max_rows",
+             settings=ReadSettings(max_rows=60))
 
 
 def test_table_longer_than_any_array_is_refused_unparsed(tmp_path):
-    _refused(_csv(tmp_path), "the table's lines", "max_points",
-             settings=ReadSettings(max_points=20))
+    path = tmp_path / "long_map.csv"
+    path.write_text("B (mT),I (uA),V (uV)\n" + "0,1,2\n" * 30)
+    _refused(str(path), "the table's lines", "max_points", settings=ReadSettings(max_points=20))
 
 
 def test_limits_must_be_positive_whole_numbers():

@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from . import regional
-from .limits import check_points, clip
+from .limits import check_points, check_rows, clip
 from .maps import choose_kind, from_long_table, looks_like_map
 from .sweep import build_sweep
 
@@ -38,10 +38,15 @@ def sniff(source) -> bool:
 
 def read(source, settings, kind: str = "auto"):
     """A Sweep from an Ic(B) table, or an IVMap from a long table of bias and voltage."""
-    # Lines bound the rows: a table longer than any array allowed is refused unparsed.
-    check_points(source.path, "the table's lines", (source.raw.count(b"\n") + 1,), settings)
+    def bound(names, lines):
+        # Lines bound the rows: a table longer than allowed is refused before it is parsed.
+        if choose_kind(kind, settings, looks_like_map(names)) == "sweep":
+            check_rows(source.path, lines, settings)
+        else:
+            check_points(source.path, "the table's lines", (lines,), settings)
+
     metadata, columns, layout = read_table(decode(source.raw, source.path), source.path,
-                                           settings.decimal)
+                                           settings.decimal, bound)
     if choose_kind(kind, settings, looks_like_map(columns)) == "map":
         return from_long_table(columns, source=source.path, sha256=source.sha256,
                                metadata=metadata, settings=settings)
@@ -134,8 +139,13 @@ def parse_table(text: str, source: str, decimal: str | None = None) -> tuple[dic
     return metadata, columns
 
 
-def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict, dict, dict]:
-    """:func:`parse_table`, and what was found about the layout (decimal comma, units row)."""
+def read_table(text: str, source: str, decimal: str | None = None,
+               bound=None) -> tuple[dict, dict, dict]:
+    """:func:`parse_table`, and what was found about the layout (decimal comma, units row).
+
+    ``bound(names, lines)``, when given, may refuse the table from its header and its
+    number of lines before the rows are parsed.
+    """
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
     metadata, header_no, header, start = _head(text, source)
@@ -150,6 +160,8 @@ def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict
     if len(names) < 2:
         raise InputError(f"{source}: only one column ({clip(names[0])}); a sweep needs a field "
                          "column and at least one critical-current column")
+    if bound is not None:
+        bound(names, text.count("\n", start) + 1)
     layout = {}
     line, after = _next_line(text, start)
     units = None if line is None else regional.units_row(line, delim, len(names))
