@@ -243,9 +243,11 @@ def junction_inputs(settings: Settings, metadata: dict):
         given = getattr(js, name)
         if isinstance(given, tuple) and given:
             values[name] = [float(v) for v in given]
+            _check_positive(values[name], f"setting junction.{name} = {values[name]}")
             continue
         if given is not None and not isinstance(given, tuple):
             values[name] = [float(given)]
+            _check_positive(values[name], f"setting junction.{name} = {values[name][0]}")
             continue
         raw = metadata.get(key)
         if raw is None or str(raw).strip() == "":
@@ -256,9 +258,6 @@ def junction_inputs(settings: Settings, metadata: dict):
             raise InputError(f"metadata {key} = {clip(raw)}: not a number; write it as a plain "
                              "number (or two separated by a comma)") from None
         _check_positive(values[name], f"metadata {key} = {clip(raw)}")
-    for name in _JUNCTION_METADATA:
-        if name in values and getattr(js, name) not in (None, ()):
-            _check_positive(values[name], f"setting junction.{name} = {values[name]}")
     planar = js.planar or str(metadata.get("planar", "")).lower() in ("1", "yes", "true")
 
     def first(name, index=0):
