@@ -162,8 +162,10 @@ def test_point_limit_is_a_read_setting(tmp_path):
 
 
 def test_row_limit_is_a_read_setting(tmp_path):
-    _refused(_csv(tmp_path), "rows, above the limit of 60", "max_rows",
+    path = _csv(tmp_path)  # 61 rows and a final newline
+    _refused(path, "61 rows, above the limit of 60", "max_rows",
              settings=ReadSettings(max_rows=60))
+    assert read(path, ReadSettings(max_rows=61)).branches[0].points_used == 61
 
 
 def test_table_longer_than_any_array_is_refused_unparsed(tmp_path):

@@ -161,7 +161,7 @@ def read_table(text: str, source: str, decimal: str | None = None,
         raise InputError(f"{source}: only one column ({clip(names[0])}); a sweep needs a field "
                          "column and at least one critical-current column")
     if bound is not None:
-        bound(names, text.count("\n", start) + 1)
+        bound(names, text.count("\n", start) + (not text.endswith("\n")))
     layout = {}
     line, after = _next_line(text, start)
     units = None if line is None else regional.units_row(line, delim, len(names))
