@@ -272,6 +272,24 @@ def test_denormal_currents_and_fields_are_refused(tmp_path):
     _refused(_csv(tmp_path, "b.csv", b=B_MT * 1e-307), "'B (mT)'", "spans")
 
 
+def test_overflow_on_conversion_is_refused(tmp_path):
+    """A magnet current of 1e307 A times a 1e5 T/A coil overflows: refused, not dropped."""
+    b = B_MT.copy()
+    b[4] = 1e307
+    path = _csv(tmp_path, b=b, header="I_coil (A),Ic (uA)")
+    _refused(path, "'I_coil (A)'", "value 5", settings=ReadSettings(coil_T_per_A=1e5))
+
+
+def test_signalling_nan_from_a_binary_file_is_dropped_quietly(tmp_path):
+    ic = IC_UA.copy()
+    ic[5:6] = np.array([0x7FF0000000000001], dtype=np.uint64).view(np.float64)
+    path = tmp_path / "snan.npz"
+    path.write_bytes(_npz_bytes(B_mT=B_MT, Ic_uA=ic))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        assert read(str(path)).summary()["points_dropped"] == 1
+
+
 def test_non_finite_rows_are_dropped_and_counted(tmp_path):
     b, ic = B_MT.copy(), IC_UA.copy()
     b[3], ic[9], ic[10] = np.nan, np.inf, -np.inf

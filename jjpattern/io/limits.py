@@ -120,6 +120,20 @@ def _blocks(values):
         yield start, flat[start:start + BLOCK]
 
 
+def scaled(raw, factor: float, path: str, label: str) -> np.ndarray:
+    """``raw * factor`` without warnings (signalling NaNs from damaged binary files stay
+    NaN); a finite value that overflows is refused, not dropped as missing."""
+    raw = np.asarray(raw, dtype=float)
+    with np.errstate(invalid="ignore", over="ignore"):
+        out = raw * factor
+    lost = np.flatnonzero(np.isfinite(raw) & ~np.isfinite(out))
+    if lost.size:
+        raise InputError(f"{path}: {label} holds {float(raw[lost[0]]):.4g} (value "
+                         f"{lost[0] + 1}), beyond any field or current once converted to SI; "
+                         "check the column and its unit")
+    return out
+
+
 def check_magnitudes(path: str, label: str, values, *, limit: float, unit: str,
                      what: str) -> None:
     """Refuse finite values beyond ``limit`` (in SI), naming the array and the first one."""

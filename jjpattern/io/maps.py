@@ -19,7 +19,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..settings import ReadSettings
-from .limits import check_current, check_field, check_signal, clip, names_list, real
+from .limits import check_current, check_field, check_signal, clip, names_list, real, scaled
 from .sweep import field_values_T, is_field_name, numeric, role_key
 from .units import current_factor, resistance_factor, split_header, voltage_factor
 
@@ -146,10 +146,10 @@ def from_long_table(columns: dict, *, source, sha256, metadata,
     kind = _signal_kind(scol, s_unit)
     field_T = field_values_T(numeric(columns, fcol, "column"), f_unit,
                              f"{source}: column {clip(fcol)}", settings.coil_T_per_A)
-    bias = numeric(columns, bcol, "column") * current_factor(
-        b_unit, f"{source}: column {clip(bcol)}")
-    signal = numeric(columns, scol, "column") * _signal_factor(
-        kind, s_unit, f"{source}: column {clip(scol)}")
+    bias = scaled(numeric(columns, bcol, "column"), current_factor(
+        b_unit, f"{source}: column {clip(bcol)}"), source, f"column {clip(bcol)}")
+    signal = scaled(numeric(columns, scol, "column"), _signal_factor(
+        kind, s_unit, f"{source}: column {clip(scol)}"), source, f"column {clip(scol)}")
     check_field(source, f"column {clip(fcol)}", field_T, span=False)
     check_current(source, f"column {clip(bcol)}", bias)
     check_signal(source, f"column {clip(scol)}", signal, kind)

@@ -19,7 +19,7 @@ from ..errors import InputError
 from ..sampling import tidy
 from ..settings import ReadSettings
 from .layout import MIN_POINTS, field_window, run_labels, signed_split, sweep_runs
-from .limits import check_current, check_field, check_rows, clip, names_list
+from .limits import check_current, check_field, check_rows, clip, names_list, scaled
 from .units import current_factor, field_factor, split_header
 
 _FIELD_NAMES = {
@@ -142,9 +142,10 @@ def numeric(columns: dict, name: str, where: str) -> np.ndarray:
 
 def field_values_T(raw, unit, where, coil_T_per_A=None) -> np.ndarray:
     """Field in tesla from a field column, or from a magnet current times the coil constant."""
+    path, _, label = where.partition(": ")
     if coil_T_per_A is None:
-        return raw * field_factor(unit, where)
-    return raw * current_factor(unit, where) * coil_T_per_A
+        return scaled(raw, field_factor(unit, where), path, label)
+    return scaled(raw, current_factor(unit, where) * coil_T_per_A, path, label)
 
 
 def _find(columns, wanted, source, what):
@@ -234,7 +235,8 @@ def build_sweep(
                 f"{source}: {where} {clip(col)} has no unit; write it as 'Ic (uA)' or pass "
                 "--current-unit"
             )
-        values = raw * current_factor(c_unit, f"{source}: {where} {clip(col)}")
+        values = scaled(raw, current_factor(c_unit, f"{source}: {where} {clip(col)}"), source,
+                        f"{where} {clip(col)}")
         check_current(source, f"{where} {clip(col)}", values)
         for name, magnitudes, dropped, what in _polarities(field_T, values, keep, col,
                                                            source, where, notes):
