@@ -106,10 +106,27 @@ def _mat_v73() -> bytes:
     return bytes(raw)
 
 
+def _netcdf(engine: str) -> bytes:
+    import tempfile
+
+    import xarray as xr
+
+    b, ic = _pattern()
+    ds = xr.Dataset({"ic": ("B", ic, {"units": "uA"})},
+                    coords={"B": ("B", b, {"units": "mT"})}, attrs={"junction": "KT14-J03"})
+    with tempfile.TemporaryDirectory() as folder:
+        path = os.path.join(folder, "sweep.nc")
+        ds.to_netcdf(path, engine=engine)
+        with open(path, "rb") as handle:
+            return handle.read()
+
+
 #: Valid inputs by file name (the suffix chooses the reader as a user's file would).
 BASES = {"sweep.csv": _csv(), "sweep_de.tsv": _tsv_decimal_comma(), "sweep.h5": _hdf5(False),
          "map.h5": _hdf5(True), "sweep.npz": _npz(), "sweep.mat": _mat_v5(),
-         "sweep73.mat": _mat_v73()}
+         "sweep73.mat": _mat_v73(), "sweep.nc": _netcdf("scipy")}
+# A netCDF-4 file (HDF5 read through h5netcdf) is not mutated here: one mutation made the
+# HDF5 library itself crash the process (a segmentation fault no reader can catch).
 
 
 def mutate(raw: bytes, operations) -> bytes:

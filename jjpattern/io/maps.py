@@ -251,11 +251,14 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
         order = None  # already in field order: no copy
     else:
         field_T = field_T[order]
-    signal = _rows_si(sig, order, s_factor, owned)
-    check_signal(source, clip(names["signal"]), signal, kind)
-    if bias_raw.ndim == 1:
-        bias = np.broadcast_to(bias_raw * b_factor, signal.shape)
-    else:
-        bias = share_bias(_rows_si(bias_raw, order, b_factor, owned))
+    # Signalling NaNs of a damaged file stay NaN quietly; an overflow to infinity is refused
+    # by the checks below.
+    with np.errstate(invalid="ignore", over="ignore"):
+        signal = _rows_si(sig, order, s_factor, owned)
+        check_signal(source, clip(names["signal"]), signal, kind)
+        if bias_raw.ndim == 1:
+            bias = np.broadcast_to(bias_raw * b_factor, signal.shape)
+        else:
+            bias = share_bias(_rows_si(bias_raw, order, b_factor, owned))
     check_current(source, clip(names["bias"]), bias[0] if bias.strides[0] == 0 else bias)
     return IVMap(source, sha256, field_T, bias, signal, kind, dict(metadata), layout)

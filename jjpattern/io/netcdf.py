@@ -12,7 +12,9 @@ needs the extra.
 
 from __future__ import annotations
 
+import gc
 import io
+import sys
 
 import numpy as np
 
@@ -61,13 +63,7 @@ def read(source, settings, kind: str = "auto"):
         raise InputError(f"{source.path}: is a netCDF file, which is read through xarray: "
                          f"install the optional extra netcdf ({EXTRA})")
     engine = "h5netcdf" if is_hdf5 else "scipy"
-    try:
-        dataset = xr.open_dataset(io.BytesIO(source.raw), engine=engine)
-    except ImportError as exc:  # xarray without h5netcdf (or scipy's netCDF support)
-        raise InputError(f"{source.path}: reading this netCDF file needs {exc.name or engine}; "
-                         f"install the optional extra netcdf ({EXTRA})") from None
-    except _DAMAGE as exc:
-        raise damaged(source.path, "netCDF file", exc) from None
+    dataset = _open(xr, source, engine)
     try:
         with dataset:
             return read_dataset(dataset, source=source.path, sha256=source.sha256,
@@ -76,6 +72,31 @@ def read(source, settings, kind: str = "auto"):
         raise
     except _DAMAGE as exc:  # values are read lazily: damage may show only now
         raise damaged(source.path, "netCDF file", exc) from None
+
+
+def _open(xr, source, engine):
+    """The dataset, or an InputError raised once the half-opened file is gone.
+
+    h5netcdf's ``File.__del__`` fails on a file its constructor refused and Python prints
+    that as a traceback; the failure is kept until those objects are freed (quietly, here)
+    and raised afterwards, so that one sentence is all the user sees.
+    """
+    failure = None
+    hook = sys.unraisablehook
+    sys.unraisablehook = lambda unraisable: None
+    try:
+        try:
+            return xr.open_dataset(io.BytesIO(source.raw), engine=engine)
+        except ImportError as exc:  # xarray without h5netcdf (or scipy's netCDF support)
+            failure = InputError(f"{source.path}: reading this netCDF file needs "
+                                 f"{exc.name or engine}; install the optional extra netcdf "
+                                 f"({EXTRA})")
+        except _DAMAGE as exc:
+            failure = damaged(source.path, "netCDF file", exc)
+        gc.collect()  # the traceback's frames held the half-opened file
+    finally:
+        sys.unraisablehook = hook
+    raise failure
 
 
 #: What xarray and its engines raise on a damaged file (headers, B-trees, sizes, strings).
