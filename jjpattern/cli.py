@@ -47,6 +47,9 @@ def _reading_parent() -> argparse.ArgumentParser:
     group.add_argument("--exclude", metavar="LO:HI", action="append", default=[],
                        help="leave out rows with the field in this interval, e.g. "
                             "0.41:0.43mT (a glitch); repeat for more")
+    group.add_argument("--allow-external", action="store_true",
+                       help="let an HDF5 file read data kept in other files (external links, "
+                            "external storage, virtual datasets); they are hashed with it")
     group = parent.add_argument_group("raw V(I, B) maps")
     group.add_argument("--bias-col", metavar="NAME", help="bias-current column or dataset")
     group.add_argument("--signal-col", metavar="NAME",
@@ -274,7 +277,8 @@ def settings_from_args(args):
         decimal=args.decimal,
         field_range_T=parse_field_interval(args.field_range, "--field-range")
         if args.field_range else (),
-        exclude_T=tuple(_exclusion(text) for text in args.exclude))
+        exclude_T=tuple(_exclusion(text) for text in args.exclude),
+        allow_external=args.allow_external)
     extract = ExtractSettings(
         criterion=args.criterion, threshold=parse_threshold(args.threshold, args.criterion),
         gap_J=scaled(args.gap_meV, 1.602176634e-22),  # 1 meV in J (e is exact in SI)

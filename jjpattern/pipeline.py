@@ -6,10 +6,12 @@ Data flow one way: source -> reader -> (extraction) -> fit -> diagnostics -> Res
 from __future__ import annotations
 
 import dataclasses
+import math
 import os
 from dataclasses import dataclass
 
 from .errors import InputError
+from .io.limits import clip
 from .result import FitResult, Result
 from .settings import Settings, keyword_settings
 
@@ -243,6 +245,13 @@ _JUNCTION_METADATA = {
 }
 
 
+def _check_positive(values, where: str) -> None:
+    """Lengths, depths and Jc are finite and positive: anything else is a typing slip."""
+    if not all(math.isfinite(v) and v > 0 for v in values):
+        raise InputError(f"{where}: lengths, London depths and Jc must be finite positive "
+                         "numbers; correct or remove it")
+
+
 def junction_inputs(settings: Settings, metadata: dict):
     """Geometry in SI from the settings, each missing value from the file's metadata."""
     from .diagnose.run import GeometryInputs
@@ -253,9 +262,11 @@ def junction_inputs(settings: Settings, metadata: dict):
         given = getattr(js, name)
         if isinstance(given, tuple) and given:
             values[name] = [float(v) for v in given]
+            _check_positive(values[name], f"setting junction.{name} = {values[name]}")
             continue
         if given is not None and not isinstance(given, tuple):
             values[name] = [float(given)]
+            _check_positive(values[name], f"setting junction.{name} = {values[name][0]}")
             continue
         raw = metadata.get(key)
         if raw is None or str(raw).strip() == "":
@@ -263,8 +274,9 @@ def junction_inputs(settings: Settings, metadata: dict):
         try:
             values[name] = [float(v) * scale for v in str(raw).split(",")]
         except ValueError:
-            raise InputError(f"metadata {key} = {raw!r}: not a number; write it as a plain "
+            raise InputError(f"metadata {key} = {clip(raw)}: not a number; write it as a plain "
                              "number (or two separated by a comma)") from None
+        _check_positive(values[name], f"metadata {key} = {clip(raw)}")
     planar = js.planar or str(metadata.get("planar", "")).lower() in ("1", "yes", "true")
 
     def first(name, index=0):

@@ -26,6 +26,13 @@ class ReadSettings:
     when it is ambiguous). ``field_range_T`` is ``(low, high)`` in tesla, ``None``
     for an open end; rows outside it are left out. ``exclude_T`` holds
     ``(low, high)`` intervals whose rows are left out (glitches).
+
+    ``max_bytes`` bounds the input file (each file of a folder, and their total),
+    ``max_points`` the values of any one array read (rows of a column, cells of a
+    map), both checked before reading, and ``max_rows`` the rows of an Ic(B) sweep
+    (each is fitted: 200,000 rows take about a minute and 2 GB). ``allow_external``
+    lets an HDF5 file read data kept in other files (external links, external
+    storage, virtual datasets); those files are then hashed with the input.
     """
 
     field_col: str | None = None
@@ -41,6 +48,17 @@ class ReadSettings:
     decimal: str | None = None
     field_range_T: tuple[float | None, ...] = ()
     exclude_T: tuple[tuple[float, float], ...] = ()
+    max_bytes: int = 256 << 20
+    max_points: int = 20_000_000
+    max_rows: int = 200_000
+    allow_external: bool = False
+
+    def __post_init__(self):
+        for name in ("max_bytes", "max_points", "max_rows"):
+            value = getattr(self, name)
+            if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+                raise InputError(f"settings read.{name}: {value!r} is not a positive whole "
+                                 "number")
 
 
 @dataclass(frozen=True)

@@ -12,6 +12,7 @@ import dataclasses
 
 import numpy as np
 
+from ..errors import InputError
 from ..settings import ReadSettings
 from .layout import field_window
 from .maps import IVMap
@@ -49,8 +50,15 @@ def read(path, settings: ReadSettings | None = None, *, kind: str = "auto") -> S
         names and contents).
     """
     settings = settings or ReadSettings()
-    source = open_source(path)
-    return _windowed(reader_for(source).read(source, settings, kind), settings)
+    source = open_source(path, settings)
+    try:
+        data = reader_for(source).read(source, settings, kind)
+    except MemoryError:
+        # The sizes declared are checked before reading; this is what they could not foresee
+        # (a compressed array that unpacks to more than memory holds).
+        raise InputError(f"{source.path}: reading it needs more memory than this machine "
+                         "has; lower the read setting max_points or split the file") from None
+    return _windowed(data, settings)
 
 
 def read_object(obj, settings: ReadSettings | None = None, *, kind: str = "auto"):

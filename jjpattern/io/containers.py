@@ -10,6 +10,7 @@ holds and the options that select it.
 from __future__ import annotations
 
 from ..errors import InputError
+from .limits import clip
 from .maps import map_role
 from .sweep import ic_branch_hint, is_field_name
 from .units import split_header
@@ -26,7 +27,7 @@ def split_name(name: str, sep: str) -> tuple[str, str]:
 
 def listing(shapes: dict, limit: int = LISTED) -> str:
     """``'B_mT' (201,), 'scan/V' (201, 401)`` and how many more."""
-    items = [f"{name!r} {tuple(shape)}" for name, shape in shapes.items()]
+    items = [f"{clip(name)} {tuple(shape)}" for name, shape in shapes.items()]
     more = f" and {len(items) - limit} more" if len(items) > limit else ""
     return ", ".join(items[:limit]) + more
 
@@ -160,7 +161,7 @@ def from_named_arrays(arrays: dict, *, source: str, sha256, settings, kind: str,
         for name in explicit:
             key = _normal(name, sep)
             if key not in arrays:
-                raise InputError(f"{source}: no {option_names[0]} named {name!r} in {what}; it "
+                raise InputError(f"{source}: no {option_names[0]} named {clip(name)} in {what}; it "
                                  f"holds {listing(shapes)}")
             full[name] = key
         group = split_name(full[explicit[0]], sep)[0]

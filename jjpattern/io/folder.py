@@ -17,6 +17,7 @@ import re
 import numpy as np
 
 from ..errors import InputError
+from .limits import check_file_size, clip
 from .maps import IVMap, from_long_table, share_bias
 from .source import combine_digests, folder_files
 from .sweep import is_field_name
@@ -40,10 +41,15 @@ def read(source, settings, kind: str = "auto") -> IVMap:
     if not names:
         raise InputError(f"{folder}: the folder holds no I-V files")
     rows, fields, digests, meta0 = [], [], [], {}
+    total = 0
     for name in names:
         path = os.path.join(folder, name)
         try:
             with open(path, "rb") as handle:
+                size = os.fstat(handle.fileno()).st_size
+                total += size
+                check_file_size(path, size, settings)
+                check_file_size(folder, total, settings, "its files hold")
                 raw = handle.read()
         except OSError as exc:
             raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
@@ -80,18 +86,18 @@ def _field_of_file(path, metadata, settings):
         try:
             match = re.search(settings.field_from_name, name)
         except re.error as exc:
-            raise InputError(f"--field-from-name {settings.field_from_name!r}: not a regular "
+            raise InputError(f"--field-from-name {clip(settings.field_from_name)}: not a regular "
                              f"expression ({exc})") from None
         if not match:
             raise InputError(f"{path}: the file name does not match --field-from-name "
-                             f"{settings.field_from_name!r}")
+                             f"{clip(settings.field_from_name)}")
         text = match.groupdict().get("field") or (match.group(1) if match.re.groups else None)
         if not settings.field_unit:
             raise InputError(f"{path}: a field taken from the file name needs --field-unit")
         try:
             return float(text), settings.field_unit
         except (TypeError, ValueError):
-            raise InputError(f"{path}: --field-from-name picked {text!r} from the name, not a "
+            raise InputError(f"{path}: --field-from-name picked {clip(text)} from the name, not a "
                              "number; put the number in a group such as (?P<field>...)"
                              ) from None
     for key, value in metadata.items():
@@ -102,7 +108,7 @@ def _field_of_file(path, metadata, settings):
             try:
                 return float(parts[0]), unit
             except (ValueError, IndexError):
-                raise InputError(f"{path}: metadata {key!r} = {value!r} is not a field value"
-                                 ) from None
+                raise InputError(f"{path}: metadata {clip(key)} = {clip(value)} is not a "
+                                 "field value") from None
     raise InputError(f"{path}: no field value; add a line '# field: 1.25 mT' or pass "
                      "--field-from-name with a pattern for the file name")

@@ -21,8 +21,10 @@ import numpy as np
 
 from ..errors import InputError
 from .containers import find_group, listing, role_of
+from .limits import LazyColumns, check_points, clip, damaged, real
 from .maps import choose_kind, from_arrays, pick_column
 from .netcdf import INTERNAL_ATTRS, xarray_module
+from .outside import Outside
 from .sweep import build_sweep
 
 NAME = "hdf5"
@@ -36,42 +38,63 @@ def sniff(source) -> bool:
                                      or source.suffix in SUFFIXES)
 
 
+#: What h5py raises on a damaged file: broken B-trees, heaps, attributes, filters.
+DAMAGE = (OSError, RuntimeError, KeyError, ValueError, TypeError, OverflowError)
+
+
 def read(source, settings, kind: str = "auto"):
-    """A Sweep from 1-D datasets, or an IVMap when the root holds a 2-D dataset."""
+    """A Sweep from 1-D datasets, or an IVMap when the root holds a 2-D dataset.
+
+    Data kept in other files (external links, external storage, virtual datasets)
+    are refused unless the read setting ``allow_external`` is set; then the file is
+    opened by its path, so that those files are found beside it, and they are hashed.
+    """
     import h5py
 
+    outside = Outside(source, settings)
     try:
         # BytesIO shares the bytes that were hashed: what is read is what was hashed.
-        handle = h5py.File(io.BytesIO(source.raw), "r")
-    except (OSError, ValueError) as exc:
+        handle = (h5py.File(source.path, "r") if outside.allowed
+                  else h5py.File(io.BytesIO(source.raw), "r"))
+    except DAMAGE as exc:
         raise InputError(f"{source.path}: not a readable HDF5 file "
                          f"({exc.__class__.__name__})") from None
-    with handle:
-        if "_NCProperties" not in handle.attrs or xarray_module() is None:
-            return _read_open(handle, source, settings, kind)
+    try:
+        with handle:
+            if ("_NCProperties" not in handle.attrs or xarray_module() is None
+                    or outside.scan(handle)):  # other files: only this reader checks them
+                return outside.sealed(_read_open(handle, source, settings, kind, outside))
+    except InputError:
+        raise
+    except DAMAGE as exc:
+        raise damaged(source.path, "HDF5 file", exc) from None
     from . import netcdf  # netCDF-4 written by xarray or netCDF4: coordinates, attributes
 
     return netcdf.read(source, settings, kind)
 
 
-def _read_open(handle, source, settings, kind):
+def _read_open(handle, source, settings, kind, outside):
     import h5py
 
     metadata = _metadata(handle.attrs)
     # h5py builds an object per lookup (slow, ~0.5 ms): look each dataset up once.
-    root = {k: v for k, v in handle.items()
-            if isinstance(v, h5py.Dataset) and not _dimension_only(v)}
+    root = {}
+    for key in handle.keys():
+        outside.link(handle, key)
+        value = outside.get(handle, key)
+        if isinstance(value, h5py.Dataset) and not _dimension_only(value):
+            root[key] = value
     layout = {}
     if not _names_given(settings) and not _recognised(root, settings, kind):
-        found = _group(handle, source.path, settings, kind)
+        found = _group(handle, source.path, settings, kind, outside)
         if found is not None:
             group, kind, root = found
             metadata.update(_metadata(handle[group].attrs))
             layout["group"] = "/" + group
     has_map = any(v.ndim == 2 for v in root.values())
     if choose_kind(kind, settings, has_map) == "map":
-        return _map(handle, root, source, settings, metadata)
-    columns, units = _columns(handle, root, source.path, settings)
+        return _map(handle, root, source, settings, metadata, outside)
+    columns, units = _columns(handle, root, source.path, settings, outside)
     return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
                        units=units, metadata=metadata, where="dataset", layout=layout)
 
@@ -99,7 +122,7 @@ def _recognised(root, settings, kind) -> bool:
     return "field" in roles and ("ic" in roles or kind == "map")
 
 
-def _group(handle, path, settings, kind):
+def _group(handle, path, settings, kind, outside):
     """``(group, kind, datasets)`` of the one group that holds a sweep or a map, or ``None``
     when everything is at the root (the root's own messages then say what is missing)."""
     import h5py
@@ -110,6 +133,9 @@ def _group(handle, path, settings, kind):
         if isinstance(obj, h5py.Dataset) and obj.dtype.kind in "iuf" and not _dimension_only(obj):
             shapes[name] = obj.shape
 
+    visit_links = getattr(handle, "visititems_links", None)
+    if visit_links is not None:  # external links inside groups, before anything follows them
+        visit_links(lambda name, link: outside.link(handle, name, link))
     handle.visititems(visit)
     if not any("/" in name for name in shapes):
         return None
@@ -117,7 +143,7 @@ def _group(handle, path, settings, kind):
                                       kind=kind, what="the HDF5 file",
                                       option_names=("dataset", "path"))
     prefix = f"{group}/" if group else ""
-    return group, chosen, {n[len(prefix):]: handle[n] for n in names}
+    return group, chosen, {n[len(prefix):]: outside.get(handle, n) for n in names}
 
 
 def _text(value) -> str:
@@ -136,70 +162,92 @@ def _unit(ds) -> str | None:
     return None
 
 
-def _dataset(handle, name, path):
+def _dataset(handle, name, path, outside):
     import h5py
 
-    found = handle.get(name)
+    outside.link(handle, name)
+    found = outside.get(handle, name)
     if not isinstance(found, h5py.Dataset):
-        raise InputError(f"{path}: no dataset at {name!r}; check the path")
+        raise InputError(f"{path}: no dataset at {clip(name)}; check the path")
     return found
 
 
-def _floats(ds, path) -> np.ndarray:
-    """The dataset as float64, converted by HDF5 while reading (no second copy)."""
+def _floats(ds, path, settings, outside) -> np.ndarray:
+    """The dataset as float64, converted by HDF5 while reading (no second copy).
+
+    Its size is checked from its declared shape and where its values live (another
+    file?) before anything is read.
+    """
+    if ds.dtype.kind == "c" or (ds.dtype.names and set(ds.dtype.names) == {"r", "i"}):
+        real(np.zeros(0, complex), path, f"dataset {clip(ds.name)}")
     if ds.dtype.kind not in "iuf":
-        raise InputError(f"{path}: dataset {ds.name!r} holds {ds.dtype}, not numbers")
-    if ds.dtype == np.float64:
-        return np.asarray(ds[()])
-    return np.asarray(ds.astype(np.float64)[()])
+        raise InputError(f"{path}: dataset {clip(ds.name)} holds {ds.dtype}, not numbers")
+    check_points(path, f"dataset {ds.name}", ds.shape, settings)
+    ds = outside.dataset(ds)
+    try:
+        if ds.dtype == np.float64:
+            return np.asarray(ds[()])
+        return np.asarray(ds.astype(np.float64)[()])
+    except DAMAGE as exc:
+        raise damaged(path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
 
 
-def _columns(handle, root, path, settings) -> tuple[dict, dict]:
-    """1-D numeric datasets (all at the root, or the named ones) and their units."""
+def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
+    """1-D numeric datasets (all at the root, or the named ones) and their units; the
+    values are read only for the columns the sweep uses."""
     explicit = ([settings.field_col] if settings.field_col else []) + list(settings.ic_cols)
     if explicit and not (settings.field_col and settings.ic_cols):
         raise InputError(f"{path}: give both --field-col and --ic-col as dataset paths, "
                          "or neither")
     if explicit:
-        selected = {name: _dataset(handle, name, path) for name in explicit}
+        selected = {name: _dataset(handle, name, path, outside) for name in explicit}
     else:
         selected = root
         if not selected:
             raise InputError(f"{path}: the HDF5 file holds no datasets")
-    columns: dict[str, np.ndarray] = {}
+    shapes: dict[str, tuple] = {}
     units: dict[str, str] = {}
     for name, ds in selected.items():
         if ds.ndim != 1 or ds.dtype.kind not in "iuf":
+            if explicit and ds.dtype.kind == "c":
+                real(np.zeros(0, complex), path, f"dataset {clip(name)}")
             if explicit:
-                raise InputError(f"{path}: dataset {name!r} is not a 1-D numeric array "
+                raise InputError(f"{path}: dataset {clip(name)} is not a 1-D numeric array "
                                  f"(shape {ds.shape}, type {ds.dtype})")
             continue
-        columns[name] = _floats(ds, path)
+        shapes[name] = ds.shape
         unit = _unit(ds)
         if unit is not None:
             units[name] = unit
-    if not columns:
+    if not shapes:
         raise InputError(f"{path}: the HDF5 file holds no 1-D numeric datasets at its root; it "
                          f"holds {listing({k: v.shape for k, v in selected.items()})}; name "
                          "them with --field-col and --ic-col (dataset paths)")
-    if len({c.size for c in columns.values()}) > 1:
-        raise InputError(f"{path}: the datasets have different lengths "
-                         f"({', '.join(f'{k}: {v.size}' for k, v in columns.items())})")
-    return columns, units
+    # Only the columns a sweep can use must agree: a log of another length beside them is
+    # left alone (and never read).
+    coil = settings.coil_T_per_A is not None
+    used = {n: s for n, s in shapes.items()
+            if n in explicit or role_of(n, coil) in ("field", "ic")} or shapes
+    for name, shape in used.items():
+        check_points(path, f"dataset {name}", shape, settings)
+    if len({s[0] for s in used.values()}) > 1:
+        raise InputError(f"{path}: the datasets have different lengths ({listing(used)})")
+    return LazyColumns(shapes, lambda name: _floats(selected[name], path, settings,
+                                                    outside)), units
 
 
-def _map(handle, root, source, settings, metadata):
+def _map(handle, root, source, settings, metadata, outside):
     """The map datasets (recognised at the root, or named), read once each."""
     path = source.path
     names, found = {}, {}
     for role, explicit in (("field", settings.field_col), ("bias", settings.bias_col),
                            ("signal", settings.signal_col)):
         if explicit:
-            names[role], found[role] = explicit, _dataset(handle, explicit, path)
+            names[role], found[role] = explicit, _dataset(handle, explicit, path, outside)
         else:
             names[role] = pick_column(list(root), role, None, path, f"{role} dataset")
             found[role] = root[names[role]]
-    arrays = {role: _floats(ds, path) for role, ds in found.items()}
+    arrays = {role: _floats(ds, path, settings, outside) for role, ds in found.items()}
     units = {names[role]: unit for role, ds in found.items()
              if (unit := _unit(ds)) is not None}
     return from_arrays(arrays["field"], arrays["bias"], arrays["signal"], units, names,

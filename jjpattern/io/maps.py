@@ -19,6 +19,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..settings import ReadSettings
+from .limits import check_current, check_field, check_signal, clip, names_list, real, scaled
 from .sweep import field_values_T, is_field_name, numeric, role_key
 from .units import current_factor, resistance_factor, split_header, voltage_factor
 
@@ -73,8 +74,8 @@ def pick_column(names, role, explicit, source, what) -> str:
         for n in names:
             if n == explicit or split_header(n)[0] == explicit:
                 return n
-        raise InputError(f"{source}: no {what} named {explicit!r}; found "
-                         f"{', '.join(map(repr, names))}")
+        raise InputError(f"{source}: no {what} named {clip(explicit)}; found "
+                         f"{names_list(names)}")
     if role == "field":
         found = [n for n in names if is_field_name(split_header(n)[0], coil=True)]
     elif role == "signal":
@@ -83,9 +84,9 @@ def pick_column(names, role, explicit, source, what) -> str:
         found = [n for n in names if map_role(split_header(n)[0]) == role]
     if len(found) != 1:
         option = {"field": "--field-col", "bias": "--bias-col", "signal": "--signal-col"}[role]
-        problem = "none" if not found else f"several ({', '.join(map(repr, found))})"
+        problem = "none" if not found else f"several ({names_list(found)})"
         raise InputError(f"{source}: {what}: {problem} recognised among "
-                         f"{', '.join(map(repr, names))}; choose one with {option}")
+                         f"{names_list(names)}; choose one with {option}")
     return found[0]
 
 
@@ -118,7 +119,7 @@ def choose_kind(kind: str, settings: ReadSettings, looks_like_a_map: bool) -> st
 def _units(unit_of, name, given, source, what, option):
     unit = given or unit_of(name)
     if not unit:
-        raise InputError(f"{source}: {what} {name!r} has no unit; add one or pass {option}")
+        raise InputError(f"{source}: {what} {clip(name)} has no unit; add one or pass {option}")
     return unit
 
 
@@ -144,10 +145,14 @@ def from_long_table(columns: dict, *, source, sha256, metadata,
     s_unit = _units(unit_of, scol, settings.signal_unit, source, "column", "--signal-unit")
     kind = _signal_kind(scol, s_unit)
     field_T = field_values_T(numeric(columns, fcol, "column"), f_unit,
-                             f"{source}: column {fcol!r}", settings.coil_T_per_A)
-    bias = numeric(columns, bcol, "column") * current_factor(b_unit, f"{source}: column {bcol!r}")
-    signal = numeric(columns, scol, "column") * _signal_factor(kind, s_unit,
-                                                              f"{source}: column {scol!r}")
+                             f"{source}: column {clip(fcol)}", settings.coil_T_per_A)
+    bias = scaled(numeric(columns, bcol, "column"), current_factor(
+        b_unit, f"{source}: column {clip(bcol)}"), source, f"column {clip(bcol)}")
+    signal = scaled(numeric(columns, scol, "column"), _signal_factor(
+        kind, s_unit, f"{source}: column {clip(scol)}"), source, f"column {clip(scol)}")
+    check_field(source, f"column {clip(fcol)}", field_T, span=False)
+    check_current(source, f"column {clip(bcol)}", bias)
+    check_signal(source, f"column {clip(scol)}", signal, kind)
     keep = np.isfinite(field_T)
     field_T, bias, signal = field_T[keep], bias[keep], signal[keep]
     if field_T.size == 0:
@@ -205,26 +210,28 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     map. With ``owned`` the float64 arrays belong to the caller no longer and
     are scaled in place instead of copied.
     """
+    for role, values in (("field", field_raw), ("bias", bias_raw), ("signal", signal_raw)):
+        real(values, source, f"{clip(names[role])}")
     field_raw = np.asarray(field_raw, dtype=float).ravel()
     bias_raw = np.asarray(bias_raw, dtype=float)
     sig = np.asarray(signal_raw, dtype=float)
     n_f = field_raw.size
     if sig.ndim != 2:
-        raise InputError(f"{source}: {names['signal']!r} must be 2-D, found shape {sig.shape}")
+        raise InputError(f"{source}: {clip(names['signal'])} must be 2-D, found shape {sig.shape}")
     layout = "field x bias"
     if settings.transpose or (sig.shape[0] != n_f and sig.shape[1] == n_f):
         sig = sig.T
         bias_raw = bias_raw.T if bias_raw.ndim == 2 else bias_raw
         layout = "bias x field (transposed on reading)"
     if sig.shape[0] != n_f:
-        raise InputError(f"{source}: {names['signal']!r} has shape {sig.shape} but there are "
+        raise InputError(f"{source}: {clip(names['signal'])} has shape {sig.shape} but there are "
                          f"{n_f} field values; the map must be (n_field, n_bias)")
     if bias_raw.ndim == 1:
         if bias_raw.size != sig.shape[1]:
-            raise InputError(f"{source}: {names['bias']!r} has {bias_raw.size} values but the "
+            raise InputError(f"{source}: {clip(names['bias'])} has {bias_raw.size} values but the "
                              f"map has {sig.shape[1]} bias points per row")
     elif bias_raw.shape != sig.shape:
-        raise InputError(f"{source}: {names['bias']!r} has shape {bias_raw.shape}, the map "
+        raise InputError(f"{source}: {clip(names['bias'])} has shape {bias_raw.shape}, the map "
                          f"{sig.shape}; they must match")
     where = f"{source}: dataset"
     f_unit = _units(units.get, names["field"], settings.field_unit, source, "dataset",
@@ -234,18 +241,24 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     s_unit = _units(units.get, names["signal"], settings.signal_unit, source, "dataset",
                     "--signal-unit")
     kind = _signal_kind(names["signal"], s_unit)
-    field_T = field_values_T(field_raw, f_unit, f"{where} {names['field']!r}",
+    field_T = field_values_T(field_raw, f_unit, f"{where} {clip(names['field'])}",
                              settings.coil_T_per_A)
-    b_factor = current_factor(b_unit, f"{where} {names['bias']!r}")
-    s_factor = _signal_factor(kind, s_unit, f"{where} {names['signal']!r}")
+    b_factor = current_factor(b_unit, f"{where} {clip(names['bias'])}")
+    s_factor = _signal_factor(kind, s_unit, f"{where} {clip(names['signal'])}")
+    check_field(source, clip(names["field"]), field_T, span=False)
     order = np.argsort(field_T, kind="stable")
     if np.array_equal(order, np.arange(n_f)):
         order = None  # already in field order: no copy
     else:
         field_T = field_T[order]
-    signal = _rows_si(sig, order, s_factor, owned)
-    if bias_raw.ndim == 1:
-        bias = np.broadcast_to(bias_raw * b_factor, signal.shape)
-    else:
-        bias = share_bias(_rows_si(bias_raw, order, b_factor, owned))
+    # Signalling NaNs of a damaged file stay NaN quietly; an overflow to infinity is refused
+    # by the checks below.
+    with np.errstate(invalid="ignore", over="ignore"):
+        signal = _rows_si(sig, order, s_factor, owned)
+        check_signal(source, clip(names["signal"]), signal, kind)
+        if bias_raw.ndim == 1:
+            bias = np.broadcast_to(bias_raw * b_factor, signal.shape)
+        else:
+            bias = share_bias(_rows_si(bias_raw, order, b_factor, owned))
+    check_current(source, clip(names["bias"]), bias[0] if bias.strides[0] == 0 else bias)
     return IVMap(source, sha256, field_T, bias, signal, kind, dict(metadata), layout)

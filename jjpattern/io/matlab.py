@@ -16,6 +16,7 @@ import numpy as np
 
 from ..errors import InputError
 from .containers import from_named_arrays
+from .limits import check_points, clip, damaged, real
 
 NAME = "matlab"
 HEADER = b"MATLAB "
@@ -34,10 +35,10 @@ def read(source, settings, kind: str = "auto"):
     head = source.raw[:128]
     hdf5 = b"\x89HDF\r\n\x1a\n"
     if b"MATLAB 7.3" in head or hdf5 in (source.raw[:8], source.raw[512:520]):
-        arrays, metadata = _v73(source)
+        arrays, metadata = _v73(source, settings)
         version = "7.3"
     else:
-        arrays, metadata = _v5(source)
+        arrays, metadata = _v5(source, settings)
         version = "5"
     return from_named_arrays(arrays, source=source.path, sha256=source.sha256,
                              settings=settings, kind=kind, sep=".",
@@ -46,28 +47,36 @@ def read(source, settings, kind: str = "auto"):
                              layout={"container": f"MATLAB v{version}"})
 
 
-def _v5(source):
-    from scipy.io import loadmat
+def _v5(source, settings):
+    from scipy.io import loadmat, whosmat
 
     try:
+        # The variables' sizes from their headers first: a declared-huge array is refused
+        # before anything is read.
+        for name, shape, _ in whosmat(io.BytesIO(source.raw)):
+            check_points(source.path, f"variable {name}", shape, settings)
         data = loadmat(io.BytesIO(source.raw), simplify_cells=True)
     except NotImplementedError:  # scipy says "use HDF reader" for v7.3 without the header
-        return _v73(source)
-    except (ValueError, TypeError, OSError) as exc:
-        raise InputError(f"{source.path}: not a readable MATLAB .mat file ({exc})") from None
+        return _v73(source, settings)
+    except InputError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - only scipy's parser runs here, on untrusted bytes
+        # A damaged v5 file surfaces as anything from struct.error and zlib.error to
+        # scipy's own UnboundLocalError: every failure of the parser is the file's.
+        raise damaged(source.path, "MATLAB .mat file", exc) from None
     arrays: dict[str, np.ndarray] = {}
     metadata: dict[str, str] = {}
     for name, value in data.items():
         if not name.startswith("__"):
-            _walk_v5(name, value, arrays, metadata, 0)
+            _walk_v5(name, value, arrays, metadata, 0, source.path)
     return arrays, metadata
 
 
-def _walk_v5(name, value, arrays, metadata, depth):
+def _walk_v5(name, value, arrays, metadata, depth, path):
     if isinstance(value, dict):
         if depth < _MAX_DEPTH:
             for key, item in value.items():
-                _walk_v5(f"{name}.{key}", item, arrays, metadata, depth + 1)
+                _walk_v5(f"{name}.{key}", item, arrays, metadata, depth + 1, path)
         return
     if isinstance(value, str):
         metadata[name] = value
@@ -75,6 +84,9 @@ def _walk_v5(name, value, arrays, metadata, depth):
     if isinstance(value, (int, float, np.number)) and not isinstance(value, bool):
         metadata[name] = str(value)
         return
+    if isinstance(value, (complex, np.complexfloating)) or (
+            isinstance(value, np.ndarray) and value.dtype.kind == "c"):
+        real(value, path, f"variable {clip(name)}")
     if isinstance(value, np.ndarray) and value.dtype.kind in "iuf" and value.size:
         if value.size == 1:
             metadata[name] = str(value.reshape(-1)[0])
@@ -82,18 +94,25 @@ def _walk_v5(name, value, arrays, metadata, depth):
             arrays[name] = value.astype(float, copy=False)
 
 
-def _v73(source):
+def _v73(source, settings):
     import h5py
+
+    from .hdf5 import DAMAGE
 
     try:
         handle = h5py.File(io.BytesIO(source.raw), "r")
-    except (OSError, ValueError) as exc:
+    except DAMAGE as exc:
         raise InputError(f"{source.path}: not a readable MATLAB v7.3 file "
                          f"({exc.__class__.__name__})") from None
     arrays: dict[str, np.ndarray] = {}
     metadata: dict[str, str] = {}
-    with handle:
-        _walk_v73(handle, "", arrays, metadata, 0)
+    try:
+        with handle:
+            _walk_v73(handle, "", arrays, metadata, 0, source.path, settings)
+    except InputError:
+        raise
+    except DAMAGE as exc:
+        raise damaged(source.path, "MATLAB v7.3 file", exc) from None
     return arrays, metadata
 
 
@@ -102,20 +121,32 @@ def _class(obj) -> str:
     return value.decode("ascii", "replace") if isinstance(value, bytes) else str(value)
 
 
-def _walk_v73(group, prefix, arrays, metadata, depth):
+def _walk_v73(group, prefix, arrays, metadata, depth, path, settings):
     import h5py
 
-    for key, obj in group.items():
+    for key in group.keys():
         if key.startswith("#"):  # '#refs#', '#subsystem#': MATLAB's own storage
             continue
         name = f"{prefix}{key}"
+        if isinstance(group.get(key, getlink=True), h5py.ExternalLink):
+            raise InputError(f"{path}: variable {clip(name)} is a link to another file, which "
+                             "a .mat file is not read through; save the data in this file")
+        obj = group.get(key)
         if isinstance(obj, h5py.Group):
             if depth < _MAX_DEPTH:
-                _walk_v73(obj, f"{name}.", arrays, metadata, depth + 1)
+                _walk_v73(obj, f"{name}.", arrays, metadata, depth + 1, path, settings)
             continue
+        if not isinstance(obj, h5py.Dataset):
+            continue
+        if obj.dtype.kind == "c" or (obj.dtype.names and {"real", "imag"} <= set(obj.dtype.names)):
+            real(np.zeros(0, complex), path, f"variable {clip(name)}")
         cls = _class(obj)
         if "MATLAB_empty" in obj.attrs or obj.dtype.kind not in "iuf":
             continue
+        if obj.external or obj.is_virtual:
+            raise InputError(f"{path}: variable {clip(name)} keeps its values in another file, "
+                             "which a .mat file is not read through; save the data in this file")
+        check_points(path, f"variable {name}", obj.shape, settings)
         values = obj[()]
         if cls == "char":
             metadata[name] = "".join(map(chr, np.asarray(values).T.reshape(-1)))

@@ -12,12 +12,15 @@ needs the extra.
 
 from __future__ import annotations
 
+import gc
 import io
+import sys
 
 import numpy as np
 
 from ..errors import InputError
 from .containers import from_named_arrays
+from .limits import check_points, clip, damaged, real
 from .sweep import ic_branch_hint, is_field_name
 from .units import split_header
 
@@ -60,17 +63,45 @@ def read(source, settings, kind: str = "auto"):
         raise InputError(f"{source.path}: is a netCDF file, which is read through xarray: "
                          f"install the optional extra netcdf ({EXTRA})")
     engine = "h5netcdf" if is_hdf5 else "scipy"
+    dataset = _open(xr, source, engine)
     try:
-        dataset = xr.open_dataset(io.BytesIO(source.raw), engine=engine)
-    except ImportError as exc:  # xarray without h5netcdf (or scipy's netCDF support)
-        raise InputError(f"{source.path}: reading this netCDF file needs {exc.name or engine}; "
-                         f"install the optional extra netcdf ({EXTRA})") from None
-    except (OSError, ValueError, TypeError, KeyError) as exc:
-        raise InputError(f"{source.path}: not a readable netCDF file "
-                         f"({exc.__class__.__name__}: {exc})") from None
-    with dataset:
-        return read_dataset(dataset, source=source.path, sha256=source.sha256,
-                            settings=settings, kind=kind, what="the netCDF file")
+        with dataset:
+            return read_dataset(dataset, source=source.path, sha256=source.sha256,
+                                settings=settings, kind=kind, what="the netCDF file")
+    except InputError:
+        raise
+    except _DAMAGE as exc:  # values are read lazily: damage may show only now
+        raise damaged(source.path, "netCDF file", exc) from None
+
+
+def _open(xr, source, engine):
+    """The dataset, or an InputError raised once the half-opened file is gone.
+
+    h5netcdf's ``File.__del__`` fails on a file its constructor refused and Python prints
+    that as a traceback; the failure is kept until those objects are freed (quietly, here)
+    and raised afterwards, so that one sentence is all the user sees.
+    """
+    failure = None
+    hook = sys.unraisablehook
+    sys.unraisablehook = lambda unraisable: None
+    try:
+        try:
+            return xr.open_dataset(io.BytesIO(source.raw), engine=engine)
+        except ImportError as exc:  # xarray without h5netcdf (or scipy's netCDF support)
+            failure = InputError(f"{source.path}: reading this netCDF file needs "
+                                 f"{exc.name or engine}; install the optional extra netcdf "
+                                 f"({EXTRA})")
+        except _DAMAGE as exc:
+            failure = damaged(source.path, "netCDF file", exc)
+        gc.collect()  # the traceback's frames held the half-opened file
+    finally:
+        sys.unraisablehook = hook
+    raise failure
+
+
+#: What xarray and its engines raise on a damaged file (headers, B-trees, sizes, strings).
+_DAMAGE = (OSError, ValueError, TypeError, KeyError, IndexError, RuntimeError, OverflowError,
+           EOFError, AttributeError, MemoryError)
 
 
 def _text(value) -> str:
@@ -106,8 +137,11 @@ def read_dataset(dataset, *, source, sha256, settings, kind="auto", what="the xa
     current_dims = set()
     for name, var in list(dataset.coords.items()) + list(dataset.data_vars.items()):
         name = str(name)
+        if var.dtype.kind == "c":
+            real(np.zeros(0, complex), source, f"variable {clip(name)}")
         if var.dtype.kind not in "iuf":
             continue
+        check_points(source, f"variable {name}", var.shape, settings)
         values = np.asarray(var.values)
         unit = var.attrs.get("units", var.attrs.get("unit"))
         if values.ndim == 0:

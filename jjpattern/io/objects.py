@@ -15,6 +15,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..settings import ReadSettings
+from .limits import clip, real
 
 FRAME_LABEL = "<pandas.DataFrame>"
 DATASET_LABEL = "<xarray.Dataset>"
@@ -69,13 +70,15 @@ def _read_frame(frame, settings, kind):
     for position, name in enumerate(frame.columns):
         key = str(name)
         if key in columns:
-            raise InputError(f"{FRAME_LABEL}: the column name {key!r} comes twice; rename one")
+            raise InputError(f"{FRAME_LABEL}: the column name {clip(key)} comes twice; rename one")
         cells = frame.iloc[:, position]
+        if cells.dtype.kind == "c":
+            real(np.zeros(0, complex), FRAME_LABEL, f"column {clip(key)}")
         values = pd.to_numeric(cells, errors="coerce").to_numpy(dtype=float)
         bad = np.flatnonzero(np.isnan(values) & cells.notna().to_numpy())
         if bad.size:
-            columns[key] = (f"{FRAME_LABEL}: row {bad[0]} of column {key!r} holds "
-                            f"{cells.iloc[bad[0]]!r}, not a number")
+            columns[key] = (f"{FRAME_LABEL}: row {bad[0]} of column {clip(key)} holds "
+                            f"{clip(cells.iloc[bad[0]])}, not a number")
         else:
             columns[key] = values
             named.append((key, values))

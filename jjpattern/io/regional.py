@@ -12,6 +12,7 @@ from __future__ import annotations
 import re
 
 from ..errors import InputError
+from .limits import clip
 from .units import CURRENT_UNITS, FIELD_UNITS, RESISTANCE_UNITS, VOLTAGE_UNITS, normalise_unit
 
 #: Units that mark a row as the units row (besides those the readers convert).
@@ -102,7 +103,7 @@ def decimal_mark(body: str, delim: str | None, given: str | None, source: str,
     point is ambiguous (a thousands separator?) and is refused.
     """
     if given not in (None, ".", ","):
-        raise InputError(f"--decimal {given!r}: the decimal mark is '.' or ','")
+        raise InputError(f"--decimal {clip(given)}: the decimal mark is '.' or ','")
     if given is not None or delim == ",":
         return given or "."
     # str.find first: the cell patterns take ~0.1 s per MB to rule a mark out.
@@ -114,8 +115,8 @@ def decimal_mark(body: str, delim: str | None, given: str | None, source: str,
         return ","
     raise InputError(
         f"{source}: line {_line_of(body, comma.start(), first_line)} writes "
-        f"{comma.group().strip()!r} with a decimal comma but line "
-        f"{_line_of(body, point.start(), first_line)} writes {point.group().strip()!r} with a "
+        f"{clip(comma.group().strip())} with a decimal comma but line "
+        f"{_line_of(body, point.start(), first_line)} writes {clip(point.group().strip())} with a "
         f"decimal point; {DECIMAL_HELP} to say which the file uses")
 
 

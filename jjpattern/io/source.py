@@ -35,8 +35,13 @@ class Source:
         return self.raw is None
 
 
-def open_source(path) -> Source:
-    """Read a file's bytes and hash them, or note a folder; user mistakes raise InputError."""
+def open_source(path, settings=None) -> Source:
+    """Read a file's bytes and hash them, or note a folder; user mistakes raise InputError.
+
+    The size is checked against the read setting ``max_bytes`` before reading.
+    """
+    from .limits import check_file_size
+
     path = os.fspath(path)
     if not os.path.exists(path):
         raise InputError(f"{path}: file not found; check the path")
@@ -44,6 +49,7 @@ def open_source(path) -> Source:
         return Source(path, None, None, "")
     try:
         with open(path, "rb") as handle:
+            check_file_size(path, os.fstat(handle.fileno()).st_size, settings)
             raw = handle.read()
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror})") from None

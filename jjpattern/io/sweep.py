@@ -19,6 +19,7 @@ from ..errors import InputError
 from ..sampling import tidy
 from ..settings import ReadSettings
 from .layout import MIN_POINTS, field_window, run_labels, signed_split, sweep_runs
+from .limits import check_current, check_field, check_rows, clip, names_list, scaled
 from .units import current_factor, field_factor, split_header
 
 _FIELD_NAMES = {
@@ -158,9 +159,10 @@ def numeric(columns: dict, name: str, where: str) -> np.ndarray:
 
 def field_values_T(raw, unit, where, coil_T_per_A=None) -> np.ndarray:
     """Field in tesla from a field column, or from a magnet current times the coil constant."""
+    path, _, label = where.partition(": ")
     if coil_T_per_A is None:
-        return raw * field_factor(unit, where)
-    return raw * current_factor(unit, where) * coil_T_per_A
+        return scaled(raw, field_factor(unit, where), path, label)
+    return scaled(raw, current_factor(unit, where) * coil_T_per_A, path, label)
 
 
 def _find(columns, wanted, source, what):
@@ -168,8 +170,8 @@ def _find(columns, wanted, source, what):
         if col == wanted or split_header(col)[0] == wanted:
             return col
     raise InputError(
-        f"{source}: no {what} column named {wanted!r}; the columns are "
-        f"{', '.join(repr(c) for c in columns)}"
+        f"{source}: no {what} column named {clip(wanted)}; the columns are "
+        f"{names_list(columns)}"
     )
 
 
@@ -213,17 +215,22 @@ def build_sweep(
         if not icols:
             raise InputError(
                 f"{source}: no critical-current column recognised among "
-                f"{', '.join(repr(c) for c in names)}; name it like 'Ic (uA)' or pass --ic-col"
+                f"{names_list(names)}; name it like 'Ic (uA)' or pass --ic-col"
             )
 
+    shapes = getattr(columns, "shapes", None)  # sizes known before reading (HDF5, npz)
+    first = None if shapes else columns[fcol]
+    check_rows(source, shapes[fcol][0] if shapes else 0 if isinstance(first, str)
+               else len(first), settings)
     field_raw = numeric(columns, fcol, where)
     f_unit = settings.field_unit or units.get(fcol) or split_header(fcol)[1]
     if not f_unit:
         raise InputError(
-            f"{source}: {where} {fcol!r} has no unit; write it as 'B (mT)' or pass --field-unit"
+            f"{source}: {where} {clip(fcol)} has no unit; write it as 'B (mT)' or pass --field-unit"
         )
-    field_T = field_values_T(field_raw, f_unit, f"{source}: {where} {fcol!r}",
+    field_T = field_values_T(field_raw, f_unit, f"{source}: {where} {clip(fcol)}",
                              settings.coil_T_per_A)
+    check_field(source, f"{where} {clip(fcol)}", field_T)
     keep, outside, excluded = field_window(field_T, settings.field_range_T, settings.exclude_T)
     notes = dict(layout or {})
     if settings.field_range_T or settings.exclude_T:
@@ -242,15 +249,17 @@ def build_sweep(
         c_unit = settings.current_unit or units.get(col) or split_header(col)[1]
         if not c_unit:
             raise InputError(
-                f"{source}: {where} {col!r} has no unit; write it as 'Ic (uA)' or pass "
+                f"{source}: {where} {clip(col)} has no unit; write it as 'Ic (uA)' or pass "
                 "--current-unit"
             )
-        values = raw * current_factor(c_unit, f"{source}: {where} {col!r}")
+        values = scaled(raw, current_factor(c_unit, f"{source}: {where} {clip(col)}"), source,
+                        f"{where} {clip(col)}")
+        check_current(source, f"{where} {clip(col)}", values)
         for name, magnitudes, dropped, what in _polarities(field_T, values, keep, col,
                                                            source, where, notes):
             if name in found:
                 raise InputError(
-                    f"{source}: {where}s {columns_of[name]!r} and {col!r} are both "
+                    f"{source}: {where}s {clip(columns_of[name])} and {clip(col)} are both "
                     f"{name}-branch critical currents; choose with --ic-col")
             segments, aside = _segments(field_T, magnitudes, keep, name, col, source, what,
                                         dropped)
@@ -279,12 +288,12 @@ def _field_column(names, settings, source) -> str:
     if not found:
         raise InputError(
             f"{source}: no field column recognised among "
-            f"{', '.join(repr(c) for c in names)}; name it like 'B (mT)' or pass "
+            f"{names_list(names)}; name it like 'B (mT)' or pass "
             "--field-col (for a magnet current, also --coil-constant)"
         )
     if len(found) > 1:
         raise InputError(
-            f"{source}: several field columns ({', '.join(map(repr, found))}); "
+            f"{source}: several field columns ({names_list(found)}); "
             "choose one with --field-col"
         )
     return found[0]
@@ -299,11 +308,12 @@ def _polarities(field_T, values, keep, col, source, where, notes):
     """
     finite = np.isfinite(field_T) & np.isfinite(values)
     if not finite.any():
-        raise InputError(f"{source}: {where} {col!r} has no finite values next to a finite field")
+        raise InputError(f"{source}: {where} {clip(col)} has no finite values next to a "
+                         "finite field")
     v = values[finite]
     if not np.any(v != 0):
         raise InputError(
-            f"{source}: {where} {col!r} is zero everywhere; check the column and its unit"
+            f"{source}: {where} {clip(col)} is zero everywhere; check the column and its unit"
         )
     dropped = int((~finite).sum())
     hint = ic_branch_hint(split_header(col)[0])
@@ -312,7 +322,7 @@ def _polarities(field_T, values, keep, col, source, where, notes):
         sign = np.sign(np.median(v)) or np.sign(v[np.nonzero(v)[0][0]])
         # Negative-branch columns come either as negative values or as magnitudes.
         name = hint or ("negative" if sign < 0 else "positive")
-        return [(name, np.where(finite, values * sign, np.nan), dropped, f"{where} {col!r}")]
+        return [(name, np.where(finite, values * sign, np.nan), dropped, f"{where} {clip(col)}")]
     pos, neg = split
     zero = int((finite & (values == 0)).sum())
     note = {"column": col, "positive_rows": int(pos.sum()), "negative_rows": int(neg.sum()),
@@ -323,9 +333,9 @@ def _polarities(field_T, values, keep, col, source, where, notes):
             note[f"{name}_rows_set_aside"] = int(rows.sum())  # too few for a fit of their own
             continue
         out.append((name, np.where(rows, magnitudes, np.nan), 0,
-                    f"the {name} values of {where} {col!r}"))
+                    f"the {name} values of {where} {clip(col)}"))
     if not out:
-        raise InputError(f"{source}: {where} {col!r} holds too few rows of either sign inside "
+        raise InputError(f"{source}: {where} {clip(col)} holds too few rows of either sign inside "
                          f"the field window for a fit (at least {MIN_POINTS} are needed)")
     out[0] = out[0][:2] + (dropped,) + out[0][3:]
     notes.setdefault("signed_columns", []).append(note)

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from . import regional
+from .limits import check_points, check_rows, clip
 from .maps import choose_kind, from_long_table, looks_like_map
 from .sweep import build_sweep
 
@@ -37,8 +38,15 @@ def sniff(source) -> bool:
 
 def read(source, settings, kind: str = "auto"):
     """A Sweep from an Ic(B) table, or an IVMap from a long table of bias and voltage."""
+    def bound(names, lines):
+        # Lines bound the rows: a table longer than allowed is refused before it is parsed.
+        if choose_kind(kind, settings, looks_like_map(names)) == "sweep":
+            check_rows(source.path, lines, settings)
+        else:
+            check_points(source.path, "the table's lines", (lines,), settings)
+
     metadata, columns, layout = read_table(decode(source.raw, source.path), source.path,
-                                           settings.decimal)
+                                           settings.decimal, bound)
     if choose_kind(kind, settings, looks_like_map(columns)) == "map":
         return from_long_table(columns, source=source.path, sha256=source.sha256,
                                metadata=metadata, settings=settings)
@@ -47,7 +55,13 @@ def read(source, settings, kind: str = "auto"):
 
 
 def decode(raw: bytes, source: str) -> str:
-    """Text of a file, UTF-8 (with or without BOM) or else Latin-1."""
+    """Text of a file: UTF-16 with its BOM, UTF-8 (with or without BOM) or else Latin-1."""
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):  # spreadsheets' "Unicode text"
+        try:
+            return raw.decode("utf-16")
+        except UnicodeDecodeError:
+            raise InputError(f"{source}: starts as UTF-16 text but is not; save it as UTF-8 "
+                             "text") from None
     if b"\x00" in raw[:4096]:
         from .registry import not_read_message
 
@@ -125,8 +139,13 @@ def parse_table(text: str, source: str, decimal: str | None = None) -> tuple[dic
     return metadata, columns
 
 
-def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict, dict, dict]:
-    """:func:`parse_table`, and what was found about the layout (decimal comma, units row)."""
+def read_table(text: str, source: str, decimal: str | None = None,
+               bound=None) -> tuple[dict, dict, dict]:
+    """:func:`parse_table`, and what was found about the layout (decimal comma, units row).
+
+    ``bound(names, lines)``, when given, may refuse the table from its header and its
+    number of lines before the rows are parsed.
+    """
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
     metadata, header_no, header, start = _head(text, source)
@@ -139,8 +158,10 @@ def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict
         raise InputError(f"{source}: line {header_no} is numbers, not a header; add a header "
                          "row such as 'B (mT), Ic (uA)'")
     if len(names) < 2:
-        raise InputError(f"{source}: only one column ({names[0]!r}); a sweep needs a field "
+        raise InputError(f"{source}: only one column ({clip(names[0])}); a sweep needs a field "
                          "column and at least one critical-current column")
+    if bound is not None:
+        bound(names, text.count("\n", start) + (not text.endswith("\n")))
     layout = {}
     line, after = _next_line(text, start)
     units = None if line is None else regional.units_row(line, delim, len(names))
@@ -150,7 +171,7 @@ def read_table(text: str, source: str, decimal: str | None = None) -> tuple[dict
         # The units row is blanked in place, so line numbers still count.
         text = text[:start] + "\n" * text.count("\n", start, after) + text[after:]
     if len(set(names)) < len(names):
-        raise InputError(f"{source}: the header repeats a column name: {header!r}")
+        raise InputError(f"{source}: the header repeats a column name: {clip(header)}")
     body = text[start:]
     if "#" in body:
         body = _COMMENT_LINE.sub("", body)  # blanked, so line numbers still count
@@ -296,5 +317,5 @@ class _Rows:
         if bad.size == 0:
             return values
         cell = text.iloc[bad[0]]
-        return (f"{self.source}: {self._where(bad[0])}, column {name!r}: {cell!r} is not a "
+        return (f"{self.source}: {self._where(bad[0])}, column {clip(name)}: {clip(cell)} is not a "
                 "number; expected a header row followed by rows of numbers")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import re
 
 from ..errors import InputError
+from .limits import clip
 
 #: Factor to tesla. Oersted is taken as mu0*H, for which 1 Oe corresponds to 1e-4 T.
 FIELD_UNITS = {
@@ -60,7 +61,7 @@ def factor(unit: str, table: dict, what: str, where: str, help_text: str, option
     key = normalise_unit(unit)
     if key not in table:
         raise InputError(
-            f"{where}: unknown {what} unit {unit!r}; use {help_text}, or pass {option}"
+            f"{where}: unknown {what} unit {clip(unit)}; use {help_text}, or pass {option}"
         )
     return table[key]
 
@@ -89,14 +90,14 @@ def resistance_factor(unit: str, where: str) -> float:
 def coil_constant_T_per_A(text: str) -> float:
     """Parse a magnet coil constant such as ``'2.5mT/A'``, ``'25 G/A'`` or ``'0.1 T/mA'``."""
     match = _COIL.match(text or "")
-    where = f"--coil-constant {text!r}"
+    where = f"--coil-constant {clip(text)}"
     if not match:
         raise InputError(f"{where}: write it as a number, a field unit, '/' and a current "
                          "unit, e.g. 2.5mT/A")
     try:
         value = float(match.group("value"))
     except ValueError:
-        raise InputError(f"{where}: {match.group('value')!r} is not a number") from None
+        raise InputError(f"{where}: {clip(match.group('value'))} is not a number") from None
     per = field_factor(match.group("field"), where) / current_factor(match.group("current"),
                                                                     where)
     if not value > 0:
@@ -113,7 +114,7 @@ def parse_field_interval(text: str, option: str) -> tuple[float | None, float | 
     A unit written on one end only applies to both; an empty end is open
     (``None``). ``option`` names the command-line option in messages.
     """
-    where = f"{option} {text!r}"
+    where = f"{option} {clip(text)}"
     parts = str(text).split(":")
     if len(parts) != 2 or not (parts[0].strip() or parts[1].strip()):
         raise InputError(f"{where}: write it as LO:HI with a field unit, e.g. -2:2mT or "
@@ -130,7 +131,7 @@ def parse_field_interval(text: str, option: str) -> tuple[float | None, float | 
         except ValueError:
             value = None
         if value is None:
-            raise InputError(f"{where}: {part!r} is not a number with a field unit; write "
+            raise InputError(f"{where}: {clip(part)} is not a number with a field unit; write "
                              "e.g. -2:2mT")
         ends.append((value, match.group("unit")))
     units = {u for _, u in ends if u}
