@@ -33,7 +33,9 @@ class _Visible(HTMLParser):
 
     def handle_starttag(self, tag, attrs):
         attrs = dict(attrs)
-        if tag == "style":
+        # The settings document in <pre> is machine-readable JSON kept exact so that the
+        # run can be repeated (byte limits such as 268435456 included): not prose.
+        if tag in ("style", "pre"):
             self._style += 1
         if tag == "table":
             self.tables.append(any(t == ("div", "table-wrap") for t in self._stack[-1:]))
@@ -43,7 +45,7 @@ class _Visible(HTMLParser):
             self._stack.append((tag, attrs.get("class") or ""))
 
     def handle_endtag(self, tag):
-        if tag == "style":
+        if tag in ("style", "pre"):
             self._style -= 1
         if tag == "span" and self._span is not None:
             self.headings.append("".join(self._span))
