@@ -38,6 +38,11 @@ class Deviation:
     def at(self, rows, cols):
         return np.abs(self.signal[rows, cols] - self.offset[rows, 0])
 
+    def above_at(self, rows, cols, level):
+        """:meth:`above` at single points (``level`` per point), by the same comparisons."""
+        v, o = self.signal[rows, cols], self.offset[rows, 0]
+        return (v > o + level) | (v < o - level)
+
 
 @dataclass(frozen=True)
 class Segment:
@@ -89,6 +94,22 @@ def select(bias_A, predicate, all_finite=False) -> Segment:
         return Segment(mask=predicate(bias_A), all_finite=all_finite)
 
 
+#: Elements per block of rows in the searches: a block's masks stay in the processor's
+#: cache, so a search reads the map once and never writes a map-sized temporary.
+BLOCK = 1 << 17
+
+
+def row_blocks(n_rows, n_cols):
+    """``(start, stop)`` of consecutive row blocks of about :data:`BLOCK` elements."""
+    step = max(1, BLOCK // max(n_cols, 1))
+    return [(r, min(r + step, n_rows)) for r in range(0, n_rows, step)]
+
+
+def nanmedian_rows(a):
+    """Median of the finite entries of each row of ``a`` (2-D), vectorised."""
+    return _row_median(a, np.isfinite(a))
+
+
 def sample_rows(n_rows, at_most=128) -> int:
     """Row step that keeps at most ``at_most`` rows for a map-wide estimate."""
     return max(1, int(np.ceil(n_rows / at_most)))
@@ -105,7 +126,7 @@ def directions(b):
     step = np.diff(mag, axis=1)
     arriving = np.concatenate([step[:, :1], step], axis=1)
     with np.errstate(invalid="ignore"):
-        usual = np.nanmedian(np.abs(step), axis=1, keepdims=True)
+        usual = nanmedian_rows(np.abs(step))[:, None]
         jump = np.abs(arriving) > 5.0 * usual
     return (arriving > 0) & ~jump, (arriving < 0) & ~jump
 
@@ -152,10 +173,16 @@ def row_offset(signal, bias_A, noise=None):
     rows = np.flatnonzero(np.count_nonzero(far & valid, axis=1) > 0.2 * valid.sum(axis=1))
     if rows.size == 0:
         return offset
+    if seg.cols is not None and valid.strides == (0, 0):
+        # One bias row and no gaps: the points next to zero are the same columns in every row.
+        b = np.abs(seg.bias(bias_A)[0])
+        close = b <= b.min() + 1.01 * np.median(np.abs(np.diff(b)))
+        offset[rows] = np.median(sub[rows][:, close], axis=1)
+        return offset
     v, ok, b = sub[rows], np.broadcast_to(valid, sub.shape)[rows], np.abs(seg.bias(bias_A)[rows])
     with np.errstate(all="ignore"):
         nearest = np.min(np.where(ok, b, np.inf), axis=1, keepdims=True)
-        step = np.nanmedian(np.abs(np.diff(b, axis=1)), axis=1, keepdims=True)
+        step = nanmedian_rows(np.abs(np.diff(b, axis=1)))[:, None]
         close = ok & (b <= nearest + 1.01 * step)
     local = _row_median(v, close)
     offset[rows] = np.where(np.isfinite(local), local, offset[rows])
@@ -209,19 +236,14 @@ def differential(signal, bias_A, window=7):
     window = max(5, window | 1)
     if signal.shape[1] < window:
         return np.gradient(signal, axis=1) / np.gradient(bias_A, axis=1)
-    finite = np.isfinite(signal)
-    dense = bool(finite.all())
+    dense = all_finite(signal)
     coeffs = sps.savgol_coeffs(window, 2, deriv=1, use="conv")
     source = signal if dense else _fill_nan(signal)
     dv = ndimage.convolve1d(source, coeffs, axis=1, mode="nearest")
     one_row = shared(bias_A)
     b = bias_A[:1] if one_row else _fill_nan(bias_A)
     db = ndimage.convolve1d(b, coeffs, axis=1, mode="nearest")
-    step = np.sign(np.diff(b, axis=1))
-    turn = np.zeros(b.shape, dtype=bool)
-    turn[:, 1:-1] = step[:, 1:] != step[:, :-1]
-    turn[:, 0] = turn[:, -1] = True
-    near_turn = np.convolve(turn.ravel(), np.ones(window), mode="same").reshape(b.shape) > 0
+    near_turn = near_turns(b, window)
     with np.errstate(all="ignore"):
         out = np.divide(dv, db, out=dv)
     if one_row:
@@ -229,8 +251,34 @@ def differential(signal, bias_A, window=7):
     else:
         out[near_turn] = np.nan
     if not dense:
-        out[~finite] = np.nan
+        out[~np.isfinite(signal)] = np.nan
     return out
+
+
+def all_finite(a) -> bool:
+    """True when every entry of ``a`` is finite: one sum, no map-sized mask.
+
+    A NaN or an infinity makes the sum non-finite; only a sum that overflows
+    needs the entry-by-entry check.
+    """
+    with np.errstate(all="ignore"):
+        if np.isfinite(np.sum(a)):
+            return True
+    return bool(np.isfinite(a).all())
+
+
+def near_turns(b, window=7):
+    """Mask of points within half a ``window`` of a turn or an end of each bias row ``b``.
+
+    There the derivative of :func:`differential` is NaN; the engine leaves these
+    points out of its segments so that a dense map stays on the dense path.
+    """
+    window = max(5, window | 1)
+    step = np.sign(np.diff(b, axis=1))
+    turn = np.zeros(b.shape, dtype=bool)
+    turn[:, 1:-1] = step[:, 1:] != step[:, :-1]
+    turn[:, 0] = turn[:, -1] = True
+    return np.convolve(turn.ravel(), np.ones(window), mode="same").reshape(b.shape) > 0
 
 
 def _fill_nan(a):
@@ -249,6 +297,39 @@ def first_true(mask):
     """Index of the first True per row and whether there is one (one pass over the mask)."""
     k = np.argmax(mask, axis=1)
     return k, mask[np.arange(mask.shape[0]), k]
+
+
+#: Every this many columns a first look: the full search then stops at the first hit.
+COARSE = 32
+
+
+def _first_in_order(search, n, forward):
+    """First True per row of a block, in column order (``forward``) or from the end.
+
+    ``search(cols)`` gives ``first_true`` of the block's mask over the column
+    slice ``cols``. Every ``COARSE``-th column is looked at first; the first True is
+    at or before the first one seen there, so only the columns up to it are read
+    (all of them for rows with none). The answer is exactly that of one full pass;
+    from the end it counts from the last column.
+    """
+    def cols(start, stop, step=1):
+        if forward:
+            return slice(start, stop, step)
+        # Column j from the end is n - 1 - j; the stop maps past the first column.
+        return slice(n - 1 - start, None if stop >= n else n - 1 - stop, -step)
+
+    seen_k, seen = search(cols(0, n, COARSE))
+    if not seen.any():
+        return search(cols(0, n))
+    stop = int(seen_k[seen].max()) * COARSE + 1
+    k, found = search(cols(0, stop))
+    rest = ~found & ~seen
+    if rest.any() and stop < n:
+        # Rows with no hit in the first look: the remaining columns.
+        k_rest, f_rest = search(cols(stop, n))
+        k = np.where(rest & f_rest, k_rest + stop, k)
+        found = found | (rest & f_rest)
+    return k, found
 
 
 def _nothing(n_rows):
@@ -280,26 +361,44 @@ def crossing(level, quantity, bias_A, candidates, upward=True, shape=None, noise
     level = np.broadcast_to(np.asarray(level, dtype=float), rows.shape)[:, None]
     everywhere = isinstance(candidates, np.ndarray) and candidates.strides == (0, 0)
     if isinstance(quantity, Deviation):
-        above = quantity.above(level)
         value_at = quantity.at
-    else:
-        above = quantity > level
 
+        def above_block(r0, r1, cols):
+            return Deviation(quantity.signal[r0:r1, cols], quantity.offset[r0:r1]).above(
+                level[r0:r1])
+
+        def above_at(r, c):
+            return quantity.above_at(r, c, level[r, 0])
+    else:
         def value_at(r, c):
             return quantity[r, c]
-    if not everywhere:
-        above &= candidates
+
+        def above_block(r0, r1, cols):
+            return quantity[r0:r1, cols] > level[r0:r1]
+
+        def above_at(r, c):
+            return quantity[r, c] > level[r, 0]
     n = quantity.shape[1]
+    k, found = np.empty(rows.size, dtype=np.intp), np.empty(rows.size, dtype=bool)
+    for r0, r1 in row_blocks(rows.size, n):
+        def search(cols, r0=r0, r1=r1):
+            above = above_block(r0, r1, cols)
+            if not everywhere:
+                above &= candidates[r0:r1, cols]
+            return first_true(above)
+        k[r0:r1], found[r0:r1] = _first_in_order(search, n, upward)
     if upward:
-        k, found = first_true(above)
         other = k - 1
     else:
-        last, found = first_true(above[:, ::-1])
-        k = n - 1 - last
+        k = n - 1 - k
         other = k + 1
+
+    def above_point(r, c):
+        return above_at(r, c) & (True if everywhere else candidates[r, c])
+
     inside = (other >= 0) & (other < n)
     other = np.clip(other, 0, n - 1)
-    bracketed = found & inside & candidates[rows, other] & ~above[rows, other]
+    bracketed = found & inside & candidates[rows, other] & ~above_point(rows, other)
     b0, b1 = np.abs(bias_A[rows, other]), np.abs(bias_A[rows, k])
     q0, q1 = value_at(rows, other), value_at(rows, k)
     if shape is None:
@@ -319,7 +418,7 @@ def crossing(level, quantity, bias_A, candidates, upward=True, shape=None, noise
         q0 = np.where(first_step, 0.0, q0)
         bracketed = bracketed | first_step
         inner, spread, _ = shaped_crossing(
-            SHAPES[shape], level[:, 0], value_at, lambda c: above[rows, c], rows, k,
+            SHAPES[shape], level[:, 0], value_at, lambda c: above_point(rows, c), rows, k,
             b0, b1, q0, q1, bias_A, 1 if upward else -1, noise)
     current = np.where(bracketed, inner, np.where(found, b1, np.nan))
     return current, found, found & ~bracketed, np.where(bracketed, spread, np.nan)
@@ -335,18 +434,26 @@ def peak(quantity, bias_A, candidates):
     if quantity.shape[1] == 0:
         return _nothing(quantity.shape[0])
     rows = np.arange(quantity.shape[0])
-    masked = np.where(candidates, quantity, -np.inf)  # candidates are finite points
-    k = np.argmax(masked, axis=1)
-    found = np.isfinite(masked[rows, k])
     n = quantity.shape[1]
+    everywhere = isinstance(candidates, np.ndarray) and candidates.strides == (0, 0)
+    k = np.empty(rows.size, dtype=np.intp)
+    for r0, r1 in row_blocks(rows.size, n):
+        block = quantity[r0:r1] if everywhere else np.where(candidates[r0:r1],
+                                                            quantity[r0:r1], -np.inf)
+        k[r0:r1] = np.argmax(block, axis=1)
+
+    def masked(c):
+        return np.where(candidates[rows, c], quantity[rows, c], -np.inf)
+
+    found = np.isfinite(masked(k))
     lo, hi = np.clip(k - 1, 0, n - 1), np.clip(k + 1, 0, n - 1)
     inner = (k > 0) & (k < n - 1) & candidates[rows, lo] & candidates[rows, hi]
-    y0, y1, y2 = masked[rows, lo], masked[rows, k], masked[rows, hi]
+    y0, y1, y2 = masked(lo), masked(k), masked(hi)
     with np.errstate(all="ignore"):
         denom = y0 - 2 * y1 + y2
         shift = np.where(inner & (denom < 0), 0.5 * (y0 - y2) / denom, 0.0)
-    b = np.abs(bias_A)
-    step = np.where(shift >= 0, b[rows, hi] - b[rows, k], b[rows, k] - b[rows, lo])
-    current = np.where(found, b[rows, k] + np.clip(shift, -1, 1) * step, np.nan)
-    spread = np.where(found, np.abs(b[rows, hi] - b[rows, lo]) / (2.0 * np.sqrt(12.0)), np.nan)
+    b_lo, b_k, b_hi = (np.abs(bias_A[rows, c]) for c in (lo, k, hi))
+    step = np.where(shift >= 0, b_hi - b_k, b_k - b_lo)
+    current = np.where(found, b_k + np.clip(shift, -1, 1) * step, np.nan)
+    spread = np.where(found, np.abs(b_hi - b_lo) / (2.0 * np.sqrt(12.0)), np.nan)
     return current, found, found & ~inner, spread
