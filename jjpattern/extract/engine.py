@@ -10,6 +10,7 @@ criterion) comes from :mod:`.registry`; this module only walks the sweeps.
 from __future__ import annotations
 
 import warnings
+from collections import Counter
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -60,8 +61,8 @@ class BranchExtraction:
     phase_diffusion: dict | None = None
 
     def counts(self) -> dict:
-        values, counts = np.unique(self.status, return_counts=True)
-        return {str(v): int(c) for v, c in zip(values, counts, strict=True)}
+        # A Counter over the labels: np.unique sorts the object array in Python.
+        return {str(v): int(c) for v, c in sorted(Counter(self.status.tolist()).items())}
 
 
 @dataclass
