@@ -234,6 +234,8 @@ def differential(signal, bias_A, window=7):
     map-sized array.
     """
     window = max(5, window | 1)
+    if signal.shape[1] < 2:  # one bias point has no derivative
+        return np.full(signal.shape, np.nan)
     if signal.shape[1] < window:
         return np.gradient(signal, axis=1) / np.gradient(bias_A, axis=1)
     dense = all_finite(signal)
@@ -274,6 +276,8 @@ def near_turns(b, window=7):
     points out of its segments so that a dense map stays on the dense path.
     """
     window = max(5, window | 1)
+    if b.shape[1] < window:  # too short for the filter: differential() takes a gradient
+        return np.zeros(b.shape, dtype=bool)
     step = np.sign(np.diff(b, axis=1))
     turn = np.zeros(b.shape, dtype=bool)
     turn[:, 1:-1] = step[:, 1:] != step[:, :-1]
