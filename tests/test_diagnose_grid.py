@@ -71,3 +71,18 @@ def test_memory_is_bounded_whatever_the_sampling(method):
     assert np.all(np.isfinite(d["j"]))
     grid = _grid(field / 1e-3, ic, method == "symmetric")[0]
     assert grid.size <= MAX_GRID + 1
+
+
+@pytest.mark.parametrize("n", [0, 1, 2, 3, 10, 101, 1800])
+@pytest.mark.parametrize("alpha", [0.0, 0.4, 1.0])
+def test_window_and_minima_match_scipy(n, alpha):
+    # The reconstruction writes these out so the analysis does not import scipy.signal;
+    # scipy.signal's own functions are the reference.
+    from scipy import signal
+
+    from jjpattern.diagnose.reconstruct import local_minima, tukey
+
+    assert np.allclose(tukey(n, alpha), signal.windows.tukey(n, alpha), atol=1e-15)
+    seq = np.round(np.random.default_rng(n).normal(size=n), 1)  # ties too
+    for order in (1, 3):
+        assert np.array_equal(local_minima(seq, order), signal.argrelmin(seq, order=order)[0])

@@ -21,7 +21,6 @@ the measured noise with a seeded generator.
 from __future__ import annotations
 
 import numpy as np
-from scipy import signal as sps
 
 #: Fraction of the field range tapered by the Tukey window.
 WINDOW_ALPHA = 0.4
@@ -32,6 +31,38 @@ X_SPAN = 0.75
 GRID_STEP = 0.01
 #: Most points of the u grid: a bound on time and memory whatever the sampling.
 MAX_GRID = 2**14
+
+
+def tukey(n, alpha):
+    """Tukey (tapered cosine) window of ``n`` points, a fraction ``alpha`` of it tapered.
+
+    The definition of Harris, Proc. IEEE 66, 51 (1978), as scipy.signal.windows.tukey
+    computes it (symmetric); written out so the analysis does not import scipy.signal.
+    """
+    if n <= 1:
+        return np.ones(n)
+    if alpha <= 0:
+        return np.ones(n)
+    k = np.arange(n)
+    width = int(np.floor(alpha * (n - 1) / 2.0))
+    w = np.ones(n)
+    head, tail = k[:width + 1], k[n - width - 1:]
+    w[:width + 1] = 0.5 * (1 + np.cos(np.pi * (-1 + 2.0 * head / alpha / (n - 1))))
+    w[n - width - 1:] = 0.5 * (1 + np.cos(np.pi * (-2.0 / alpha + 1 + 2.0 * tail / alpha
+                                                   / (n - 1))))
+    return w
+
+
+def local_minima(seq, order=1):
+    """Indices of points strictly below their ``order`` neighbours on each side (ends
+    compared with themselves, so never minima), as scipy.signal.argrelmin."""
+    n = seq.size
+    k = np.arange(n)
+    keep = np.ones(n, dtype=bool)
+    for shift in range(1, order + 1):
+        keep &= seq < seq[np.minimum(k + shift, n - 1)]
+        keep &= seq < seq[np.maximum(k - shift, 0)]
+    return np.flatnonzero(keep)
 
 
 def node_signs(u, ic, smooth=0.1):
@@ -52,7 +83,7 @@ def node_signs(u, ic, smooth=0.1):
         if idx.size < 3:
             continue
         seq = level[idx]
-        minima = sps.argrelmin(seq, order=max(1, width // 2))[0]
+        minima = local_minima(seq, order=max(1, width // 2))
         flips = np.zeros(idx.size)
         peak_before = np.maximum.accumulate(seq)
         step = max(1, int(round(0.1 / du)))
@@ -225,7 +256,7 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
     ic = np.asarray(ic_A, dtype=float)
     symmetric = method == "symmetric"
     grid, values, du, counts = _grid(u, ic, symmetric)
-    window = sps.windows.tukey(grid.size, WINDOW_ALPHA)
+    window = tukey(grid.size, WINDOW_ALPHA)
     x = np.linspace(-X_SPAN, X_SPAN, n_x)
     signs = node_signs(grid, values)
     _, flat, _, _ = _grid(u, _uniform_pattern(field_T, period_T, field_offset_T, model),
