@@ -469,6 +469,18 @@ def run_demo(args) -> int:
     return EXIT_OK
 
 
+def _one_blas_thread() -> None:
+    """BLAS and OpenMP pools to one thread unless the user set them, in a process the
+    command line started (numpy not yet imported): the products of one analysis are
+    small and further threads only spin, about doubling the CPU time."""
+    if "numpy" in sys.modules:
+        return
+    from .batch.worker import THREAD_VARIABLES
+
+    for name in THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
+
+
 def main(argv=None) -> int:
     parser = build_parser()
     argv = sys.argv[1:] if argv is None else list(argv)
@@ -477,6 +489,7 @@ def main(argv=None) -> int:
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT
+    _one_blas_thread()
     handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
                 "batch": run_batch, "demo": run_demo}
     return run_guarded(getattr(args, "handler", handlers.get(args.command)), args)

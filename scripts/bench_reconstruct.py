@@ -22,7 +22,6 @@ import os
 import time
 
 import numpy as np
-from scipy import signal as sps
 
 from jjpattern.diagnose import reconstruct as rc
 from jjpattern.synthetic import profile_case
@@ -42,8 +41,8 @@ def support_loop(field_T, ic_A, period_T, offset_T, noise_A, rng, resamples=200,
                  iterations=150):
     """The former ``reconstruct(..., method='support')`` up to the band (profile, band)."""
     u = (np.asarray(field_T) - offset_T) / period_T
-    grid, values, du = rc._grid(u, np.asarray(ic_A, dtype=float), False)
-    window = sps.windows.tukey(grid.size, rc.WINDOW_ALPHA)
+    grid, values, du, _ = rc._grid(u, np.asarray(ic_A, dtype=float), False)
+    window = rc.tukey(grid.size, rc.WINDOW_ALPHA)
     x = np.linspace(-rc.X_SPAN, rc.X_SPAN, n_x)
     inverse = np.exp(-2j * np.pi * np.outer(x, grid)) * du
     signs = rc.node_signs(grid, values)

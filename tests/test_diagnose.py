@@ -147,6 +147,28 @@ def test_period_drift_from_a_nonlinear_field_axis():
     assert "period-drift" not in _codes(_analyse(case))
 
 
+def test_no_period_drift_on_exact_patterns():
+    # Exact |sinc| (Fraunhofer, common practice) without noise: both halves fit the same
+    # period to 1e-15 of it, and the standard errors of rounding residuals made that
+    # 37-41 "sigmas". The difference must also be material (over 0.5 % of the period).
+    from jjpattern.diagnose.run import _half_periods
+    from jjpattern.diagnose.shape import DRIFT_FRACTION, drift_flag
+    from jjpattern.fit.engine import fit_pattern
+
+    for n, lobes, offset in ((1360, 10, 0.4182), (632, 4, -0.2739), (1282, 7, 0.0401)):
+        field = np.linspace(-(lobes + 1) * 1e-3, (lobes + 1) * 1e-3, n) + offset * 1e-3
+        ic = 1e-6 * np.abs(np.sinc((field - offset * 1e-3) / 1e-3))
+        fit = fit_pattern(field, ic)
+        halves = _half_periods(fit)
+        assert abs(halves[0][0] - halves[1][0]) < 1e-12 * fit.period_T
+        assert drift_flag(fit, halves) == []
+    # Beyond the fraction and the standard errors it is raised, with both in evidence.
+    flag, = drift_flag(fit, [(1e-3, 1e-6), (1e-3 * (1 + 2 * DRIFT_FRACTION), 1e-6)])
+    assert flag.evidence["relative_difference"] == pytest.approx(2 * DRIFT_FRACTION, rel=0.01)
+    assert flag.evidence["difference_sigmas"] == pytest.approx(1e-5 / np.hypot(1e-6, 1e-6),
+                                                               abs=0.01)
+
+
 def test_long_junction_from_geometry_and_jc():
     rng = np.random.default_rng(7)
     case = profile_case(rng, "uniform", lobes=4, n_points=600, noise_fraction=0.01)

@@ -305,3 +305,15 @@ def test_any_long_table_loads_or_gives_input_error(tmp_path, rows):
         extract(load_map(path))
     except InputError:
         pass
+
+
+def test_one_bias_point_has_no_derivative():
+    # Found by the property test above: a single bias column crashed np.gradient.
+    signal = np.zeros((10, 1))
+    ivmap = IVMap("one", None, np.linspace(-1e-3, 1e-3, 10),
+                  np.broadcast_to(np.array([-1e-5]), signal.shape), signal, "voltage")
+    result = extract(ivmap, criterion="dvdi-peak")
+    for branch in result.branches:
+        assert not np.any(branch.status == "ok")
+    with pytest.raises(InputError, match="field rows gave a critical current"):
+        result.to_sweep()

@@ -97,3 +97,22 @@ def test_numbers_of_an_exact_top_hat():
     assert numbers["edge_fraction_left"] == pytest.approx(0.1, abs=1e-12)
     assert numbers["edge_fraction_right"] == pytest.approx(0.1, abs=1e-12)
     assert numbers["nonuniformity"] == pytest.approx(0.0, abs=1e-12)
+
+
+def test_diagnose_reads_a_fitted_disc_against_a_uniform_disc():
+    # Through the fit: a circular fit's density is read against a uniform disc (0.104 in
+    # each outer 10 %, the circular segment), not against a rectangle (about 0.19).
+    from jjpattern.diagnose.run import diagnose
+    from jjpattern.fit.engine import fit_pattern
+
+    rng = np.random.default_rng(55)
+    field = np.linspace(-8e-3, 8e-3, 1200) + 0.1e-3
+    u = (field - 0.1e-3) / 1e-3
+    ic = 1e-6 * np.abs(2 * special.j1(np.pi * u) / (np.pi * u))
+    ic = np.abs(ic + rng.normal(0, 0.003e-6, ic.size))
+    fit = fit_pattern(field, ic, geometry="circular")
+    d = diagnose([fit])["current_density"]["positive"]
+    ref = d["uniform_reference"]
+    assert ref["model"] == "circular"
+    assert ref["edge_fraction"] == pytest.approx(_segment_fraction(), abs=0.03)
+    assert d["edge_fraction"] == pytest.approx(ref["edge_fraction"], abs=0.01)

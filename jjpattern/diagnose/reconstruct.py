@@ -21,12 +21,48 @@ the measured noise with a seeded generator.
 from __future__ import annotations
 
 import numpy as np
-from scipy import signal as sps
 
 #: Fraction of the field range tapered by the Tukey window.
 WINDOW_ALPHA = 0.4
 #: x grid of the reported profile, in junction lengths (a margin shows any leakage).
 X_SPAN = 0.75
+#: Finest step of the u grid, in periods: a hundred per period resolve a lobe (the
+#: integrand turns over no faster than once in 1.3 periods inside X_SPAN).
+GRID_STEP = 0.01
+#: Most points of the u grid: a bound on time and memory whatever the sampling.
+MAX_GRID = 2**14
+
+
+def tukey(n, alpha):
+    """Tukey (tapered cosine) window of ``n`` points, a fraction ``alpha`` of it tapered.
+
+    The definition of Harris, Proc. IEEE 66, 51 (1978), as scipy.signal.windows.tukey
+    computes it (symmetric); written out so the analysis does not import scipy.signal.
+    """
+    if n <= 1:
+        return np.ones(n)
+    if alpha <= 0:
+        return np.ones(n)
+    k = np.arange(n)
+    width = int(np.floor(alpha * (n - 1) / 2.0))
+    w = np.ones(n)
+    head, tail = k[:width + 1], k[n - width - 1:]
+    w[:width + 1] = 0.5 * (1 + np.cos(np.pi * (-1 + 2.0 * head / alpha / (n - 1))))
+    w[n - width - 1:] = 0.5 * (1 + np.cos(np.pi * (-2.0 / alpha + 1 + 2.0 * tail / alpha
+                                                   / (n - 1))))
+    return w
+
+
+def local_minima(seq, order=1):
+    """Indices of points strictly below their ``order`` neighbours on each side (ends
+    compared with themselves, so never minima), as scipy.signal.argrelmin."""
+    n = seq.size
+    k = np.arange(n)
+    keep = np.ones(n, dtype=bool)
+    for shift in range(1, order + 1):
+        keep &= seq < seq[np.minimum(k + shift, n - 1)]
+        keep &= seq < seq[np.maximum(k - shift, 0)]
+    return np.flatnonzero(keep)
 
 
 def node_signs(u, ic, smooth=0.1):
@@ -47,7 +83,7 @@ def node_signs(u, ic, smooth=0.1):
         if idx.size < 3:
             continue
         seq = level[idx]
-        minima = sps.argrelmin(seq, order=max(1, width // 2))[0]
+        minima = local_minima(seq, order=max(1, width // 2))
         flips = np.zeros(idx.size)
         peak_before = np.maximum.accumulate(seq)
         step = max(1, int(round(0.1 / du)))
@@ -67,18 +103,53 @@ def node_signs(u, ic, smooth=0.1):
 
 
 def _grid(u, ic, symmetric):
-    """Uniform u grid; for the symmetric method the mirror-averaged half-range."""
+    """Uniform u grid, the values on it and the number of points behind each value.
+
+    The step is the median sampling step, but never finer than :data:`GRID_STEP`
+    (finer data are averaged in bins of one step, which keeps their noise
+    averaged rather than dropped) nor so fine that the grid exceeds
+    :data:`MAX_GRID` points: the grid follows the resolution, not the number of
+    points. The symmetric method's grid is symmetric about u = 0 over the
+    mirror-averaged half-range. Returns ``(grid, values, step, counts)``.
+    """
     du = float(np.median(np.diff(u)))
     if symmetric:
         top = min(u.max(), -u.min())
         if top <= 2 * du:
             top = max(u.max(), -u.min())
-        grid = np.arange(-top, top + du / 2, du)
-        values = 0.5 * (np.interp(grid, u, ic) + np.interp(-grid, u, ic))
+        lo, hi = -top, top
     else:
-        grid = np.arange(u.min(), u.max() + du / 2, du)
-        values = np.interp(grid, u, ic)
-    return grid, values, du
+        lo, hi = float(u.min()), float(u.max())
+    step = max(du, GRID_STEP, (hi - lo) / MAX_GRID)
+    if symmetric:
+        half = int(np.floor(top / step + 1e-9))
+        grid = step * np.arange(-half, half + 1)
+    else:
+        grid = lo + step * np.arange(int(np.floor((hi - lo) / step + 1e-9)) + 1)
+    if step == du:
+        at, means, counts = u, ic, np.ones(grid.size)
+    else:
+        k = np.rint((u - grid[0]) / step).astype(np.intp)
+        keep = (k >= 0) & (k < grid.size)
+        k, n = k[keep], np.bincount(k[keep], minlength=grid.size)
+        filled = n > 0
+        at = np.bincount(k, weights=u[keep], minlength=grid.size)[filled] / n[filled]
+        means = np.bincount(k, weights=ic[keep], minlength=grid.size)[filled] / n[filled]
+        # An empty bin holds an interpolated value: as noisy as one neighbouring bin.
+        counts = np.interp(grid, grid[filled], n[filled].astype(float))
+    values = np.interp(grid, at, means)
+    if symmetric:
+        values = 0.5 * (values + values[::-1])
+    return grid, values, step, counts
+
+
+def _even_transform(g, u, x, du):
+    """``sum_u G(u) cos(2 pi u x) du`` for a G even in u, from its half ``g`` (m, n) on
+    ``u = 0, du, 2 du, ...``, at ``x`` symmetric about 0: both halves folded, (m, n_x)."""
+    right = x[x.size // 2:]
+    cosine = np.cos(2.0 * np.pi * np.outer(u[1:], right))
+    half = (g[:, :1] + 2.0 * (g[:, 1:] @ cosine)) * du
+    return np.concatenate([half[:, ::-1][:, :x.size // 2], half], axis=1)
 
 
 class _MirrorTransform:
@@ -184,36 +255,40 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
     u = (np.asarray(field_T) - field_offset_T) / period_T
     ic = np.asarray(ic_A, dtype=float)
     symmetric = method == "symmetric"
-    grid, values, du = _grid(u, ic, symmetric)
-    window = sps.windows.tukey(grid.size, WINDOW_ALPHA)
+    grid, values, du, counts = _grid(u, ic, symmetric)
+    window = tukey(grid.size, WINDOW_ALPHA)
     x = np.linspace(-X_SPAN, X_SPAN, n_x)
-    phase = 2.0 * np.pi * np.outer(grid, x)
-    # J(x) = Re sum_u F(u) exp(-2 pi i u x) du: for a real F only the cosine counts.
-    cosine = np.cos(phase)
     signs = node_signs(grid, values)
-    _, flat, _ = _grid(u, _uniform_pattern(field_T, period_T, field_offset_T, model),
-                       symmetric)
+    _, flat, _, _ = _grid(u, _uniform_pattern(field_T, period_T, field_offset_T, model),
+                          symmetric)
     flat_signs = node_signs(grid, flat)
-    # Mirror averaging halves the variance of each point of the symmetric method.
-    scale = noise_A / np.sqrt(2.0) if symmetric else noise_A
+    sigma = noise_A / np.sqrt(counts)  # noise of each grid value
     if symmetric:
-        j = (values * signs * window) @ cosine * du
-        j_flat = (flat * flat_signs * window) @ cosine * du
-        noisy = values[None, :] + rng.normal(0.0, scale, (resamples, values.size))
-        band = (noisy * signs * window) @ cosine * du
+        centre = grid.size // 2
+        taper = (signs * window)[centre:]
+        j, j_flat = _even_transform(np.stack([values[centre:] * taper,
+                                              flat[centre:] * flat_signs[centre:]
+                                              * window[centre:]]), grid[centre:], x, du)
+        # A mirror average and its mirror image are one number, so its noise (half the
+        # variance of the two values averaged) is drawn once for both.
+        spread = 0.5 * np.hypot(sigma[centre:], sigma[centre::-1])
+        spread[0] = sigma[centre]  # u = 0 is its own mirror image
+        noisy = values[centre:] + rng.normal(0.0, 1.0, (resamples, spread.size)) * spread
+        band = _even_transform(noisy * taper, grid[centre:], x, du)
     else:
         support = np.abs(x) <= 0.5
         transform = _MirrorTransform(grid, x[support], du)
         # A small tilt breaks the mirror symmetry of the start so the retrieval can move.
         tilt = 1.0 + 0.3 * x[support]
-        start = (values * signs * window) @ cosine[:, support] * du * tilt
+        starts = transform.inverse(np.stack([values * signs * window,
+                                             flat * flat_signs * window]),
+                                   np.zeros((2, grid.size))) * tilt
         j = np.zeros(n_x)
-        j[support] = _retrieve(values[None, :], transform, start, iterations)[0]
+        j[support] = _retrieve(values[None, :], transform, starts[0], iterations)[0]
         j_flat = np.zeros(n_x)
-        start = (flat * flat_signs * window) @ cosine[:, support] * du * tilt
-        j_flat[support] = _retrieve(flat[None, :], transform, start, iterations)[0]
+        j_flat[support] = _retrieve(flat[None, :], transform, starts[1], iterations)[0]
         count = min(resamples, 16)
-        noisy = values[None, :] + rng.normal(0.0, scale, (count, values.size))
+        noisy = values[None, :] + rng.normal(0.0, 1.0, (count, values.size)) * sigma
         # All resamples at once, each started from the profile found above.
         band = np.zeros((count, n_x))
         band[:, support] = _retrieve(np.abs(noisy), transform, j[support], iterations // 3)

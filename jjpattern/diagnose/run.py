@@ -55,8 +55,9 @@ def _half_periods(fit):
 
 
 def _density(fit, method, rng, resamples):
+    # Read against a uniform junction of the fitted model (a disc is not a rectangle).
     return reconstruct(fit.field_T, fit.ic_A, fit.period_T, fit.field_offset_T, fit.noise_A,
-                       rng, method=method, resamples=resamples)
+                       rng, method=method, resamples=resamples, model=fit.model)
 
 
 def geometry_block(fits, inputs: GeometryInputs) -> dict | None:

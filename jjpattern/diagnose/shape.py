@@ -35,8 +35,11 @@ EDGE_RATIO_HIGH = 1.8
 EDGE_RATIO_LOW = 0.65
 #: Branches differ when Ic0 or the offset differ by this many combined standard errors.
 BRANCH_SIGMAS = 5.0
-#: Periods of the two halves of the sweep differ by this many combined standard errors.
+#: Periods of the two halves of the sweep differ by this many combined standard errors ...
 DRIFT_SIGMAS = 5.0
+#: ... and by this fraction of the period (a noiseless pattern fits both halves to 1e-15,
+#: with standard errors from rounding residuals that make that many "sigmas").
+DRIFT_FRACTION = 0.005
 #: L / lambda_J above which the junction is not short.
 LONG_RATIO = 1.0
 
@@ -323,11 +326,13 @@ def drift_flag(fit, half_periods) -> list:
     if not (e1 and e2):
         return []
     sigma = float(np.hypot(e1, e2))
-    if abs(p1 - p2) <= DRIFT_SIGMAS * sigma:
+    relative = abs(p1 - p2) / (0.5 * (p1 + p2))
+    if abs(p1 - p2) <= DRIFT_SIGMAS * sigma or relative <= DRIFT_FRACTION:
         return []
     return [make_flag("period-drift", fit.branch, period_low_field_T=p1, period_high_field_T=p2,
                       difference_sigmas=round(abs(p1 - p2) / sigma, 2),
-                      threshold_sigmas=DRIFT_SIGMAS)]
+                      threshold_sigmas=DRIFT_SIGMAS, relative_difference=round(relative, 5),
+                      threshold_fraction=DRIFT_FRACTION)]
 
 
 def long_junction_flag(branch, length_m, josephson_depth_m, *, pattern_ratio=None,

@@ -38,6 +38,11 @@ class Deviation:
     def at(self, rows, cols):
         return np.abs(self.signal[rows, cols] - self.offset[rows, 0])
 
+    def above_at(self, rows, cols, level):
+        """:meth:`above` at single points (``level`` per point), by the same comparisons."""
+        v, o = self.signal[rows, cols], self.offset[rows, 0]
+        return (v > o + level) | (v < o - level)
+
 
 @dataclass(frozen=True)
 class Segment:
@@ -89,6 +94,11 @@ def select(bias_A, predicate, all_finite=False) -> Segment:
         return Segment(mask=predicate(bias_A), all_finite=all_finite)
 
 
+def nanmedian_rows(a):
+    """Median of the finite entries of each row of ``a`` (2-D), vectorised."""
+    return _row_median(a, np.isfinite(a))
+
+
 def sample_rows(n_rows, at_most=128) -> int:
     """Row step that keeps at most ``at_most`` rows for a map-wide estimate."""
     return max(1, int(np.ceil(n_rows / at_most)))
@@ -105,7 +115,7 @@ def directions(b):
     step = np.diff(mag, axis=1)
     arriving = np.concatenate([step[:, :1], step], axis=1)
     with np.errstate(invalid="ignore"):
-        usual = np.nanmedian(np.abs(step), axis=1, keepdims=True)
+        usual = nanmedian_rows(np.abs(step))[:, None]
         jump = np.abs(arriving) > 5.0 * usual
     return (arriving > 0) & ~jump, (arriving < 0) & ~jump
 
@@ -152,10 +162,16 @@ def row_offset(signal, bias_A, noise=None):
     rows = np.flatnonzero(np.count_nonzero(far & valid, axis=1) > 0.2 * valid.sum(axis=1))
     if rows.size == 0:
         return offset
+    if seg.cols is not None and valid.strides == (0, 0):
+        # One bias row and no gaps: the points next to zero are the same columns in every row.
+        b = np.abs(seg.bias(bias_A)[0])
+        close = b <= b.min() + 1.01 * np.median(np.abs(np.diff(b)))
+        offset[rows] = np.median(sub[rows][:, close], axis=1)
+        return offset
     v, ok, b = sub[rows], np.broadcast_to(valid, sub.shape)[rows], np.abs(seg.bias(bias_A)[rows])
     with np.errstate(all="ignore"):
         nearest = np.min(np.where(ok, b, np.inf), axis=1, keepdims=True)
-        step = np.nanmedian(np.abs(np.diff(b, axis=1)), axis=1, keepdims=True)
+        step = nanmedian_rows(np.abs(np.diff(b, axis=1)))[:, None]
         close = ok & (b <= nearest + 1.01 * step)
     local = _row_median(v, close)
     offset[rows] = np.where(np.isfinite(local), local, offset[rows])
@@ -207,21 +223,18 @@ def differential(signal, bias_A, window=7):
     map-sized array.
     """
     window = max(5, window | 1)
+    if signal.shape[1] < 2:  # one bias point has no derivative
+        return np.full(signal.shape, np.nan)
     if signal.shape[1] < window:
         return np.gradient(signal, axis=1) / np.gradient(bias_A, axis=1)
-    finite = np.isfinite(signal)
-    dense = bool(finite.all())
+    dense = all_finite(signal)
     coeffs = sps.savgol_coeffs(window, 2, deriv=1, use="conv")
     source = signal if dense else _fill_nan(signal)
     dv = ndimage.convolve1d(source, coeffs, axis=1, mode="nearest")
     one_row = shared(bias_A)
     b = bias_A[:1] if one_row else _fill_nan(bias_A)
     db = ndimage.convolve1d(b, coeffs, axis=1, mode="nearest")
-    step = np.sign(np.diff(b, axis=1))
-    turn = np.zeros(b.shape, dtype=bool)
-    turn[:, 1:-1] = step[:, 1:] != step[:, :-1]
-    turn[:, 0] = turn[:, -1] = True
-    near_turn = np.convolve(turn.ravel(), np.ones(window), mode="same").reshape(b.shape) > 0
+    near_turn = near_turns(b, window)
     with np.errstate(all="ignore"):
         out = np.divide(dv, db, out=dv)
     if one_row:
@@ -229,8 +242,36 @@ def differential(signal, bias_A, window=7):
     else:
         out[near_turn] = np.nan
     if not dense:
-        out[~finite] = np.nan
+        out[~np.isfinite(signal)] = np.nan
     return out
+
+
+def all_finite(a) -> bool:
+    """True when every entry of ``a`` is finite: one sum, no map-sized mask.
+
+    A NaN or an infinity makes the sum non-finite; only a sum that overflows
+    needs the entry-by-entry check.
+    """
+    with np.errstate(all="ignore"):
+        if np.isfinite(np.sum(a)):
+            return True
+    return bool(np.isfinite(a).all())
+
+
+def near_turns(b, window=7):
+    """Mask of points within half a ``window`` of a turn or an end of each bias row ``b``.
+
+    There the derivative of :func:`differential` is NaN; the engine leaves these
+    points out of its segments so that a dense map stays on the dense path.
+    """
+    window = max(5, window | 1)
+    if b.shape[1] < window:  # too short for the filter: differential() takes a gradient
+        return np.zeros(b.shape, dtype=bool)
+    step = np.sign(np.diff(b, axis=1))
+    turn = np.zeros(b.shape, dtype=bool)
+    turn[:, 1:-1] = step[:, 1:] != step[:, :-1]
+    turn[:, 0] = turn[:, -1] = True
+    return np.convolve(turn.ravel(), np.ones(window), mode="same").reshape(b.shape) > 0
 
 
 def _fill_nan(a):
@@ -244,109 +285,3 @@ def _fill_nan(a):
     filled = a[np.arange(a.shape[0])[:, None], idx]
     return np.where(np.isfinite(filled), filled, 0.0)
 
-
-def first_true(mask):
-    """Index of the first True per row and whether there is one (one pass over the mask)."""
-    k = np.argmax(mask, axis=1)
-    return k, mask[np.arange(mask.shape[0]), k]
-
-
-def _nothing(n_rows):
-    none = np.zeros(n_rows, dtype=bool)
-    return np.full(n_rows, np.nan), none, none, np.full(n_rows, np.nan)
-
-
-def crossing(level, quantity, bias_A, candidates, upward=True, shape=None, noise=None):
-    """|I| where ``quantity`` crosses ``level`` among ``candidates``, and its uncertainty.
-
-    ``upward`` (switching, |I| growing): the first candidate above the level,
-    bracketed with the candidate before it. Otherwise (retrapping, |I|
-    shrinking): the last candidate above the level, bracketed with the one
-    after it, so that noise dips on the resistive branch do not end it early.
-    With a ``shape`` (a name in :data:`.onset.SHAPES`) the current at the level
-    comes from the straight line, in the shape's variables, through the points
-    beyond it (:func:`.onset.shaped_crossing`); without one, by linear
-    interpolation across the step. Returns ``(current_A, found, unbracketed,
-    uncertainty_A)``: ``unbracketed`` marks rows where no candidate lies on the
-    other side of the crossing (resistive from the first step when switching);
-    the uncertainty is step / sqrt(12) where the step's inside is not resolved
-    (linear interpolation, a jump), else the propagated ``noise`` of the quantity.
-    With a shape, a row above the level from the first step away from zero bias is
-    bracketed by zero bias (where the quantity is zero) rather than censored.
-    """
-    if quantity.shape[1] == 0:
-        return _nothing(quantity.shape[0])
-    rows = np.arange(quantity.shape[0])
-    level = np.broadcast_to(np.asarray(level, dtype=float), rows.shape)[:, None]
-    everywhere = isinstance(candidates, np.ndarray) and candidates.strides == (0, 0)
-    if isinstance(quantity, Deviation):
-        above = quantity.above(level)
-        value_at = quantity.at
-    else:
-        above = quantity > level
-
-        def value_at(r, c):
-            return quantity[r, c]
-    if not everywhere:
-        above &= candidates
-    n = quantity.shape[1]
-    if upward:
-        k, found = first_true(above)
-        other = k - 1
-    else:
-        last, found = first_true(above[:, ::-1])
-        k = n - 1 - last
-        other = k + 1
-    inside = (other >= 0) & (other < n)
-    other = np.clip(other, 0, n - 1)
-    bracketed = found & inside & candidates[rows, other] & ~above[rows, other]
-    b0, b1 = np.abs(bias_A[rows, other]), np.abs(bias_A[rows, k])
-    q0, q1 = value_at(rows, other), value_at(rows, k)
-    if shape is None:
-        with np.errstate(all="ignore"):
-            t = np.clip((level[:, 0] - q0) / (q1 - q0), 0.0, 1.0)
-        inner = b0 + t * (b1 - b0)
-        spread = np.abs(b1 - b0) / np.sqrt(12.0)
-    else:
-        from .onset import SHAPES, shaped_crossing
-
-        # Resistive from the first step away from zero: at zero bias every I-V curve
-        # is at the offset, so zero bias brackets the crossing from below.
-        beyond = k + (1 if upward else -1)
-        beyond = np.clip(beyond, 0, n - 1)
-        first_step = found & ~bracketed & (b1 <= 1.5 * np.abs(np.abs(bias_A[rows, beyond]) - b1))
-        b0 = np.where(first_step, 0.0, b0)
-        q0 = np.where(first_step, 0.0, q0)
-        bracketed = bracketed | first_step
-        inner, spread, _ = shaped_crossing(
-            SHAPES[shape], level[:, 0], value_at, lambda c: above[rows, c], rows, k,
-            b0, b1, q0, q1, bias_A, 1 if upward else -1, noise)
-    current = np.where(bracketed, inner, np.where(found, b1, np.nan))
-    return current, found, found & ~bracketed, np.where(bracketed, spread, np.nan)
-
-
-def peak(quantity, bias_A, candidates):
-    """|I| at the largest ``quantity`` among candidates, refined by a parabola through 3 points.
-
-    Returns ``(current_A, found, at_edge, uncertainty_A)``; ``at_edge`` marks a peak
-    on the first or last candidate, where no maximum was bracketed; the uncertainty
-    is the local step / sqrt(12) (where in the step the peak lies is not resolved).
-    """
-    if quantity.shape[1] == 0:
-        return _nothing(quantity.shape[0])
-    rows = np.arange(quantity.shape[0])
-    masked = np.where(candidates, quantity, -np.inf)  # candidates are finite points
-    k = np.argmax(masked, axis=1)
-    found = np.isfinite(masked[rows, k])
-    n = quantity.shape[1]
-    lo, hi = np.clip(k - 1, 0, n - 1), np.clip(k + 1, 0, n - 1)
-    inner = (k > 0) & (k < n - 1) & candidates[rows, lo] & candidates[rows, hi]
-    y0, y1, y2 = masked[rows, lo], masked[rows, k], masked[rows, hi]
-    with np.errstate(all="ignore"):
-        denom = y0 - 2 * y1 + y2
-        shift = np.where(inner & (denom < 0), 0.5 * (y0 - y2) / denom, 0.0)
-    b = np.abs(bias_A)
-    step = np.where(shift >= 0, b[rows, hi] - b[rows, k], b[rows, k] - b[rows, lo])
-    current = np.where(found, b[rows, k] + np.clip(shift, -1, 1) * step, np.nan)
-    spread = np.where(found, np.abs(b[rows, hi] - b[rows, lo]) / (2.0 * np.sqrt(12.0)), np.nan)
-    return current, found, found & ~inner, spread

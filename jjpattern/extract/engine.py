@@ -10,6 +10,7 @@ criterion) comes from :mod:`.registry`; this module only walks the sweeps.
 from __future__ import annotations
 
 import warnings
+from collections import Counter
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -61,8 +62,8 @@ class BranchExtraction:
     phase_diffusion: dict | None = None
 
     def counts(self) -> dict:
-        values, counts = np.unique(self.status, return_counts=True)
-        return {str(v): int(c) for v, c in zip(values, counts, strict=True)}
+        # A Counter over the labels: np.unique sorts the object array in Python.
+        return {str(v): int(c) for v, c in sorted(Counter(self.status.tolist()).items())}
 
 
 @dataclass
@@ -225,10 +226,13 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     crit = resolve(criterion, ivmap.kind, ivmap.path)
     check_threshold(crit, threshold)
     bias, sig = ivmap.bias_A, ivmap.signal
-    finite = np.isfinite(sig) & (np.isfinite(bias[:1]) if cr.shared(bias) else np.isfinite(bias))
-    dense = bool(finite.all())
-    keep = (np.ones(sig.shape[0], dtype=bool) if dense else
-            np.count_nonzero(finite, axis=1) >= MIN_FINITE_FRACTION * sig.shape[1])
+    dense = cr.all_finite(sig) and cr.all_finite(bias[:1] if cr.shared(bias) else bias)
+    if dense:
+        keep = np.ones(sig.shape[0], dtype=bool)
+    else:
+        finite = np.isfinite(sig) & (np.isfinite(bias[:1]) if cr.shared(bias)
+                                     else np.isfinite(bias))
+        keep = np.count_nonzero(finite, axis=1) >= MIN_FINITE_FRACTION * sig.shape[1]
     if keep.sum() < MIN_POINTS:
         raise InputError(f"{ivmap.path}: only {int(keep.sum())} field rows hold data; "
                          f"at least {MIN_POINTS} are needed")
@@ -252,12 +256,14 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     data = MapData(ivmap.path, ivmap.kind, sig, bias, offsets, noise, rn)
     level, info = crit.level(data, threshold)
     quantity = crit.quantity(data)
-    dense = dense and not crit.gaps_near_turns(ivmap.kind)
+    # A derivative is NaN near the turns of a dense map: those points are left out of the
+    # parts of the sweep, so the rest stays on the dense path (no finite-value masks).
+    gaps = crit.gaps_near_turns(ivmap.kind)
     branches = []
     for name, sign in (("positive", 1.0), ("negative", -1.0)):
         def part(b, sign=sign, out=True):
-            moving = cr.directions(b)[0 if out else 1]
-            return moving & (sign * b > 0)
+            moving = cr.directions(b)[0 if out else 1] & (sign * b > 0)
+            return moving & ~cr.near_turns(b) if gaps else moving
 
         branches.append(_branch(
             name, crit, quantity, level, bias, cr.select(bias, part, dense),
@@ -284,15 +290,22 @@ def _located(crit, q, level, b, candidates, upward, noise):
         return got
     rows = np.arange(b.shape[0])
     ab = np.abs(b)
-    usual = np.nanmedian(np.abs(np.diff(ab, axis=1)), axis=1) if b.shape[1] > 1 else rows * 0.0
+    usual = cr.nanmedian_rows(np.abs(np.diff(ab, axis=1))) if b.shape[1] > 1 else rows * 0.0
     return (*got, np.where(got[1], usual / np.sqrt(12.0), np.nan))
+
+
+def _count(valid):
+    """Valid points per row; a broadcast mask (no gaps) is counted without reading it."""
+    if valid.strides == (0, 0):
+        return np.full(valid.shape[0], valid.shape[1] if valid.size and valid.flat[0] else 0)
+    return np.count_nonzero(valid, axis=1)
 
 
 def _branch(name, crit, q, level, bias, out_seg, in_seg, noise=None) -> BranchExtraction:
     q_out, out = out_seg.take(q)
     q_in, inb = in_seg.take(q)
     b_out, b_in = out_seg.bias(bias), in_seg.bias(bias)
-    has_out = np.count_nonzero(out, axis=1) >= 3
+    has_out = _count(out) >= 3
     ic, found, first, spread = _located(crit, q_out, level, b_out, out, True, noise)
     ret, r_found, _, r_spread = _located(crit, q_in, level, b_in, inb, False, noise)
     status = np.where(found & ~first, "ok", np.where(found, "below-step", "above-max"))
@@ -301,7 +314,7 @@ def _branch(name, crit, q, level, bias, out_seg, in_seg, noise=None) -> BranchEx
     if has_out.mean() < 0.5:
         # Only sweeps towards zero on this side: their transition is the retrapping current.
         source, ic, spread = "return-sweep", ret, r_spread
-        status = np.where(r_found, "ok", np.where(inb.any(axis=1), "above-max", "no-data"))
+        status = np.where(r_found, "ok", np.where(_count(inb) > 0, "above-max", "no-data"))
     ic = np.where(status == "ok", ic, np.nan)
     spread = np.where(status == "ok", spread, np.nan)
     ratio = None

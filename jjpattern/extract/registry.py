@@ -116,10 +116,10 @@ class Criterion:
         ``noise`` is :meth:`quantity_noise`. An override may return the first three
         only; the engine then gives each row the local bias step / sqrt(12).
         """
-        from . import criteria as cr
+        from . import search
 
-        return cr.crossing(level, quantity, bias_A, candidates, upward=upward,
-                           shape=self.onset, noise=noise)
+        return search.crossing(level, quantity, bias_A, candidates, upward=upward,
+                               shape=self.onset, noise=noise)
 
     def gaps_near_turns(self, kind: str) -> bool:
         """True when the quantity is NaN near the turns of the sweep even on a dense map."""
@@ -292,8 +292,9 @@ class DvdiPeak(_Derivative):
         import numpy as np
 
         from . import criteria as cr
+        from . import search
 
-        current, found, edge, spread = cr.peak(quantity, bias_A, candidates)
+        current, found, edge, spread = search.peak(quantity, bias_A, candidates)
         if cr.shared(bias_A) and candidates.strides == (0, 0):
             top = np.full(quantity.shape[0], np.max(np.abs(bias_A[0]), initial=-1.0))
         else:

@@ -200,15 +200,22 @@ def rounding_summary(field_T, signal, bias_A, offsets_V, noise_V, rn_ohm, level_
     top = top[np.argsort(-ic_A[top])][:TOP_ROWS]
     floor = level_V / rn_ohm if level_V and rn_ohm else 0.0
     rows, feet, knees, curves = [], [], [], []
+    one_row = bias_A.strides[0] == 0
+    sweep = None  # the sweep part in order of |I|, once for a bias row shared by all rows
     for r in top:
         v, b = _row(signal, bias_A, r)
-        out = cr.directions(b[None, :])[0][0] & (sign * b > 0) & np.isfinite(v)
-        mag, volts = sign * b[out], sign * (v[out] - offsets_V[r])
+        if sweep is None or not one_row:
+            idx = np.flatnonzero(cr.directions(b[None, :])[0][0] & (sign * b > 0))
+            idx = idx[np.argsort(sign * b[idx], kind="stable")]
+            sweep = idx, (float(np.median(np.diff(sign * b[idx]))) if idx.size > 1 else 0.0)
+        idx, step = sweep
+        finite = np.isfinite(v[idx])
+        if not finite.all():
+            idx = idx[finite]
+            step = float(np.median(np.diff(sign * b[idx]))) if idx.size > 1 else 0.0
+        mag, volts = sign * b[idx], sign * (v[idx] - offsets_V[r])
         if mag.size < 10:
             continue
-        order = np.argsort(mag, kind="stable")
-        mag, volts = mag[order], volts[order]
-        step = float(np.median(np.diff(mag)))
         i_sw = float(ic_A[r])
         knee = knee_current(mag, volts, i_sw, noise_V)
         # Below the current where a resistively shunted junction would still read zero:
@@ -227,7 +234,9 @@ def rounding_summary(field_T, signal, bias_A, offsets_V, noise_V, rn_ohm, level_
         curves.append((mag, volts))
     if not rows:
         return None
-    knee_sigmas, knee_short = np.nanmedian(np.array(knees), axis=0) if knees else (np.nan,) * 2
+    # Medians of the finite values per column (np.nanmedian is slow on a few values).
+    knee_sigmas, knee_short = (float(np.median(c[np.isfinite(c)])) if np.isfinite(c).any()
+                               else np.nan for c in np.array(knees).T)
     out = {"rows_tested": len(rows), "foot_sigmas": round(float(np.median(feet)), 2),
            "knee_sigmas": None if np.isnan(knee_sigmas) else round(float(knee_sigmas), 2),
            "knee_shortfall_fraction": None if np.isnan(knee_short) else float(knee_short),
