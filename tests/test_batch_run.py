@@ -70,7 +70,9 @@ def _read(path):
         return handle.read()
 
 
-@pytest.fixture(scope="module")
+# Session scope: under xdist the group runs in one worker, where other modules'
+# tests may come in between; a module fixture would be built again after them.
+@pytest.fixture(scope="session")
 def chip(tmp_path_factory):
     folder = tmp_path_factory.mktemp("chip")
     manifest = make_chip(str(folder))
