@@ -159,9 +159,12 @@ def connect(path: str) -> sqlite3.Connection:
 def version_check(conn: sqlite3.Connection, path: str) -> int:
     """The catalog's layout version; an error for foreign or newer files."""
     try:
-        app = conn.execute("PRAGMA application_id").fetchone()[0]
-        version = conn.execute("PRAGMA user_version").fetchone()[0]
-        tables = conn.execute("SELECT count(*) FROM sqlite_master").fetchone()[0]
+        # One statement, one snapshot: read apart, another process's creation could
+        # commit between them (tables but no id yet) and look like a foreign file.
+        app, version, tables = conn.execute(
+            "SELECT (SELECT application_id FROM pragma_application_id), "
+            "(SELECT user_version FROM pragma_user_version), "
+            "(SELECT count(*) FROM sqlite_master)").fetchone()
     except sqlite3.DatabaseError as exc:
         raise InputError(f"{path}: not a readable SQLite catalog ({exc})") from None
     if app != APPLICATION_ID and (app != 0 or tables):
