@@ -31,9 +31,6 @@ LENGTHS_UM = (4, 6, 8, 12, 16)
 WIDTH_UM = 5
 BROKEN = "J6<i>"  # a name with markup: the page must show it escaped
 
-#: One worker builds the chip batch that every test here reads.
-pytestmark = pytest.mark.xdist_group("batch_chip")
-
 
 def _sweep(rng, length_um, descending):
     period_mT = PHI0 / (D_M * length_um * 1e-6) * 1e3

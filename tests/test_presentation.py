@@ -22,9 +22,6 @@ SCOPE = re.compile(r"^\((info|warning|error), (positive|negative|both) branch(es
                    r"(, (up|down) sweep( \d+)?)?\)$")
 NUMBER = re.compile(r"(?<![\w.])[-+]?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?(?![\w.])")
 
-#: One worker renders the demo map report that the tests here read (map_report_dir).
-pytestmark = pytest.mark.xdist_group("map_report")
-
 
 class _Visible(HTMLParser):
     """Visible text, flag headings, and whether each table sits in a scrolling box."""

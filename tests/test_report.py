@@ -15,9 +15,6 @@ from jjpattern.cli import main
 from jjpattern.demo import demo_files
 from jjpattern.outdir import TEMP_MARK
 
-#: One worker renders the demo map report that the tests here read (map_report_dir).
-pytestmark = pytest.mark.xdist_group("map_report")
-
 
 class _Page(HTMLParser):
     def __init__(self):
