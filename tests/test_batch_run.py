@@ -67,9 +67,7 @@ def _read(path):
         return handle.read()
 
 
-# Session scope: under xdist the group runs in one worker, where other modules'
-# tests may come in between; a module fixture would be built again after them.
-@pytest.fixture(scope="session")
+@pytest.fixture(scope="module")
 def chip(tmp_path_factory):
     folder = tmp_path_factory.mktemp("chip")
     manifest = make_chip(str(folder))
