@@ -89,16 +89,16 @@ def make_field(rng, half_width_T, n_points, uneven: bool):
 
 def random_case(rng, *, geometry="rectangular", period_T=None, lobes=None, n_points=None,
                 noise_fraction=None, uneven=None, offset_fraction=None,
-                folded=False) -> SyntheticCase:
+                folded=True) -> SyntheticCase:
     """One member of the family the fit must handle (any argument can be pinned).
 
     Periods 1 uT to 30 mT (log-uniform), 2 to 15 visible lobes each side,
     offsets up to half a period, 100 to 3000 points with at least 8 per period,
     0.5 to 5 % Gaussian noise relative to Ic0, even or uneven steps. The noise is
-    plain Gaussian unless ``folded=True`` (as measured, :func:`add_noise`): the
-    fit's benchmark and pull tests were set on this family, and a least-squares
-    fit without a noise model for the nodes is biased by folding (at 12 lobes the
-    spread of the period's pulls grows to 1.5).
+    folded as measured (``|Ic + noise|``, :func:`add_noise`); ``folded=False`` gives
+    plain Gaussian noise, which pull tests of the least-squares fit use: a fit without
+    a noise model for the nodes is biased by folding (at 12 lobes the spread of the
+    period's pulls grows to 1.5).
     """
     period = period_T if period_T is not None else 10 ** rng.uniform(-6, np.log10(3e-2))
     n_lobes = lobes if lobes is not None else int(rng.integers(2, 16))

@@ -292,7 +292,7 @@ def methods_paragraph(result, field_calibration: str) -> str:
                    f"the noise (seed {seed}); the "
                    f"resolution is {first['resolution_over_length']:.3f} of the junction "
                    f"length and the outer 10 % on each side carry {edges} of the current "
-                   "(0.2 for a uniform junction).")
+                   f"({_uniform_edges(first)}).")
     if result.icrn and "ambegaokar_baratoff_V" in result.icrn:
         icrn = result.icrn
         out.append(f"The IcRn product is {format_measure(icrn['icrn_V'], None, VOLTAGE_UNITS)}"
@@ -312,3 +312,13 @@ def methods_paragraph(result, field_calibration: str) -> str:
         known.update(s_.references)
     refs = "\n".join(f"[{n}] {known[key]}" for key, n in numbered.items())
     return f"{text}\n\nReferences\n{refs}\n"
+
+
+def _uniform_edges(d: dict) -> str:
+    """What a uniform junction gives through the same reconstruction (geometry, window
+    and resolution as used), or the exact share where no reference was computed."""
+    ref = d.get("uniform_reference")
+    if ref:
+        return (f"{format_measure(ref['edge_fraction'], None, digits=3)} for a uniform "
+                "junction through the same reconstruction")
+    return "0.2 for exactly uniform current"
