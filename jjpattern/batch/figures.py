@@ -161,7 +161,8 @@ def chip_map_figure(table, summary: dict, title: str = "", xy_unit: str = ""):
         ax.set_ylabel(f"y{label}")
         ax.set_aspect("equal", adjustable="datalim")
         ax.set_title(name, fontsize=9)
-        ax.legend(frameon=False, fontsize=7, loc="best")
+        if ax.get_legend_handles_labels()[0]:  # nothing missing or flagged: no legend
+            ax.legend(frameon=False, fontsize=7, loc="best")
     if title:
         fig.suptitle(title, fontsize=10, parse_math=False)
     return fig
