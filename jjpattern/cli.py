@@ -50,6 +50,9 @@ def _reading_parent() -> argparse.ArgumentParser:
     group.add_argument("--allow-external", action="store_true",
                        help="let an HDF5 file read data kept in other files (external links, "
                             "external storage, virtual datasets); they are hashed with it")
+    group.add_argument("--read-limit", metavar="NAME=N", action="append", default=[],
+                       help="raise a size limit checked before reading: bytes (256 MiB), "
+                            "values per array (20 million) or sweep rows (200,000)")
     group = parent.add_argument_group("raw V(I, B) maps")
     group.add_argument("--bias-col", metavar="NAME", help="bias-current column or dataset")
     group.add_argument("--signal-col", metavar="NAME",
@@ -254,6 +257,7 @@ def _figure_formats(text: str) -> tuple[str, ...]:
 def settings_from_args(args):
     """The one place where command-line options become :class:`Settings` (SI units)."""
     from .extract.registry import parse_threshold
+    from .io.limits import parse_read_limits
     from .io.units import coil_constant_T_per_A, parse_field_interval
     from .settings import (
         DiagnoseSettings,
@@ -278,7 +282,7 @@ def settings_from_args(args):
         field_range_T=parse_field_interval(args.field_range, "--field-range")
         if args.field_range else (),
         exclude_T=tuple(_exclusion(text) for text in args.exclude),
-        allow_external=args.allow_external)
+        allow_external=args.allow_external, **parse_read_limits(args.read_limit))
     extract = ExtractSettings(
         criterion=args.criterion, threshold=parse_threshold(args.threshold, args.criterion),
         gap_J=scaled(args.gap_meV, 1.602176634e-22),  # 1 meV in J (e is exact in SI)
@@ -469,18 +473,6 @@ def run_demo(args) -> int:
     return EXIT_OK
 
 
-def _one_blas_thread() -> None:
-    """BLAS and OpenMP pools to one thread unless the user set them, in a process the
-    command line started (numpy not yet imported): the products of one analysis are
-    small and further threads only spin, about doubling the CPU time."""
-    if "numpy" in sys.modules:
-        return
-    from .batch.worker import THREAD_VARIABLES
-
-    for name in THREAD_VARIABLES:
-        os.environ.setdefault(name, "1")
-
-
 def main(argv=None) -> int:
     parser = build_parser()
     argv = sys.argv[1:] if argv is None else list(argv)
@@ -489,7 +481,9 @@ def main(argv=None) -> int:
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT
-    _one_blas_thread()
+    from .batch.worker import one_blas_thread
+
+    one_blas_thread()
     handlers = {"analyze": run_analyze, "extract": run_extract, "report": run_report,
                 "batch": run_batch, "demo": run_demo}
     return run_guarded(getattr(args, "handler", handlers.get(args.command)), args)

@@ -379,3 +379,19 @@ def test_cli_bad_files_exit_2_with_one_line(tmp_path, capsys):
         assert code == 2, (path, err)
         assert err.count("\n") == 1 and err.startswith("jjpattern: "), err
         assert "Traceback" not in err and "internal error" not in err
+
+
+def test_read_limits_are_command_line_options(tmp_path, capsys):
+    """A limit refused in one sentence that names the option, which then lets it through."""
+    from jjpattern.cli import main
+
+    path = tmp_path / "s.csv"
+    b = np.linspace(-2, 2, 301)
+    ic = np.abs(np.sinc(b)) * 10 + 0.05
+    path.write_text("B (mT),Ic (uA)\n" + "".join(f"{x:.4f},{y:.5f}\n" for x, y in zip(b, ic, strict=True)))
+    assert main(["analyze", str(path), "--read-limit", "rows=100"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "301 rows" in err[0] and "--read-limit rows=N" in err[0]
+    assert main(["analyze", str(path), "--read-limit", "rows=400", "--json"]) == 0
+    assert main(["analyze", str(path), "--read-limit", "lines=400"]) == 2
+    assert "NAME one of bytes, values, rows" in capsys.readouterr().err

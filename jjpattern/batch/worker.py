@@ -17,6 +17,18 @@ THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"
                     "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
 
 
+def one_blas_thread() -> None:
+    """BLAS and OpenMP pools to one thread unless the user set them, in a process the
+    command line started (numpy not yet imported): the products of one analysis are
+    small and further threads only spin, about doubling the CPU time."""
+    import sys
+
+    if "numpy" in sys.modules:
+        return
+    for name in THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
+
+
 def input_sha256(path) -> str:
     """SHA-256 of an input as the reader records it in ``result.input["sha256"]``.
 

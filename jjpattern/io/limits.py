@@ -66,7 +66,8 @@ def check_rows(path: str, rows: int, settings) -> None:
     limit = getattr(settings, "max_rows", None) or MAX_ROWS
     if rows > limit:
         raise InputError(f"{path}: the sweep has {rows:,} rows, above the limit of {limit:,}; "
-                         "thin it, or raise the read setting max_rows if it is meant")
+                         "thin it, or raise --read-limit rows=N (read setting max_rows) "
+                         "if it is meant")
 
 
 def check_file_size(path: str, size: int, settings, what: str = "the file holds") -> None:
@@ -74,7 +75,8 @@ def check_file_size(path: str, size: int, settings, what: str = "the file holds"
     limit = max_bytes(settings)
     if size > limit:
         raise InputError(f"{path}: {what} {size:,} bytes, above the limit of "
-                         f"{limit:,}; raise the read setting max_bytes if it is meant")
+                         f"{limit:,}; raise --read-limit bytes=N (read setting max_bytes) "
+                         "if it is meant")
 
 
 def check_points(path: str, name, shape, settings) -> None:
@@ -86,7 +88,8 @@ def check_points(path: str, name, shape, settings) -> None:
     limit = max_points(settings)
     if count > limit:
         raise InputError(f"{path}: {clip(name)} declares {count:,} values, above the limit of "
-                         f"{limit:,}; raise the read setting max_points if it is meant")
+                         f"{limit:,}; raise --read-limit values=N (read setting "
+                         "max_points) if it is meant")
 
 
 def damaged(path: str, what: str, exc: BaseException) -> InputError:
@@ -206,3 +209,25 @@ class LazyColumns(Mapping):
 
     def __len__(self):
         return len(self.shapes)
+
+
+#: Names of the limits on the command line (``--read-limit NAME=N``) and their settings.
+LIMIT_NAMES = {"bytes": "max_bytes", "values": "max_points", "rows": "max_rows"}
+
+
+def parse_read_limits(texts) -> dict:
+    """``["rows=500000", "bytes=1e9"]`` -> ``{"max_rows": 500000, "max_bytes": 10**9}``."""
+    out = {}
+    for text in texts or ():
+        name, _, value = text.partition("=")
+        key = LIMIT_NAMES.get(name.strip().lower())
+        try:
+            number = float(value)
+        except ValueError:
+            number = float("nan")
+        if key is None or not (number >= 1 and number == int(number)):
+            raise InputError(f"--read-limit {clip(text)}: give NAME=N with NAME one of "
+                             f"{', '.join(LIMIT_NAMES)} and N a positive whole number, "
+                             "e.g. rows=500000")
+        out[key] = int(number)
+    return out
