@@ -388,7 +388,8 @@ def test_read_limits_are_command_line_options(tmp_path, capsys):
     path = tmp_path / "s.csv"
     b = np.linspace(-2, 2, 301)
     ic = np.abs(np.sinc(b)) * 10 + 0.05
-    path.write_text("B (mT),Ic (uA)\n" + "".join(f"{x:.4f},{y:.5f}\n" for x, y in zip(b, ic, strict=True)))
+    rows = "".join(f"{x:.4f},{y:.5f}\n" for x, y in zip(b, ic, strict=True))
+    path.write_text("B (mT),Ic (uA)\n" + rows)
     assert main(["analyze", str(path), "--read-limit", "rows=100"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "301 rows" in err[0] and "--read-limit rows=N" in err[0]
