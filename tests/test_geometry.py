@@ -111,3 +111,37 @@ def test_long_junction_fit_gives_lambda_j_and_jc_from_the_pattern():
     assert block["jc_from_pattern_A_m2"] == pytest.approx(7e-5 / (20e-6 * 5e-6), rel=1e-12)
     assert "jc_from_ic0_A_m2" not in block
     assert block["magnetic_thickness_m"] == pytest.approx(PHI0_WB / (0.15e-3 * 20e-6))
+
+
+def test_derived_errors_carry_the_correlation_of_period_and_ic0():
+    # Var(a X + b Y) = a^2 + b^2 + 2 rho a b for the changes a, b of a derived number per
+    # standard error of X and Y (first-order propagation; common practice). lambda_J
+    # depends on both: on Ic0 through Jc, on the period through the London depth.
+    from types import SimpleNamespace
+
+    from jjpattern.diagnose.run import GeometryInputs, geometry_block
+
+    inputs = GeometryInputs(width_m=5e-6, length_m=12e-6, barrier_m=2e-9, t1_m=150e-9)
+    period, ic0, sp, si = 1.7e-3, 20e-6, 0.03e-3, 1.5e-6  # d' about 100 nm
+
+    def err(period_err, ic0_err, rho=None, sign=1.0):
+        fit = _fit(period_T=period, period_stderr_T=period_err, ic0_A=ic0, ic0_stderr_A=ic0_err)
+        if rho is not None:
+            cov = np.array([[sp**2, rho * sp * si], [rho * sp * si, si**2]])
+            params = {"period_T": SimpleNamespace(value=sign * period),
+                      "ic0_A": SimpleNamespace(value=ic0)}
+            fit.lmfit_result = SimpleNamespace(var_names=["period_T", "ic0_A"], covar=cov,
+                                               params=params)
+        return geometry_block([fit], inputs)["josephson_depth_stderr_m"]
+
+    a, b = err(sp, None), err(None, si)
+    assert a > 0 and b > 0
+    # lambda_J rises with the period (a smaller magnetic thickness needs a smaller London
+    # depth, hence a thinner current layer) and falls with Ic0 (a larger Jc): a and b
+    # enter with opposite signs.
+    for rho in (-0.9, 0.0, 0.6):
+        expected = np.sqrt(a * a + b * b - 2 * rho * a * b)
+        assert err(sp, si, rho) == pytest.approx(expected, rel=1e-9)
+    # A fit that converged on a negative period: the magnitudes' correlation flips sign.
+    assert err(sp, si, 0.6, sign=-1.0) == pytest.approx(err(sp, si, -0.6), rel=1e-12)
+    assert err(sp, si, 0.6) != pytest.approx(err(sp, si, -0.6), rel=1e-3)

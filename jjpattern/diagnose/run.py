@@ -64,9 +64,10 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
     """Derived numbers from the measured period and whatever geometry was given.
 
     Each derived number also gets a standard error (key ``..._stderr`` before its
-    unit) from the period's and Ic0's, by central differences (the geometry given
-    is taken as exact). A withheld fit gives none. Where the model says what Ic0
-    is (a long junction's ``jc_times_area_A``), Jc uses that.
+    unit) from the period's and Ic0's, by central differences combined with their
+    correlation in the fit's covariance (the geometry given is taken as exact). A
+    withheld fit gives none. Where the model says what Ic0 is (a long junction's
+    ``jc_times_area_A``), Jc uses that.
     """
     given = inputs.given()
     fit = next((f for f in fits if f.period_T is not None), None)
@@ -75,7 +76,9 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
     ic0 = fit.derived.get("jc_times_area_A", fit.ic0_A) if fit.ic0_A is not None else None
     ic0_err = fit.derived_stderr.get("jc_times_area_A", fit.ic0_stderr_A) if ic0 else None
     block = _derived(fit.period_T, ic0, fit.effective_area_m2, inputs, fit)
-    errors = {}
+    # Each number's change for one standard error of the period and of Ic0; the two
+    # combine with their correlation from the fit's covariance.
+    steps = [{}, {}]
     for which, err in ((0, fit.period_stderr_T), (1, ic0_err)):
         if not err or (which == 1 and ic0 is None):
             continue
@@ -88,7 +91,12 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
         for key, value in block.items():
             if isinstance(value, float) and isinstance(hi.get(key), float) and isinstance(
                     lo.get(key), float):
-                errors[key] = errors.get(key, 0.0) + (0.5 * (hi[key] - lo[key])) ** 2
+                steps[which][key] = 0.5 * (hi[key] - lo[key])
+    rho = 0.0 if "jc_times_area_A" in fit.derived else _correlation(fit, "period_T", "ic0_A")
+    errors = {}
+    for key in set(steps[0]) | set(steps[1]):
+        a, b = steps[0].get(key, 0.0), steps[1].get(key, 0.0)
+        errors[key] = max(a * a + b * b + 2.0 * rho * a * b, 0.0)
     ell, ell_err = fit.derived.get("length_over_josephson_depth"), fit.derived_stderr.get(
         "length_over_josephson_depth")
     if "josephson_depth_from_pattern_m" in block and ell and ell_err:
@@ -99,6 +107,25 @@ def geometry_block(fits, inputs: GeometryInputs) -> dict | None:
         if key in errors:
             out[stderr_key(key)] = float(np.sqrt(errors[key]))
     return out
+
+
+def _correlation(fit, first: str, second: str) -> float:
+    """Correlation of two reported magnitudes in the fit's covariance (0 if unknown).
+
+    The patterns are even in period and Ic0 and the fit is unbounded, so a parameter
+    may converge negative; the magnitudes' correlation carries the signs' product.
+    """
+    result = getattr(fit, "lmfit_result", None)
+    names = list(getattr(result, "var_names", None) or [])
+    covar = getattr(result, "covar", None)
+    if covar is None or first not in names or second not in names:
+        return 0.0
+    i, j = names.index(first), names.index(second)
+    scale = np.sqrt(covar[i, i] * covar[j, j])
+    if not np.isfinite(scale) or scale <= 0:
+        return 0.0
+    sign = np.sign(result.params[first].value) * np.sign(result.params[second].value)
+    return float(np.clip(sign * covar[i, j] / scale, -1.0, 1.0))
 
 
 def _derived(period_T, ic0_A, area_m2, inputs: GeometryInputs, fit=None) -> dict:
