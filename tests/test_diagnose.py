@@ -122,6 +122,26 @@ def test_clear_cases_raise_their_flag(profile, code):
         assert hit[0].message and hit[0].evidence
 
 
+def test_withheld_fit_of_lifted_nodes_still_raises_nodes_lifted():
+    # At 0.5 % noise the sinc with a floor misses a 40 % gradient (reduced chi-square about
+    # 13), so its numbers are withheld; the shape flags read it at its trial numbers, and
+    # the node floor must be among them (the floor once stayed behind, and 3 % of the
+    # gradient cases lost nodes-lifted).
+    for seed in (0, 1):
+        case = profile_case(np.random.default_rng(seed), "gradient", lobes=6, n_points=1400,
+                            noise_fraction=0.005, offset_fraction=0.2)
+        analysis = _analyse(case)
+        fit = analysis.fits[0]
+        assert fit.withheld["reason"] == "poor-fit" and fit.reduced_chisq > 8
+        assert fit.period_T is None and fit.node_floor_A is None
+        lifted = [f for f in analysis.flags if f.code == "nodes-lifted"]
+        assert lifted, _codes(analysis)
+        # The profile's nodes: |F(u)| of 1 + 0.4 (2 x) at u = n is 0.4/(pi n) (a plain
+        # integral, from memory), so the first node floor is 0.127 of the centre; the fit
+        # reads an average floor over the nodes in the window, between the far and near ones.
+        assert 0.4 / (np.pi * 6) < lifted[0].evidence["floor_over_ic_max"] < 0.4 / np.pi
+
+
 def _bench_flags():
     """scripts/bench_flags.py as a module (loaded by its path: scripts/ is no package)."""
     import importlib.util

@@ -213,8 +213,47 @@ def _reconstructable(fit) -> bool:
 
 
 def _trial(fit):
-    """A copy of a withheld fit carrying its trial numbers, for the shape flags only."""
+    """A copy of a withheld fit carrying its trial numbers, for the shape flags only.
+
+    The node floor goes with them where one was fitted to a pattern that misses the
+    model, with its standard error (scaled by the poor reduced chi-square, so wider):
+    lifted nodes are one reason a pattern misses the sinc, and the node-floor test is
+    what says so. Not for an undersampled pattern, whose nodes fall between the points.
+    """
     p = fit.best_params
+    floor = err = None
+    result = fit.lmfit_result
+    if (fit.withheld.get("reason") != "undersampled" and result is not None
+            and "floor_A" in result.params and result.params["floor_A"].vary):
+        floor, err = p["floor_A"], result.params["floor_A"].stderr
+        err = float(err) if err is not None and np.isfinite(err) else None
+        if not _minima_lifted(fit, p):
+            floor = err = None
+    # Not withheld in the copy, so that its curve (model_A) is drawn at the trial numbers.
     return dataclasses.replace(fit, period_T=p["period_T"], field_offset_T=p["field_offset_T"],
-                               ic0_A=p["ic0_A"], node_floor_A=None, node_floor_stderr_A=None,
-                               extra_params={k: p[k] for k in fit.extra_params if k in p})
+                               ic0_A=p["ic0_A"], node_floor_A=floor, node_floor_stderr_A=err,
+                               extra_params={k: p[k] for k in fit.extra_params if k in p},
+                               withheld=None)
+
+
+def _minima_lifted(fit, p) -> bool:
+    """Whether the data themselves stay up near the trial nodes of a withheld fit.
+
+    A model that misses the data can fit a floor for nodes that are only displaced
+    (current at the edges moves them off the sinc's): then the data still fall to the
+    folded noise within a third of a period of the trial node. Lifted: the smoothed
+    minimum near each first node (the most lifted ones, and the least displaced) exceeds
+    twice the folded-noise mean.
+    """
+    x, y, period, b0 = fit.field_T, fit.ic_A, p["period_T"], p["field_offset_T"]
+    width = max(1, int(round(0.05 * period / np.median(np.diff(x)))))
+    smooth = np.convolve(y, np.ones(width) / width, mode="same")
+    extras = {k: p[k] for k in fit.extra_params if k in p}
+    first = float(get_model(fit.model).nodes(1, extras)[0])
+    lows = []
+    for node in (b0 - first * period, b0 + first * period):
+        near = np.abs(x - node) < period / 3
+        if near.sum() >= 3 and x[0] < node < x[-1]:
+            lows.append(float(np.min(smooth[near])))
+    # |Ic + noise| at a true zero has mean sigma sqrt(2/pi) (folded normal).
+    return bool(lows) and min(lows) > 2.0 * np.sqrt(2 / np.pi) * fit.noise_A
