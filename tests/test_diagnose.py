@@ -140,6 +140,13 @@ def test_withheld_fit_of_lifted_nodes_still_raises_nodes_lifted():
         # integral, from memory), so the first node floor is 0.127 of the centre; the fit
         # reads an average floor over the nodes in the window, between the far and near ones.
         assert 0.4 / (np.pi * 6) < lifted[0].evidence["floor_over_ic_max"] < 0.4 / np.pi
+        # Edges carrying 3x the bulk miss the sinc as badly (its floor fills nodes that are
+        # only displaced, to u = 0.79 here); their data reach zero, so no nodes-lifted.
+        edges = _analyse(profile_case(np.random.default_rng(seed), "edges", lobes=6,
+                                      n_points=1400, noise_fraction=0.005,
+                                      offset_fraction=0.2))
+        assert edges.fits[0].withheld["reason"] == "poor-fit"
+        assert _codes(edges) == {"poor-fit", "edge-current"}
 
 
 def _bench_flags():

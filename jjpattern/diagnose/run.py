@@ -237,23 +237,21 @@ def _trial(fit):
 
 
 def _minima_lifted(fit, p) -> bool:
-    """Whether the data themselves stay up near the trial nodes of a withheld fit.
+    """Whether the data themselves stay up near the first trial nodes of a withheld fit.
 
     A model that misses the data can fit a floor for nodes that are only displaced
-    (current at the edges moves them off the sinc's): then the data still fall to the
-    folded noise within a third of a period of the trial node. Lifted: the smoothed
-    minimum near each first node (the most lifted ones, and the least displaced) exceeds
-    twice the folded-noise mean.
+    (current at the edges moves them off the sinc's): then the data still fall to zero
+    within a third of a period of the trial node, where some point measured as
+    ``|Ic + noise|`` comes within the noise of zero. Lifted: the smallest Ic near each
+    first node (the most lifted and least displaced ones) exceeds twice the noise.
+    Only withheld fits are read so, and those are the low-noise ones.
     """
     x, y, period, b0 = fit.field_T, fit.ic_A, p["period_T"], p["field_offset_T"]
-    width = max(1, int(round(0.05 * period / np.median(np.diff(x)))))
-    smooth = np.convolve(y, np.ones(width) / width, mode="same")
     extras = {k: p[k] for k in fit.extra_params if k in p}
     first = float(get_model(fit.model).nodes(1, extras)[0])
     lows = []
     for node in (b0 - first * period, b0 + first * period):
         near = np.abs(x - node) < period / 3
         if near.sum() >= 3 and x[0] < node < x[-1]:
-            lows.append(float(np.min(smooth[near])))
-    # |Ic + noise| at a true zero has mean sigma sqrt(2/pi) (folded normal).
-    return bool(lows) and min(lows) > 2.0 * np.sqrt(2 / np.pi) * fit.noise_A
+            lows.append(float(np.min(y[near])))
+    return bool(lows) and min(lows) > 2.0 * fit.noise_A
