@@ -25,6 +25,15 @@ def _codes(analysis):
     return {f.code for f in analysis.flags}
 
 
+def _drawn(rng, profile):
+    """A pattern of the families of scripts/bench_flags.py: 3-10 lobes, 500-1500 points,
+    1-3 % noise (folded), offset within half a period."""
+    return profile_case(rng, profile, lobes=int(rng.integers(3, 11)),
+                        n_points=int(rng.integers(500, 1500)),
+                        noise_fraction=rng.uniform(0.01, 0.03),
+                        offset_fraction=rng.uniform(-0.5, 0.5))
+
+
 @pytest.mark.parametrize(("profile", "edge"), [("uniform", 0.2), ("edges", 0.43),
                                                ("gaussian", 0.0)])
 def test_symmetric_reconstruction_round_trip(profile, edge):
@@ -98,10 +107,7 @@ def test_support_reconstruction_sees_an_asymmetric_profile():
 def test_uniform_patterns_raise_no_shape_flags():
     rng = np.random.default_rng(3)
     for _ in range(12):
-        case = profile_case(rng, "uniform", lobes=int(rng.integers(3, 11)),
-                            n_points=int(rng.integers(500, 1500)),
-                            noise_fraction=rng.uniform(0.01, 0.03),
-                            offset_fraction=rng.uniform(-0.5, 0.5))
+        case = _drawn(rng, "uniform")
         assert _codes(_analyse(case)) == set()
 
 
@@ -112,10 +118,7 @@ def test_uniform_patterns_raise_no_shape_flags():
 def test_clear_cases_raise_their_flag(profile, code):
     rng = np.random.default_rng(4)
     for _ in range(5):
-        case = profile_case(rng, profile, lobes=int(rng.integers(3, 11)),
-                            n_points=int(rng.integers(500, 1500)),
-                            noise_fraction=rng.uniform(0.01, 0.03),
-                            offset_fraction=rng.uniform(-0.5, 0.5))
+        case = _drawn(rng, profile)
         flags = _analyse(case).flags
         hit = [f for f in flags if f.code == code]
         assert hit, (profile, [f.code for f in flags])
@@ -169,10 +172,7 @@ def test_flag_benchmark_fits_as_the_pipeline_does():
     bench = _bench_flags()
     rng = np.random.default_rng(5)
     for _ in range(3):
-        case = profile_case(rng, "gaussian", lobes=int(rng.integers(3, 11)),
-                            n_points=int(rng.integers(500, 1500)),
-                            noise_fraction=rng.uniform(0.01, 0.03),
-                            offset_fraction=rng.uniform(-0.5, 0.5))
+        case = _drawn(rng, "gaussian")
         codes = bench.flags_of(case, [])
         assert "center-current" in codes
         assert codes == _codes(_analyse(case))
