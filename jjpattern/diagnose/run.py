@@ -242,8 +242,9 @@ def _minima_lifted(fit, p) -> bool:
     A model that misses the data can fit a floor for nodes that are only displaced
     (current at the edges moves them off the sinc's): then the data still fall to zero
     within a third of a period of the trial node, where some point measured as
-    ``|Ic + noise|`` comes within the noise of zero. Lifted: the smallest Ic near each
-    first node (the most lifted and least displaced ones) exceeds twice the noise.
+    ``|Ic + noise|`` comes within the noise (and one step's rise) of zero. Lifted: the
+    smallest Ic near each first node (the most lifted and least displaced ones), less
+    its rise to the next point, exceeds twice the noise.
     Only withheld fits are read so, and those are the low-noise ones.
     """
     x, y, period, b0 = fit.field_T, fit.ic_A, p["period_T"], p["field_offset_T"]
@@ -251,7 +252,10 @@ def _minima_lifted(fit, p) -> bool:
     first = float(get_model(fit.model).nodes(1, extras)[0])
     lows = []
     for node in (b0 - first * period, b0 + first * period):
-        near = np.abs(x - node) < period / 3
-        if near.sum() >= 3 and x[0] < node < x[-1]:
-            lows.append(float(np.min(y[near])))
+        near = np.flatnonzero(np.abs(x - node) < period / 3)
+        if near.size >= 3 and x[0] < node < x[-1]:
+            i = near[np.argmin(y[near])]
+            # A sampled zero is a V: the lowest point sits up to one step's rise above it.
+            rise = max(abs(y[j] - y[i]) for j in (i - 1, i + 1) if 0 <= j < y.size)
+            lows.append(float(y[i] - rise))
     return bool(lows) and min(lows) > 2.0 * fit.noise_A
