@@ -240,8 +240,49 @@ def _reconstructable(fit) -> bool:
 
 
 def _trial(fit):
-    """A copy of a withheld fit carrying its trial numbers, for the shape flags only."""
+    """A copy of a withheld fit carrying its trial numbers, for the shape flags only.
+
+    The node floor goes with them where one was fitted to a pattern that misses the
+    model, with its standard error (scaled by the poor reduced chi-square, so wider):
+    lifted nodes are one reason a pattern misses the sinc, and the node-floor test is
+    what says so. Not for an undersampled pattern, whose nodes fall between the points.
+    """
     p = fit.best_params
+    floor = err = None
+    result = fit.lmfit_result
+    if (fit.withheld.get("reason") != "undersampled" and result is not None
+            and "floor_A" in result.params and result.params["floor_A"].vary):
+        floor, err = p["floor_A"], result.params["floor_A"].stderr
+        err = float(err) if err is not None and np.isfinite(err) else None
+        if not _minima_lifted(fit, p):
+            floor = err = None
+    # Not withheld in the copy, so that its curve (model_A) is drawn at the trial numbers.
     return dataclasses.replace(fit, period_T=p["period_T"], field_offset_T=p["field_offset_T"],
-                               ic0_A=p["ic0_A"], node_floor_A=None, node_floor_stderr_A=None,
-                               extra_params={k: p[k] for k in fit.extra_params if k in p})
+                               ic0_A=p["ic0_A"], node_floor_A=floor, node_floor_stderr_A=err,
+                               extra_params={k: p[k] for k in fit.extra_params if k in p},
+                               withheld=None)
+
+
+def _minima_lifted(fit, p) -> bool:
+    """Whether the data themselves stay up near the first trial nodes of a withheld fit.
+
+    A model that misses the data can fit a floor for nodes that are only displaced
+    (current at the edges moves them off the sinc's): then the data still fall to zero
+    within a third of a period of the trial node, where some point measured as
+    ``|Ic + noise|`` comes within the noise (and one step's rise) of zero. Lifted: the
+    smallest Ic near each first node (the most lifted and least displaced ones), less
+    its rise to the next point, exceeds twice the noise.
+    Only withheld fits are read so, and those are the low-noise ones.
+    """
+    x, y, period, b0 = fit.field_T, fit.ic_A, p["period_T"], p["field_offset_T"]
+    extras = {k: p[k] for k in fit.extra_params if k in p}
+    first = float(get_model(fit.model).nodes(1, extras)[0])
+    lows = []
+    for node in (b0 - first * period, b0 + first * period):
+        near = np.flatnonzero(np.abs(x - node) < period / 3)
+        if near.size >= 3 and x[0] < node < x[-1]:
+            i = near[np.argmin(y[near])]
+            # A sampled zero is a V: the lowest point sits up to one step's rise above it.
+            rise = max(abs(y[j] - y[i]) for j in (i - 1, i + 1) if 0 <= j < y.size)
+            lows.append(float(y[i] - rise))
+    return bool(lows) and min(lows) > 2.0 * fit.noise_A
