@@ -82,7 +82,7 @@ def row_fit(args):
 
     truth = [case.ic0_A, case.period_T, case.field_offset_T]
     scale = np.abs(truth) + [0.0, 0.0, case.period_T]
-    ours = clock(args.repeats, lambda: fit_pattern(x, y))
+    ours = clock(args.repeats, lambda: fit_pattern(x, y, geometry="rectangular"))
     ref = clock(args.repeats, lambda: optimize.least_squares(residual, truth, x_scale=scale))
     print("automatic fit, 1000 points, 8 lobes each side, 2 % noise:")
     show("fit_pattern", ours, ref, "least_squares from truth", "3x")
