@@ -189,3 +189,56 @@ REFERENCES = {
     "barone": "A. Barone and G. Paterno, Physics and Applications of the Josephson "
               "Effect (Wiley, New York, 1982).",
 }
+
+
+def make_model(feed: str, *, name: str, description: str, feed_words: str):
+    """The registry entry of a long junction with the feed ``feed`` (``inline``, ``overlap``).
+
+    ``feed_words`` says in the methods text how the bias current enters.
+    """
+    from .rectangular import unit_shape
+    from .spec import ExtraParameter, PatternModelSpec
+
+    def formula(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
+                length_over_josephson_depth=0.0):
+        """``sqrt((Ic0 s(u; L/lambda_J))^2 + floor^2)`` from the sine-Gordon table."""
+        return pattern(field_T, ic0_A, period_T, field_offset_T, floor_A,
+                       length_over_josephson_depth, feed)
+
+    def node_flux(count, length_over_josephson_depth=0.0):
+        """Minima of the pattern (lifted above zero once the vortex modes overlap)."""
+        return minima(count, length_over_josephson_depth, feed)
+
+    def model_gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
+                       length_over_josephson_depth=0.0):
+        """Partial derivatives of ``formula`` by each parameter (the fit's Jacobian)."""
+        return gradient(field_T, ic0_A, period_T, field_offset_T, floor_A,
+                        length_over_josephson_depth, feed)
+
+    def derive(params):
+        """L / lambda_J, Jc W L and the lower critical field (see :func:`derived`)."""
+        return derived(params, feed)
+
+    return PatternModelSpec(
+        name=name,
+        formula=formula,
+        node_flux=node_flux,
+        description=description,
+        methods_text=(f"the critical current of a long junction with {feed_words}, the "
+                      "upper envelope over the static solutions of the sine-Gordon "
+                      "equation, interpolated in a table against Phi/Phi0 and L/lambda_J, "
+                      "with L/lambda_J a fitted parameter and Phi = B L d'"),
+        references=REFERENCES,
+        extra=(ExtraParameter("length_over_josephson_depth", start=1.0, even=True,
+                              description="junction length over the Josephson penetration "
+                                          "depth",
+                              grid=(0.5, 1.5, 2.5, 3.5, 5.0, 6.5, 8.0, 10.0),
+                              limit=LENGTH_LIMIT),),
+        # The scan slides the pattern at L/lambda_J = 0, the sinc: the same function as the
+        # rectangular model's, so that an automatic choice scans once for both.
+        unit_shape=unit_shape,
+        derive=derive,
+        gradient=model_gradient,
+        ic0_meaning="Ic at the centre of the pattern; Jc W L = Ic0 / g(0; L/lambda_J) is "
+                    "derived",
+    )
