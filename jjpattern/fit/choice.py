@@ -220,6 +220,20 @@ def _simplicity(trial: Trial, order: dict):
     return trial.parameters, order.get(trial.name, len(order))
 
 
+def _decide(trials, order):
+    """Sort ``trials`` by BIC; the simplest within the margin of the lowest is chosen.
+
+    Returns ``(chosen, lowest, runner-up or None, clear)``.
+    """
+    trials.sort(key=lambda t: t.bic)
+    lowest = trials[0]
+    within = [t for t in trials if t.bic - lowest.bic < MARGIN]
+    chosen = min(within, key=lambda t: _simplicity(t, order))
+    runner = next((t for t in trials if t is not chosen), None)
+    clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
+    return chosen, lowest, runner, clear
+
+
 def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
                  floor_dchi2=10.0, min_nodes=2) -> ModelChoice | None:
     """Quick-fit every model in ``names`` (default: all registered) and pick one by BIC.
@@ -248,12 +262,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     trials = [t for t in trials if not t.at_limit]
     if not trials:
         return None
-    trials.sort(key=lambda t: t.bic)
-    lowest = trials[0]
-    within = [t for t in trials if t.bic - lowest.bic < MARGIN]
-    chosen = min(within, key=lambda t: _simplicity(t, order))
-    runner = next((t for t in trials if t is not chosen), None)
-    clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
+    chosen, lowest, runner, clear = _decide(trials, order)
     block = {
         "criterion": CRITERION,
         "margin": MARGIN,
@@ -299,12 +308,7 @@ def joint_choice(blocks, names=None) -> dict | None:
               if v[4] == len(blocks)]
     if not trials:
         return None
-    trials.sort(key=lambda t: t.bic)
-    lowest = trials[0]
-    within = [t for t in trials if t.bic - lowest.bic < MARGIN]
-    chosen = min(within, key=lambda t: _simplicity(t, order))
-    runner = next((t for t in trials if t is not chosen), None)
-    clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
+    chosen, lowest, runner, clear = _decide(trials, order)
     return {
         "criterion": CRITERION, "margin": MARGIN, "branches": len(blocks),
         "chosen": chosen.name, "lowest_criterion": lowest.name,
