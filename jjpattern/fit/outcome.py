@@ -17,8 +17,9 @@ from .result import FIT_KEYS
 #: Nodes that must lie inside the window for the period to be identified.
 MIN_NODES = 2
 #: Fewer field steps (median) per fitted period than this: the sampling cannot tell the
-#: period from its aliases (the scan itself searches down to four steps per period).
-MIN_STEPS_PER_PERIOD = 3.0
+#: period from its aliases (the scan itself searches down to four steps per period, and
+#: about four points per period is the least that shows a lobe and its node).
+MIN_STEPS_PER_PERIOD = 4.0
 #: Reduced chi-square (against the model-free noise) above which the fit is poor and
 #: its numbers are withheld.
 POOR_FIT_REDCHI = 4.0
