@@ -31,7 +31,7 @@ def can_read(path) -> bool:
 def _sniff(path: str) -> str | None:
     from ..io.maps import looks_like_map
     from ..io.sweep import ic_branch_hint, is_field_name
-    from ..io.text import split_whitespace_header
+    from ..io.text import is_number, split_whitespace_header
     from ..io.units import split_header
 
     try:
@@ -61,7 +61,7 @@ def _sniff(path: str) -> str | None:
         float(first[0])
     except ValueError:
         return None
-    if len(names) < 2 or all(_is_number(n) for n in names):
+    if len(names) < 2 or all(is_number(n) for n in names):
         return None
     bare = [split_header(n)[0] for n in names]  # 'Isw_uA' -> 'Isw', 'B (mT)' -> 'B'
     has_field = any(is_field_name(n) for n in bare)
@@ -70,14 +70,6 @@ def _sniff(path: str) -> str | None:
     if has_field and any(ic_branch_hint(n) is not None for n in bare):
         return "sweep"
     return None
-
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
 
 
 def starter_manifest(folder, out_path=None) -> tuple[str, list[str]]:

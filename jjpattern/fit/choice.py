@@ -223,7 +223,8 @@ def _simplicity(trial: Trial, order: dict):
 def _decide(trials, order):
     """Sort ``trials`` by BIC; the simplest within the margin of the lowest is chosen.
 
-    Returns ``(chosen, lowest, runner-up or None, clear)``.
+    Returns ``(chosen, verdict)``, the verdict being the block's keys from ``chosen`` to
+    ``candidates``.
     """
     trials.sort(key=lambda t: t.bic)
     lowest = trials[0]
@@ -231,7 +232,18 @@ def _decide(trials, order):
     chosen = min(within, key=lambda t: _simplicity(t, order))
     runner = next((t for t in trials if t is not chosen), None)
     clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
-    return chosen, lowest, runner, clear
+    return chosen, {
+        "chosen": chosen.name,
+        "lowest_criterion": lowest.name,
+        "runner_up": None if runner is None else runner.name,
+        "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
+        "decision": "clear" if clear else "near tie",
+        "candidates": [{"model": t.name, "bic": float(t.bic),
+                        "delta_bic": float(t.bic - lowest.bic),
+                        "chisq_over_noise": float(t.chisq_over_noise),
+                        "parameters": t.parameters, "node_floor": t.floor}
+                       for t in trials],
+    }
 
 
 def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
@@ -262,24 +274,9 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     trials = [t for t in trials if not t.at_limit]
     if not trials:
         return None
-    chosen, lowest, runner, clear = _decide(trials, order)
-    block = {
-        "criterion": CRITERION,
-        "margin": MARGIN,
-        "noise_A": float(noise_A),
-        "points": int(x.size),
-        "chosen": chosen.name,
-        "lowest_criterion": lowest.name,
-        "runner_up": None if runner is None else runner.name,
-        "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
-        "decision": "clear" if clear else "near tie",
-        "candidates": [{"model": t.name, "bic": float(t.bic),
-                        "delta_bic": float(t.bic - lowest.bic),
-                        "chisq_over_noise": float(t.chisq_over_noise),
-                        "parameters": t.parameters, "node_floor": t.floor}
-                       for t in trials],
-        "excluded": excluded,
-    }
+    chosen, verdict = _decide(trials, order)
+    block = {"criterion": CRITERION, "margin": MARGIN, "noise_A": float(noise_A),
+             "points": int(x.size), **verdict, "excluded": excluded}
     return ModelChoice(chosen.name, units.to_si(chosen.params), block)
 
 
@@ -308,15 +305,5 @@ def joint_choice(blocks, names=None) -> dict | None:
               if v[4] == len(blocks)]
     if not trials:
         return None
-    chosen, lowest, runner, clear = _decide(trials, order)
-    return {
-        "criterion": CRITERION, "margin": MARGIN, "branches": len(blocks),
-        "chosen": chosen.name, "lowest_criterion": lowest.name,
-        "runner_up": None if runner is None else runner.name,
-        "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
-        "decision": "clear" if clear else "near tie",
-        "candidates": [{"model": t.name, "bic": float(t.bic),
-                        "delta_bic": float(t.bic - lowest.bic),
-                        "chisq_over_noise": float(t.chisq_over_noise),
-                        "parameters": t.parameters, "node_floor": t.floor} for t in trials],
-    }
+    _, verdict = _decide(trials, order)
+    return {"criterion": CRITERION, "margin": MARGIN, "branches": len(blocks), **verdict}

@@ -83,7 +83,8 @@ def split_whitespace_header(line: str) -> list[str]:
     return merged
 
 
-def _is_number(text: str) -> bool:
+def is_number(text: str) -> bool:
+    """Whether ``text`` reads as a number (a header of numbers is no header)."""
     try:
         float(text)
     except ValueError:
@@ -154,7 +155,7 @@ def read_table(text: str, source: str, decimal: str | None = None,
         names = split_whitespace_header(header)
     else:
         names = [n.strip().strip('"').strip("'") for n in header.split(delim)]
-    if all(_is_number(n) for n in names if n):
+    if all(is_number(n) for n in names if n):
         raise InputError(f"{source}: line {header_no} is numbers, not a header; add a header "
                          "row such as 'B (mT), Ic (uA)'")
     if len(names) < 2:
