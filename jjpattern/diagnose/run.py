@@ -7,8 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..fit.engine import local_fit
-from ..fit.models import MODELS
+from ..fit.reported import weighted_fit
 from ..physics import geometry as geo
 from ..physics.models import get_model
 from ..result import stderr_key
@@ -36,21 +35,25 @@ class GeometryInputs:
 
 def _half_periods(fit):
     """Period fitted separately below and above the offset (offset and floor held)."""
-    if fit.field_offset_T is None or fit.lmfit_result is None:
+    result = fit.fit_result
+    if fit.field_offset_T is None or result is None:
         return None
     x, y, b0, p = fit.field_T, fit.ic_A, fit.field_offset_T, fit.period_T
-    first = float(get_model(fit.model).nodes(1, fit.extra_params)[0])
-    model = MODELS[fit.model]()
+    spec = get_model(fit.model)
+    first = float(spec.nodes(1, fit.extra_params)[0])
+    units = result.units
+    start = units.to_unit({k: q.value for k, q in result.params.items()
+                           if k != "effective_area_m2"})
+    names = [n for n in result.var_names if n not in ("field_offset_T", "floor_A")]
     out = []
     for side in (x < b0, x > b0):
         if np.sum(side) < 20 or np.ptp(x[side]) < (first + 1.5) * p:
             return None
-        params = fit.lmfit_result.params.copy()
-        params["field_offset_T"].set(vary=False)
-        params["floor_A"].set(vary=False)
-        res = local_fit(model, y[side], x[side], params, "linear", 1.0)
-        err = res.params["period_T"].stderr
-        out.append((abs(res.params["period_T"].value), err))
+        params, covar, _ = weighted_fit(spec, units.field(x[side]), y[side] / units.scale_A,
+                                        start, names, 1.0)
+        k = names.index("period_T")
+        err = None if covar is None else float(np.sqrt(covar[k, k])) * units.span_T
+        out.append((abs(params["period_T"]) * units.span_T, err))
     return out
 
 
@@ -115,7 +118,7 @@ def _correlation(fit, first: str, second: str) -> float:
     The patterns are even in period and Ic0 and the fit is unbounded, so a parameter
     may converge negative; the magnitudes' correlation carries the signs' product.
     """
-    result = getattr(fit, "lmfit_result", None)
+    result = getattr(fit, "fit_result", None)
     names = list(getattr(result, "var_names", None) or [])
     covar = getattr(result, "covar", None)
     if covar is None or first not in names or second not in names:
@@ -249,7 +252,7 @@ def _trial(fit):
     """
     p = fit.best_params
     floor = err = None
-    result = fit.lmfit_result
+    result = fit.fit_result
     if (fit.withheld.get("reason") != "undersampled" and result is not None
             and "floor_A" in result.params and result.params["floor_A"].vary):
         floor, err = p["floor_A"], result.params["floor_A"].stderr
