@@ -18,10 +18,13 @@ import numpy as np
 
 from ..physics.models.spec import BASE_PARAMETERS
 
-#: Relative tolerances of the inner fits: their chi-squares are then within 1e-3 noise units
-#: for a thousand points, far below every threshold they are compared with (10 or more),
-#: and the reported fit (MINPACK's default tolerances) polishes the chosen one.
-_TOL = 1e-6
+#: Chi-square accuracy of the inner fits in noise units: the relative tolerance is this over
+#: the number of points (the chi-square over the noise is about that number), at most
+#: ``_TOL``; a hundredth of the smallest threshold (10) they are compared with.
+_CHISQ_ACCURACY = 0.1
+#: Largest relative tolerance of the inner fits; the reported fit (MINPACK's default
+#: tolerances) polishes the chosen one.
+_TOL = 1e-4
 
 
 @dataclass(frozen=True)
@@ -128,17 +131,19 @@ def _jacobian(spec, x, names, fixed):
 
 
 def solve(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
-          tol: float = _TOL) -> Local:
+          tol: float | None = None) -> Local:
     """Least squares of ``spec`` from ``start`` with scipy alone, normalised units.
 
     ``loss == "linear"`` runs MINPACK (``lmder`` with the analytic gradient, else
-    ``lmdif``) to relative tolerances ``tol``; a robust loss runs scipy's trust-region
+    ``lmdif``) to relative tolerances ``tol`` (default ``_CHISQ_ACCURACY`` over the number
+    of points, at most ``_TOL``); a robust loss runs scipy's trust-region
     reflective solver.
     """
     from scipy import optimize
 
     params = full_params(spec, start, floor)
     names = free_names(spec, floor)
+    tol = min(_TOL, _CHISQ_ACCURACY / max(x.size, 1)) if tol is None else tol
     fixed = {k: v for k, v in params.items() if k not in names}
     v0 = np.array([params[n] for n in names])
 
