@@ -32,8 +32,8 @@ _MISSING = {"", "nan", "na", "n/a", "none", "null", "-", "--"}
 _NA_TOKENS = sorted({v for m in _MISSING for v in (m, m.upper(), m.title())} | {"NaN"})
 _NA_SET = frozenset(_NA_TOKENS)
 _COMMENT_LINE = re.compile(r"^[ \t]*#.*$", re.MULTILINE)
-#: Rows up to this many characters may be parsed without pandas (a few thousand lines:
-#: well under the 0.25 s that importing pandas costs).
+#: Rows up to this many characters may be parsed without pandas: about 12 000 rows of three
+#: numbers, parsed in about 30 ms, against 0.14-0.25 s for importing pandas.
 PLAIN_MAX_CHARS = 1 << 18
 # A decimal number with at least one (ASCII) digit, as both Python's float and pandas read it.
 _PLAIN_NUMBER = {mark: re.compile(rf"[+-]?(?=\{mark}?[0-9])[0-9]*(?:\{mark}[0-9]*)?"
