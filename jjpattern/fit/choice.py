@@ -130,6 +130,17 @@ class _Scans:
         return self._cache[key]
 
 
+def _ranked(spec, x, y, periods, offset_T, shape):
+    """Least-squares cost and closed-form amplitude of the model at each period in
+    ``periods`` (one broadcast evaluation; one per period for a formula that does not
+    broadcast)."""
+    t = spec.formula(x[None, :], 1.0, periods[:, None], offset_T, 0.0, **shape)
+    if np.shape(t) != (periods.size, x.size):
+        t = np.array([spec.formula(x, 1.0, p, offset_T, 0.0, **shape) for p in periods])
+    amp = (t @ y) / np.maximum(np.einsum("ij,ij->i", t, t), 1e-300)
+    return np.sum((amp[:, None] * t - y[None, :]) ** 2, axis=1), amp
+
+
 def shape_start(spec, x, y, period_T, offset_T, first_T=None, factors=_PERIOD_FACTORS):
     """Start of a model from another model's period and offset: the period that puts its
     first node where the other's was (``first_T`` from the offset; by default where the
@@ -146,15 +157,12 @@ def shape_start(spec, x, y, period_T, offset_T, first_T=None, factors=_PERIOD_FA
     best = (np.inf, None)
     for value in values:
         shape = {} if grid_param is None else {grid_param.name: value}
-        node = float(spec.nodes(1, shape or None)[0])
-        for factor in factors:
-            period = first_T / node * factor
-            t = spec.formula(x, 1.0, period, offset_T, 0.0, **shape)
-            amp = float(np.dot(t, y) / max(np.dot(t, t), 1e-300))
-            cost = float(np.sum((amp * t - y) ** 2))
-            if cost < best[0]:
-                best = (cost, {"ic0_A": amp, "period_T": period, "field_offset_T": offset_T,
-                               **shape})
+        periods = first_T / float(spec.nodes(1, shape or None)[0]) * np.asarray(factors)
+        cost, amp = _ranked(spec, x, y, periods, offset_T, shape)
+        i = int(np.argmin(cost))
+        if cost[i] < best[0]:
+            best = (float(cost[i]), {"ic0_A": float(amp[i]), "period_T": float(periods[i]),
+                                     "field_offset_T": offset_T, **shape})
     return best[1]
 
 
