@@ -93,9 +93,10 @@ def analysis_parent() -> argparse.ArgumentParser:
 
     names = model_names()
     group.add_argument("--model", "--geometry", dest="model", choices=("auto",) + names,
-                       default="rectangular", metavar="MODEL",
-                       help="pattern model (default: rectangular; auto fits every model and "
-                            "chooses by the Bayesian information criterion with a margin): "
+                       default="auto", metavar="MODEL",
+                       help="pattern model (default: auto, which fits every model and "
+                            "chooses by the Bayesian information criterion with a margin; "
+                            "a name fits that model alone): "
                             + "; ".join(
                            f"{n}: {get_model(n).description}" for n in names))
     group.add_argument("--node-floor", choices=("auto", "on", "off"), default="auto",

@@ -27,11 +27,13 @@ import numpy as np
 from ..physics.models import get_model, model_names
 from .far import far_lobe_start, periodic_candidate
 from .lsq import Units, full_params, robust_weight, solve
+from .outcome import POOR_FIT_REDCHI
+from .runs import runs_z
 from .scan import scan_pattern
 
-__all__ = ["CRITERION", "DESCRIBES_REDCHI", "MARGIN", "ModelChoice", "Trial", "choose_model",
-           "joint_choice", "quick_fit", "rival_start", "robust_weight", "shape_start",
-           "trial_fit"]
+__all__ = ["CRITERION", "DESCRIBES_REDCHI", "MARGIN", "RUNS_Z", "ModelChoice", "Trial",
+           "choose_model", "joint_choice", "quick_fit", "rival_start", "robust_weight",
+           "shape_start", "trial_fit"]
 
 #: BIC difference that makes a choice clear (Kass and Raftery 1995: "very strong").
 MARGIN = 10.0
@@ -43,6 +45,11 @@ CRITERION = "BIC"
 #: and then names physics the junction need not have; the rectangle's departures are read
 #: by the diagnostics instead. Below it, rivals also need no scans of their own.
 DESCRIBES_REDCHI = 2.0
+#: A model other than the reference is chosen only where the signs of its residuals in field
+#: order pass the runs test (``runs.py``) at this one-sided normal score: a model that bends
+#: towards a pattern it does not describe leaves long runs of one sign (a Gaussian current
+#: profile fitted as a long overlap junction at 2.5 % noise: z = -7; the right model: |z| < 2).
+RUNS_Z = 4.0
 #: Shape-parameter starts: the period found by the scan is also tried at these factors.
 _PERIOD_FACTORS = (0.7, 0.85, 1.0, 1.2, 1.45)
 #: Points (every k-th) on which starts are ranked.
@@ -66,6 +73,7 @@ class Trial:
     at_limit: list = field(default_factory=list)
     points: int = 0
     shaped: bool = False
+    runs_z: float = 0.0
 
     @property
     def reduced_chisq(self) -> float:
@@ -228,6 +236,7 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
     # The full fit of the chosen model takes the floor decision made here.
     params["floor_gain"] = gain if floored else None
     trial = Trial(spec.name, params, chisq / noise**2, k, floored, points=int(x.size))
+    trial.runs_z = runs_z(spec.formula(x, **full_params(spec, params, floored)) - y)
     trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
     return trial
 
@@ -290,9 +299,13 @@ def _simplicity(trial: Trial, order: dict):
 
 def _decide(trials, order):
     """Sort ``trials`` by BIC; the simplest within the margin of the lowest is chosen,
-    unless it has a free shape parameter and does not describe the data (reduced
-    chi-square above ``DESCRIBES_REDCHI``): then it is set aside and the choice made
-    among the rest.
+    unless it is not the reference and does not describe the data (``_unlike``: a shape
+    parameter with a reduced chi-square above ``DESCRIBES_REDCHI``, or residual signs that
+    fail the runs test): then it is set aside and the choice made among the rest.
+
+    Where the model so chosen misses the data (reduced chi-square above
+    ``POOR_FIT_REDCHI``, where its numbers would be withheld), the reference model (first
+    in ``order``) is reported instead and the decision is ``"none fits"``.
 
     Returns ``(chosen, verdict)``, the verdict being the block's keys from ``chosen`` to
     ``set_aside``.
@@ -303,32 +316,51 @@ def _decide(trials, order):
         lowest = rest[0]
         within = [t for t in rest if t.bic - lowest.bic < MARGIN]
         chosen = min(within, key=lambda t: _simplicity(t, order))
-        if not (chosen.shaped and chosen.reduced_chisq > DESCRIBES_REDCHI and len(rest) > 1):
+        reason = _unlike(chosen, order)
+        if reason is None or len(rest) == 1:
             break
-        set_aside.append(chosen)
+        set_aside.append((chosen, reason))
         rest.remove(chosen)
-    runner = next((t for t in rest if t is not chosen), None)
-    clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
+    decision = ("clear" if chosen is lowest and (len(rest) == 1 or sorted(
+        t.bic for t in rest)[1] - chosen.bic >= MARGIN) else "near tie")
+    # Where no model describes the data, none is named: the reference (the simplest, the
+    # uniform junction) is reported, its numbers withheld as a poor fit, and its
+    # departures read by the diagnostics.
+    reference = min(trials, key=lambda t: order.get(t.name, len(order)))
+    if chosen.reduced_chisq > POOR_FIT_REDCHI:
+        chosen, decision = reference, "none fits"
+    aside = [t for t, _ in set_aside]
+    runner = next((t for t in trials if t is not chosen and t not in aside), None)
     return chosen, {
         "chosen": chosen.name,
         "lowest_criterion": trials[0].name,
         "runner_up": None if runner is None else runner.name,
         "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
-        "decision": "clear" if clear else "near tie",
+        "decision": decision,
         "candidates": [{"model": t.name, "bic": float(t.bic),
                         "delta_bic": float(t.bic - trials[0].bic),
                         "chisq_over_noise": float(t.chisq_over_noise),
                         "reduced_chisq": float(t.reduced_chisq),
                         "parameters": t.parameters, "node_floor": t.floor,
-                        "shape_parameter": t.shaped}
+                        "shape_parameter": t.shaped, "residual_runs_z": float(t.runs_z)}
                        for t in trials],
         "set_aside": [{"model": t.name, "reduced_chisq": float(t.reduced_chisq),
-                       "threshold": DESCRIBES_REDCHI,
-                       "reason": (f"its shape parameter lets it bend towards data it does "
-                                  f"not describe (reduced chi-square {t.reduced_chisq:.3g} "
-                                  f"above {DESCRIBES_REDCHI:g})")}
-                      for t in set_aside],
+                       "residual_runs_z": float(t.runs_z), "reason": reason}
+                      for t, reason in set_aside],
     }
+
+
+def _unlike(trial, order):
+    """Why a model other than the reference does not describe the data, or ``None``."""
+    if order.get(trial.name, len(order)) == 0:
+        return None
+    if trial.shaped and trial.reduced_chisq > DESCRIBES_REDCHI:
+        return (f"its shape parameter lets it bend towards data it does not describe "
+                f"(reduced chi-square {trial.reduced_chisq:.3g} above {DESCRIBES_REDCHI:g})")
+    if trial.runs_z < -RUNS_Z:
+        return (f"its residuals run in long stretches of one sign (runs test z = "
+                f"{trial.runs_z:.1f}, below -{RUNS_Z:g})")
+    return None
 
 
 def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
@@ -409,7 +441,7 @@ def joint_choice(blocks, names=None) -> dict | None:
     per_model = {}
     for block in blocks:
         for c in block["candidates"]:
-            entry = per_model.setdefault(c["model"], [0.0, 0.0, 0, False, 0, 0, False])
+            entry = per_model.setdefault(c["model"], [0.0, 0.0, 0, False, 0, 0, False, 0.0])
             entry[0] += c["bic"]
             entry[1] += c["chisq_over_noise"]
             entry[2] += c["parameters"]
@@ -417,7 +449,10 @@ def joint_choice(blocks, names=None) -> dict | None:
             entry[4] += 1
             entry[5] += int(block.get("points", 0))
             entry[6] |= bool(c.get("shape_parameter", False))
-    trials = [Trial(m, {}, v[1], v[2], v[3], v[0], points=v[5], shaped=v[6])
+            entry[7] += float(c.get("residual_runs_z", 0.0))
+    # The branches' runs scores combined as independent normal scores (Stouffer).
+    trials = [Trial(m, {}, v[1], v[2], v[3], v[0], points=v[5], shaped=v[6],
+                    runs_z=v[7] / np.sqrt(v[4]))
               for m, v in per_model.items() if v[4] == len(blocks)]
     if not trials:
         return None

@@ -148,7 +148,13 @@ def _model_choice_text(result, cited) -> str:
     for where, c in choices:
         if c.get("runner_up") is None:
             continue
-        if c["decision"] == "clear":
+        for a in c.get("set_aside") or []:
+            text += (f" For the {where} the {a['model']} model was set aside because "
+                     f"{a['reason']}.")
+        if c["decision"] == "none fits":
+            text += (f" For the {where} no model described the data, so the reference "
+                     f"{c['chosen']} model is reported, its numbers withheld.")
+        elif c["decision"] == "clear":
             text += (f" For the {where} {c['chosen']} had the lowest BIC, with "
                      f"{c['runner_up']} next, higher by {c['criterion_difference']:.1f}.")
         else:
