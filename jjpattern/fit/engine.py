@@ -190,7 +190,9 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
     def refit(params, floor=False):
         return solve(spec, xn, yn, params, floor=floor, loss=loss, f_scale=f_scale)
 
-    local = refit(start)
+    # The choice's converged parameters, with the floor it decided on: one short refit.
+    chosen_floor = decided and choice_gain is not None and not spec.periodic
+    local = refit(start, floor=chosen_floor)
     offset = local.params["field_offset_T"]
     if not given and not spec.periodic and (not xn[0] <= offset <= xn[-1] or nodes_in_window(
             spec, xn, abs(local.params["period_T"]), offset,
@@ -202,10 +204,7 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
             if alt.chisq < local.chisq:
                 local = alt
     gain = None
-    if decided and choice_gain is not None and not spec.periodic:
-        local = refit(dict(local.params, floor_A=max(abs(start.get("floor_A", 0.0)),
-                                                     0.05 * abs(local.params["ic0_A"]))),
-                      floor=True)
+    if chosen_floor:
         gain = choice_gain
     elif not decided and node_floor != "off" and not spec.periodic:
         floored = refit(dict(local.params, floor_A=max(
