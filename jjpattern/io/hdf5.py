@@ -15,8 +15,6 @@ and netCDF's own attributes are left out of the metadata.
 
 from __future__ import annotations
 
-import io
-
 import numpy as np
 
 from ..errors import InputError
@@ -55,7 +53,7 @@ def read(source, settings, kind: str = "auto"):
     try:
         # BytesIO shares the bytes that were hashed: what is read is what was hashed.
         handle = (h5py.File(source.path, "r") if outside.allowed
-                  else h5py.File(io.BytesIO(source.raw), "r"))
+                  else h5py.File(source.stream(), "r"))
     except DAMAGE as exc:
         raise InputError(f"{source.path}: not a readable HDF5 file "
                          f"({exc.__class__.__name__})") from None
@@ -172,11 +170,12 @@ def _dataset(handle, name, path, outside):
     return found
 
 
-def _floats(ds, path, settings, outside) -> np.ndarray:
+def _floats(ds, path, settings, outside, raw=None) -> np.ndarray:
     """The dataset as float64, converted by HDF5 while reading (no second copy).
 
     Its size is checked from its declared shape and where its values live (another
-    file?) before anything is read.
+    file?) before anything is read. Given the file's bytes ``raw``, a map stored there
+    as it is comes back as a view of them (:func:`_stored`), not as a copy.
     """
     if ds.dtype.kind == "c" or (ds.dtype.names and set(ds.dtype.names) == {"r", "i"}):
         real(np.zeros(0, complex), path, f"dataset {clip(ds.name)}")
@@ -185,11 +184,42 @@ def _floats(ds, path, settings, outside) -> np.ndarray:
     check_points(path, f"dataset {ds.name}", ds.shape, settings)
     ds = outside.dataset(ds)
     try:
+        stored = None if raw is None else _stored(ds, raw)
+        if stored is not None:
+            return stored
         if ds.dtype == np.float64:
             return np.asarray(ds[()])
         return np.asarray(ds.astype(np.float64)[()])
     except DAMAGE as exc:
         raise damaged(path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+
+
+def _stored(ds, raw):
+    """A 2-D float64 dataset as a writable view of the file's bytes, or ``None``.
+
+    Only when HDF5 keeps it there as it is (one contiguous, unfiltered block of native
+    float64 inside this file, aligned) and it is at least half the file: the map then
+    costs no memory beside the file's bytes, which a view keeps alive. The first and last
+    values HDF5 reads must be the view's.
+    """
+    import h5py
+
+    if ds.ndim != 2 or ds.size == 0 or ds.dtype != np.dtype(float) or ds.is_virtual:
+        return None
+    plist = ds.id.get_create_plist()
+    if (plist.get_layout() != h5py.h5d.CONTIGUOUS or plist.get_nfilters()
+            or plist.get_external_count()):
+        return None
+    offset, nbytes = ds.id.get_offset(), ds.size * 8
+    if (offset is None or offset % 8 or offset + nbytes > len(raw) or 2 * nbytes < len(raw)
+            or ds.id.get_storage_size() != nbytes):
+        return None
+    values = np.frombuffer(raw, np.float64, ds.size, offset).reshape(ds.shape)
+    count = min(ds.shape[1], 64)
+    for row, cols in ((0, slice(0, count)), (-1, slice(-count, None))):
+        if ds[row, cols].tobytes() != values[row, cols].tobytes():
+            return None
+    return values
 
 
 def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
@@ -247,7 +277,11 @@ def _map(handle, root, source, settings, metadata, outside):
         else:
             names[role] = pick_column(list(root), role, None, path, f"{role} dataset")
             found[role] = root[names[role]]
-    arrays = {role: _floats(ds, path, settings, outside) for role, ds in found.items()}
+    # The signal last, from the file's bytes when it can be: from_arrays converts it in
+    # place once h5py has read everything else (it is not read from the file again).
+    raw = None if outside.allowed else source.raw
+    arrays = {role: _floats(ds, path, settings, outside, raw if role == "signal" else None)
+              for role, ds in found.items()}
     units = {names[role]: unit for role, ds in found.items()
              if (unit := _unit(ds)) is not None}
     return from_arrays(arrays["field"], arrays["bias"], arrays["signal"], units, names,

@@ -182,11 +182,9 @@ def _permute_rows(values, order) -> None:
         values[i], done[i] = saved, True
 
 
-def _rows_si(values, order, factor, owned):
-    """Rows in field order, C-contiguous, times ``factor``; at most one copy.
-
-    ``owned`` arrays (just read from a file) are reordered and scaled in place.
-    """
+def _rows(values, order, owned):
+    """``(rows in field order, C-contiguous; whether they may be changed in place)``, at
+    most one copy. ``owned`` arrays (just read from a file) are reordered in place."""
     if not values.flags.c_contiguous:
         values, owned = np.ascontiguousarray(values), True
     if order is not None:
@@ -194,6 +192,12 @@ def _rows_si(values, order, factor, owned):
             _permute_rows(values, order)
         else:
             values, owned = values[order], True
+    return values, owned and values.flags.writeable
+
+
+def _rows_si(values, order, factor, owned):
+    """Rows in field order, C-contiguous, times ``factor``; at most one copy."""
+    values, owned = _rows(values, order, owned)
     if factor == 1.0:
         return values
     if owned:
@@ -254,8 +258,11 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     # Signalling NaNs of a damaged file stay NaN quietly; an overflow to infinity is refused
     # by the checks below.
     with np.errstate(invalid="ignore", over="ignore"):
-        signal = _rows_si(sig, order, s_factor, owned)
-        check_signal(source, clip(names["signal"]), signal, kind)
+        signal, owned = _rows(sig, order, owned)
+        if not owned and s_factor != 1.0:
+            signal, s_factor = signal * s_factor, 1.0
+        # An owned signal is scaled in place by the check, in the same pass over the map.
+        check_signal(source, clip(names["signal"]), signal, kind, scale=s_factor)
         if bias_raw.ndim == 1:
             bias = np.broadcast_to(bias_raw * b_factor, signal.shape)
         else:

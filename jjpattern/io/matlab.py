@@ -10,8 +10,6 @@ MATLAB's orientation (n_field x n_bias, or transposed).
 
 from __future__ import annotations
 
-import io
-
 import numpy as np
 
 from ..errors import InputError
@@ -53,9 +51,9 @@ def _v5(source, settings):
     try:
         # The variables' sizes from their headers first: a declared-huge array is refused
         # before anything is read.
-        for name, shape, _ in whosmat(io.BytesIO(source.raw)):
+        for name, shape, _ in whosmat(source.stream()):
             check_points(source.path, f"variable {name}", shape, settings)
-        data = loadmat(io.BytesIO(source.raw), simplify_cells=True)
+        data = loadmat(source.stream(), simplify_cells=True)
     except NotImplementedError:  # scipy says "use HDF reader" for v7.3 without the header
         return _v73(source, settings)
     except InputError:
@@ -100,7 +98,7 @@ def _v73(source, settings):
     from .hdf5 import DAMAGE
 
     try:
-        handle = h5py.File(io.BytesIO(source.raw), "r")
+        handle = h5py.File(source.stream(), "r")
     except DAMAGE as exc:
         raise InputError(f"{source.path}: not a readable MATLAB v7.3 file "
                          f"({exc.__class__.__name__})") from None

@@ -13,7 +13,6 @@ needs the extra.
 from __future__ import annotations
 
 import gc
-import io
 import sys
 
 import numpy as np
@@ -86,7 +85,7 @@ def _open(xr, source, engine):
     sys.unraisablehook = lambda unraisable: None
     try:
         try:
-            return xr.open_dataset(io.BytesIO(source.raw), engine=engine)
+            return xr.open_dataset(source.stream(), engine=engine)
         except ImportError as exc:  # xarray without h5netcdf (or scipy's netCDF support)
             failure = InputError(f"{source.path}: reading this netCDF file needs "
                                  f"{exc.name or engine}; install the optional extra netcdf "

@@ -6,7 +6,6 @@ Keys are column names with their unit (``B_mT``, ``Ic_uA``); an optional
 
 from __future__ import annotations
 
-import io
 import json
 import struct
 import zipfile
@@ -17,6 +16,7 @@ import numpy as np
 from ..errors import InputError
 from .containers import listing
 from .limits import LazyColumns, check_points, clip, damaged, real
+from .source import BufferStream
 from .sweep import build_sweep
 
 NAME = "npz"
@@ -42,14 +42,14 @@ _DAMAGE = (zipfile.BadZipFile, zlib.error, OSError, EOFError, ValueError, KeyErr
            NotImplementedError, struct.error, OverflowError)
 
 
-def read_columns(raw: bytes, source: str, settings=None) -> tuple[LazyColumns, dict]:
+def read_columns(raw, source: str, settings=None) -> tuple[LazyColumns, dict]:
     """Return ``(columns, metadata)`` from the bytes of an ``.npz`` archive.
 
     Every member's shape and type come from its ``.npy`` header; arrays are read
     only when used, and never through pickle.
     """
     try:
-        archive = zipfile.ZipFile(io.BytesIO(raw))
+        archive = zipfile.ZipFile(BufferStream(raw))
         members = archive.infolist()
     except _DAMAGE as exc:
         if not raw.startswith(b"PK"):

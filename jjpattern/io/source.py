@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import io
 import os
 from dataclasses import dataclass
 
@@ -17,8 +18,10 @@ class Source:
     ----------
     path : str
         As given by the user (used in messages and recorded in results).
-    raw : bytes or None
-        The whole file; ``None`` for a folder, whose reader reads each file once.
+    raw : bytearray or None
+        The whole file; ``None`` for a folder, whose reader reads each file once. A
+        reader may convert an array inside it in place once it has parsed everything
+        else (the HDF5 map reader does), so a Source is given to one reader only.
     sha256 : str or None
         Hex SHA-256 of ``raw``; ``None`` for a folder (see :func:`folder_sha256`).
     suffix : str
@@ -26,13 +29,66 @@ class Source:
     """
 
     path: str
-    raw: bytes | None
+    raw: bytearray | None
     sha256: str | None
     suffix: str
 
     @property
     def is_folder(self) -> bool:
         return self.raw is None
+
+    def stream(self) -> BufferStream:
+        """The bytes as a read-only binary file, without a copy (``io.BytesIO`` copies a
+        bytearray)."""
+        return BufferStream(self.raw)
+
+
+class BufferStream(io.RawIOBase):
+    """A read-only binary file over a buffer; seeks and reads as ``io.BytesIO`` does."""
+
+    def __init__(self, buffer):
+        super().__init__()
+        self._view = memoryview(buffer).cast("B")
+        self._pos = 0
+
+    def readable(self) -> bool:
+        return True
+
+    def seekable(self) -> bool:
+        return True
+
+    def tell(self) -> int:
+        self._checkClosed()
+        return self._pos
+
+    def seek(self, pos: int, whence: int = 0) -> int:
+        self._checkClosed()
+        pos = int(pos)
+        if whence not in (0, 1, 2):
+            raise ValueError(f"invalid whence ({whence}, should be 0, 1 or 2)")
+        if whence == 0 and pos < 0:
+            raise ValueError(f"negative seek value {pos}")
+        pos += (0, self._pos, len(self._view))[whence]
+        self._pos = max(pos, 0)
+        return self._pos
+
+    def readinto(self, target) -> int:
+        self._checkClosed()
+        with memoryview(target) as out, out.cast("B") as flat:
+            chunk = self._view[self._pos:self._pos + flat.nbytes]
+            flat[:len(chunk)] = chunk
+        self._pos += len(chunk)
+        return len(chunk)
+
+    def read(self, size: int | None = -1) -> bytes:
+        self._checkClosed()
+        end = len(self._view) if size is None or size < 0 else self._pos + size
+        data = self._view[self._pos:end].tobytes()
+        self._pos += len(data)
+        return data
+
+    def readall(self) -> bytes:
+        return self.read()
 
 
 def open_source(path, settings=None) -> Source:
@@ -48,15 +104,38 @@ def open_source(path, settings=None) -> Source:
     if os.path.isdir(path):
         return Source(path, None, None, "")
     try:
-        with open(path, "rb") as handle:
-            check_file_size(path, os.fstat(handle.fileno()).st_size, settings)
-            raw = handle.read()
+        with open(path, "rb", buffering=0) as handle:
+            size = os.fstat(handle.fileno()).st_size
+            check_file_size(path, size, settings)
+            raw = _read_all(handle, size, path, settings)
     except OSError as exc:
         raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
     # isspace() stops at the first other byte; strip() could copy a large binary file.
     if not raw or raw.isspace():
         raise InputError(f"{path}: the file is empty")
     return Source(path, raw, hashlib.sha256(raw).hexdigest(), os.path.splitext(path)[1].lower())
+
+
+def _read_all(handle, size: int, path: str, settings) -> bytearray:
+    """The file's bytes into one buffer of its declared size (no second copy); a file
+    that shrinks or grows meanwhile is read to its end, the size checked again."""
+    from .limits import check_file_size
+
+    raw = bytearray(size)
+    with memoryview(raw) as view:
+        done = 0
+        while done < size:
+            count = handle.readinto(view[done:])
+            if not count:
+                break
+            done += count
+    if done < size:
+        del raw[done:]
+    tail = handle.read()
+    if tail:
+        check_file_size(path, len(raw) + len(tail), settings)
+        raw += tail
+    return raw
 
 
 def folder_files(folder: str) -> list[str]:
