@@ -51,7 +51,7 @@ def read(source, settings, kind: str = "auto"):
 
     outside = Outside(source, settings)
     try:
-        # BytesIO shares the bytes that were hashed: what is read is what was hashed.
+        # The stream reads the very bytes that were hashed: what is read is what was hashed.
         handle = (h5py.File(source.path, "r") if outside.allowed
                   else h5py.File(source.stream(), "r"))
     except DAMAGE as exc:
