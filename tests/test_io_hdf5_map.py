@@ -171,3 +171,19 @@ def test_view_only_where_hdf5_reads_the_same_bytes(tmp_path):
         assert np.array_equal(_stored(ds, raw), ds[()])
         raw[ds.id.get_offset()] ^= 0xFF  # the bytes given are not the file HDF5 reads
         assert _stored(ds, raw) is None
+
+
+def test_arrays_not_owned_are_left_as_given():
+    from jjpattern.io.maps import from_arrays
+
+    rng = np.random.default_rng(7)
+    field = np.array([2.0, 1.0, 0.0])  # descending: rows are reordered
+    bias = rng.normal(size=(3, 5))  # one bias row per field step
+    signal = rng.normal(size=(3, 5))
+    given = field.copy(), bias.copy(), signal.copy()
+    got = from_arrays(field, bias, signal, {"f": "mT", "b": "uA", "s": "uV"},
+                      {"field": "f", "bias": "b", "signal": "s"}, source="x", sha256=None,
+                      metadata={}, settings=ReadSettings())
+    assert all(np.array_equal(a, b) for a, b in zip((field, bias, signal), given, strict=True))
+    assert np.array_equal(got.signal, signal[::-1] * 1e-6)
+    assert np.array_equal(got.bias_A, bias[::-1] * 1e-6)

@@ -258,8 +258,8 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     # Signalling NaNs of a damaged file stay NaN quietly; an overflow to infinity is refused
     # by the checks below.
     with np.errstate(invalid="ignore", over="ignore"):
-        signal, owned = _rows(sig, order, owned)
-        if not owned and s_factor != 1.0:
+        signal, in_place = _rows(sig, order, owned)
+        if not in_place and s_factor != 1.0:
             signal, s_factor = signal * s_factor, 1.0
         # An owned signal is scaled in place by the check, in the same pass over the map.
         check_signal(source, clip(names["signal"]), signal, kind, scale=s_factor)
