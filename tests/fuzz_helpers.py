@@ -10,6 +10,7 @@ from __future__ import annotations
 import io
 import math
 import os
+import tracemalloc
 
 import h5py
 import numpy as np
@@ -17,7 +18,7 @@ import scipy.io
 from hypothesis import HealthCheck, settings
 from scipy import constants
 
-from jjpattern.io import IVMap, Sweep
+from jjpattern.io import IVMap, Sweep, read
 from jjpattern.io.limits import MAX_CURRENT_A, MAX_FIELD_T
 from jjpattern.io.sweep import MIN_POINTS
 
@@ -33,6 +34,17 @@ _FACTOR = 50 if PROFILE == "long" else 1
 
 #: The flux quantum h/2e (scipy.constants, CODATA exact values).
 PHI0_WB = constants.h / (2 * constants.e)
+
+
+def read_peak_bytes(path, settings=None) -> int:
+    """tracemalloc peak of ``read(path)``, measured on a second call (the first imports)."""
+    read(path, settings)
+    tracemalloc.start()
+    try:
+        read(path, settings)
+        return tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
 
 
 def examples(n: int) -> int:

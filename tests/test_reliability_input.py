@@ -9,13 +9,13 @@ from __future__ import annotations
 import hashlib
 import io
 import json
-import tracemalloc
 import warnings
 import zipfile
 
 import h5py
 import numpy as np
 import pytest
+from fuzz_helpers import read_peak_bytes
 
 from jjpattern.cli import main
 from jjpattern.errors import InputError
@@ -187,13 +187,7 @@ def test_text_reading_memory_stays_bounded(tmp_path):
     b = np.linspace(-3, 3, 60_000)
     path = _csv(tmp_path, "long.csv", b=np.round(b, 6), ic=np.round(10 * np.abs(np.sinc(b)), 6))
     size = len(open(path, "rb").read())
-    read(path)  # imports and caches outside the measurement
-    tracemalloc.start()
-    try:
-        read(path)
-        peak = tracemalloc.get_traced_memory()[1]
-    finally:
-        tracemalloc.stop()
+    peak = read_peak_bytes(path)
     assert peak < 16 * size, peak / size
 
 
