@@ -25,6 +25,9 @@ _MIN_OVERLAP = 1e-4
 #: Step (in flux quanta) of the table the templates are interpolated in: linear
 #: interpolation of |sinc| is then within 3e-5 of it, far below what ranks candidates.
 _TABLE_STEP = 1.0 / 128.0
+#: Largest single-precision spectrum (bytes) of a block of periods: below the size
+#: from which the C allocator maps fresh pages for each array (128 KiB by default).
+_BLOCK_BYTES = 120 * 1024
 
 
 @dataclass(frozen=True)
@@ -79,7 +82,12 @@ def _uniform(field_T, ic_A, step_T):
 
 
 class _Surface:
-    """FFT correlations of the resampled data with sliding templates."""
+    """FFT correlations of the resampled data with sliding templates.
+
+    The templates are even in the field difference, so only their half for lags >= 0
+    is computed. For the FFTs each one is laid out wrapped around index 0 (its spectrum
+    is then real), and the shift to the centre goes once into the data's spectra.
+    """
 
     def __init__(self, x, y, unit_shape, step, extend):
         self.grid, yg, wg = _uniform(x, y, step)
@@ -87,20 +95,20 @@ class _Surface:
         yg = yg / self.unit
         self.unit_shape = unit_shape
         span = x[-1] - x[0]
-        self.k_half = int(np.ceil((1.0 + extend) * span / step))
-        self.d = (np.arange(2 * self.k_half + 1) - self.k_half) * step
-        self.nfft = sfft.next_fast_len(self.d.size, real=True)
-        self.valid = self.d.size - self.grid.size + 1
+        self.k_half = k = int(np.ceil((1.0 + extend) * span / step))
+        self.nfft = sfft.next_fast_len(2 * k + 1, real=True)
+        self.size = self.grid.size
+        self.valid = 2 * k + 2 - self.size
         # Offset of correlation lag s: B0 = x0 + (k_half - s) * step.
         self.offsets = self.grid[0] + (self.k_half - np.arange(self.valid)) * step
+        shift = np.exp(-2j * np.pi * k / self.nfft * np.arange(self.nfft // 2 + 1))
         # Single precision is plenty for ranking candidates and twice as fast;
         # the local fit that follows works in double precision.
-        self.wy_f = np.conj(sfft.rfft((wg * yg).astype(np.float32), self.nfft))
-        self.w_f = np.conj(sfft.rfft(wg.astype(np.float32), self.nfft))
+        self.wy_f = (np.conj(sfft.rfft(wg * yg, self.nfft)) * shift).astype(np.complex64)
+        self.w_f = (np.conj(sfft.rfft(wg, self.nfft)) * shift).astype(np.complex64)
         # Without gaps every weight is one: the template's window sums are differences of
         # cumulative sums, which saves four of the six FFTs.
         self.gapless = bool(np.all(wg == 1.0))
-        self.size = self.grid.size
         n, sy, syy = float(wg.sum()), float(np.dot(wg, yg)), float(np.dot(wg, yg**2))
         self.flat = (syy - sy**2 / n) * self.unit**2
         self.n, self.sy, self.syy = np.float32(n), np.float32(sy), np.float32(syy)
@@ -108,66 +116,123 @@ class _Surface:
         self._table = None
 
     def _templates(self, periods):
-        """Half templates (lags >= 0) of every period, interpolated in one table of the
-        unit shape: one shape evaluation per call instead of one per period and lag."""
-        u_max = float(self.d[-1] / periods.min())
+        """Templates of every period, wrapped around index 0 and zero-padded to the FFT
+        length: linear interpolation in one table of the unit shape, one shape evaluation
+        per call instead of one per period and lag."""
+        k = self.k_half
+        rate = self.step / (_TABLE_STEP * periods)  # table steps per grid step
+        u_max = k * float(rate.max())
         if self._table is None or self._table[0] < u_max:
-            u = np.arange(int(np.ceil(u_max / _TABLE_STEP)) + 2) * _TABLE_STEP
-            self._table = (float(u[-1]), np.asarray(self.unit_shape(u), dtype=np.float32))
-        h, table = _TABLE_STEP, self._table[1]
-        u = (self.d[self.k_half:] / h).astype(np.float32)[None, :] / (
-            periods.astype(np.float32)[:, None])
-        i = np.minimum(u.astype(np.int32), table.size - 2)
-        frac = u - i
-        return table[i] * (1.0 - frac) + table[i + 1] * frac
+            values = np.asarray(self.unit_shape(
+                np.arange(int(np.ceil(u_max)) + 3) * _TABLE_STEP), dtype=np.float32)
+            # Value and slope side by side, fetched as one 8-byte item per lag.
+            pairs = np.stack([values[:-1], np.diff(values)], axis=1)
+            self._table = (float(np.ceil(u_max)), pairs.view(np.int64).ravel())
+        u = np.arange(k + 1, dtype=np.float32)[None, :] * rate.astype(np.float32)[:, None]
+        whole = np.floor(u)
+        pair = np.take(self._table[1], whole.astype(np.int32)).view(np.float32)
+        u -= whole
+        out = np.zeros((periods.size, self.nfft), dtype=np.float32)
+        half = out[:, :k + 1]
+        np.multiply(u, pair[:, 1::2], out=half)
+        half += pair[:, 0::2]
+        out[:, self.nfft - k:] = half[:, k:0:-1]
+        return out
 
-    def _window_sums(self, templates):
-        """Sums of the template and of its square over the data window, at every lag."""
-        c = np.zeros((templates.shape[0], templates.shape[1] + 1), dtype=np.float32)
-        np.cumsum(templates, axis=1, out=c[:, 1:])
-        s_f = c[:, self.size:self.size + self.valid] - c[:, :self.valid]
-        np.cumsum(np.square(templates), axis=1, out=c[:, 1:])
-        s_ff = c[:, self.size:self.size + self.valid] - c[:, :self.valid]
-        return s_f, s_ff
+    def _window_sums(self, half):
+        """Sums of the template and of its square over the data window, at every lag, from
+        cumulative sums of the half template (lags >= 0) alone."""
+        k, size, valid = self.k_half, self.size, self.valid
+        sums = []
+        for part in (half, np.square(half)):
+            h = np.cumsum(part, axis=1)
+            c = np.empty((part.shape[0], 2 * k + 2), dtype=np.float32)
+            # c[m]: sum of the full template's first m lags; it is even about lag k.
+            np.subtract(h[:, k:], h[:, ::-1], out=c[:, :k + 1])
+            np.add(c[:, k:k + 1], h, out=c[:, k + 1:])
+            sums.append(c[:, size:size + valid] - c[:, :valid])
+        return sums
 
-    def best_offsets(self, periods):
-        """Per period: best chi-square (grid sums) and its offset, amplitude and background."""
-        # The templates are even in the field difference: compute one half, mirror it.
-        half = self._templates(periods)
-        templates = np.concatenate([half[:, :0:-1], half], axis=1)
-        t_f = sfft.rfft(templates, self.nfft, axis=1)
+    def _correlations(self, periods):
+        """Sums over the data window, at every lag, of template * data, template and
+        template squared."""
+        templates = self._templates(periods)
+        t_f = sfft.rfft(templates, axis=1)
         cut = slice(0, self.valid)
-        s_yf = sfft.irfft(t_f * self.wy_f, self.nfft, axis=1)[:, cut]
         if self.gapless:
-            s_f, s_ff = self._window_sums(templates)
+            s_f, s_ff = self._window_sums(templates[:, :self.k_half + 1])
         else:
-            t2_f = sfft.rfft(templates * templates, self.nfft, axis=1)
+            t2_f = sfft.rfft(np.square(templates), axis=1)
             s_f = sfft.irfft(t_f * self.w_f, self.nfft, axis=1)[:, cut]
             s_ff = sfft.irfft(t2_f * self.w_f, self.nfft, axis=1)[:, cut]
-        rows = np.arange(periods.size)
-        best = np.zeros(periods.size, dtype=np.intp)
+        t_f *= self.wy_f
+        return sfft.irfft(t_f, self.nfft, axis=1)[:, cut], s_f, s_ff
+
+    def best_offsets(self, periods):
+        """Per period: best chi-square (grid sums) and its offset, amplitude and background.
+
+        ``periods`` ascending."""
+        best = np.empty(periods.size, dtype=np.intp)
+        at_best = np.empty((3, periods.size), dtype=np.float32)
+        floor = np.empty(periods.size, dtype=np.float32)
         # Lags an eighth of a period apart are enough to find the best lobe of a long
         # period; the best of those is then refined at every lag around it.
         factor = 2 ** np.floor(np.log2(np.maximum(periods / (8.0 * self.step), 1.0)))
-        peak = np.max(s_ff, axis=1, keepdims=True)
-        for k in np.unique(factor).astype(int):
-            sel = rows[factor == k]
-            coarse = self._gain(s_yf[sel, ::k], s_f[sel, ::k], s_ff[sel, ::k], peak[sel])[0]
-            centre = np.argmax(coarse, axis=1) * k
-            if k > 1:
-                cols = np.clip(centre[:, None] + np.arange(-k + 1, k)[None, :], 0,
-                               self.valid - 1)
-                pick = [np.take_along_axis(a[sel], cols, axis=1) for a in (s_yf, s_f, s_ff)]
-                centre = cols[np.arange(sel.size), np.argmax(
-                    self._gain(*pick, peak[sel])[0], axis=1)]
-            best[sel] = centre
-        pick = (rows, best)
-        gain, amp, bkg = self._gain(s_yf[pick], s_f[pick], s_ff[pick], peak[:, 0])
+        # A few periods at a time keep every array small: large ones are fresh pages
+        # from the system at each call, and faulting them in took more time than the sums.
+        block = max(1, _BLOCK_BYTES // (4 * self.nfft + 4))
+        for start in range(0, periods.size, block):
+            stop = min(start + block, periods.size)
+            sums = self._correlations(periods[start:stop])
+            floor[start:stop] = np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1)
+            fl = floor[start:stop, None]
+            for k in np.unique(factor[start:stop]).astype(int):
+                rows = np.flatnonzero(factor[start:stop] == k)
+                sel = slice(rows[0], rows[-1] + 1)  # the factor grows with the period
+                centre = np.argmax(self._score(*(a[sel, ::k] for a in sums), fl[sel]),
+                                   axis=1) * k
+                if k > 1:
+                    cols = np.clip(centre[:, None] + np.arange(-k + 1, k)[None, :], 0,
+                                   self.valid - 1)
+                    pick = [np.take_along_axis(a[sel], cols, axis=1) for a in sums]
+                    centre = cols[np.arange(rows.size), np.argmax(
+                        self._score(*pick, fl[sel]), axis=1)]
+                best[start + rows] = centre
+            here = best[start:stop]
+            for i, a in enumerate(sums):
+                at_best[i, start:stop] = a[np.arange(here.size), here]
+        gain, amp, bkg = self._gain(*at_best, floor)
         u = self.unit
         return ((float(self.syy) - gain.astype(float)) * u * u, self.offsets[best],
                 amp.astype(float) * u, bkg.astype(float) * u)
 
-    def _gain(self, s_yf, s_f, s_ff, peak):
+    def _score(self, s_yf, s_f, s_ff, floor):
+        """``n`` times the gain of :meth:`_gain`, alone and with few temporaries: ranks the
+        lags where only the best one is wanted."""
+        n, sy = self.n, self.sy
+        amp_det = s_yf * n
+        amp_det -= s_f * sy
+        det = s_ff * n
+        det -= np.square(s_f)
+        bkg_det = s_ff * sy
+        bkg_det -= s_f * s_yf
+        both = amp_det > 0
+        both &= bkg_det >= 0
+        both &= det > 0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            # n * gain of the pure pattern, and (sy^2 + amp_det^2 / det) with a background.
+            score = np.maximum(s_yf, np.float32(0.0))
+            score *= score
+            score *= n
+            score /= s_ff
+            amp_det *= amp_det
+            amp_det /= det
+            amp_det += sy * sy
+        np.copyto(score, amp_det, where=both)
+        np.copyto(score, np.float32(0.0), where=s_ff <= floor)
+        return score
+
+    def _gain(self, s_yf, s_f, s_ff, floor):
         """Least squares of y = amp * template + bkg at every lag, in closed form; where
         that needs amp <= 0 or bkg < 0, the pure pattern (bkg = 0) instead. Returns the
         drop in the sum of squares, the amplitude and the background."""
@@ -180,7 +245,7 @@ class _Surface:
         safe_ff = np.maximum(s_ff, np.float32(1e-30))
         gain = np.where(both, (amp_det * s_yf + bkg_det * sy) / safe_det,
                         np.maximum(s_yf, 0.0) ** 2 / safe_ff)
-        gain = np.where(s_ff > np.float32(_MIN_OVERLAP) * peak, gain, 0.0)
+        gain = np.where(s_ff > floor, gain, 0.0)
         amp = np.where(both, amp_det / safe_det, s_yf / safe_ff)
         bkg = np.where(both, bkg_det / safe_det, 0.0)
         return gain, amp, bkg
