@@ -28,6 +28,8 @@ _TABLE_STEP = 1.0 / 128.0
 #: Largest single-precision spectrum (bytes) of a block of periods: below the size
 #: from which the C allocator maps fresh pages for each array (128 KiB by default).
 _BLOCK_BYTES = 120 * 1024
+#: Lags per block of the cumulative sums done as matrix products.
+_PREFIX_BLOCK = 16
 
 
 @dataclass(frozen=True)
@@ -116,6 +118,7 @@ class _Surface:
         self.n, self.sy, self.syy = np.float32(n), np.float32(sy), np.float32(syy)
         self.step = step
         self._table = None
+        self._upper = np.triu(np.ones((_PREFIX_BLOCK, _PREFIX_BLOCK), dtype=np.float32))
 
     def _templates(self, periods):
         """Templates of every period, wrapped around index 0 and zero-padded to the FFT
@@ -147,13 +150,21 @@ class _Surface:
         """Sums of the template and of its square over the data window, at every lag, from
         cumulative sums of the half template (lags >= 0) alone."""
         k, size, valid = self.k_half, self.size, self.valid
+        rows, width = half.shape[0], _PREFIX_BLOCK
+        blocks = -(-(k + 1) // width)
+        parts = np.zeros((2 * rows, blocks * width), dtype=np.float32)
+        parts[:rows, :k + 1] = half
+        np.square(half, out=parts[rows:, :k + 1])
+        # Cumulative sums as one small matrix product per block of lags plus the running
+        # block totals: several times faster than np.cumsum, a serial loop.
+        h = (parts.reshape(-1, width) @ self._upper).reshape(2 * rows, -1)
+        h[:, width:] += np.repeat(np.cumsum(h[:, width - 1:-1:width], axis=1), width, axis=1)
         sums = []
-        for part in (half, np.square(half)):
-            h = np.cumsum(part, axis=1)
-            c = np.empty((part.shape[0], 2 * k + 2), dtype=np.float32)
+        for part in (h[:rows], h[rows:]):
+            c = np.empty((rows, 2 * k + 2), dtype=np.float32)
             # c[m]: sum of the full template's first m lags; it is even about lag k.
-            np.subtract(h[:, k:], h[:, ::-1], out=c[:, :k + 1])
-            np.add(c[:, k:k + 1], h, out=c[:, k + 1:])
+            np.subtract(part[:, k:k + 1], part[:, k::-1], out=c[:, :k + 1])
+            np.add(c[:, k:k + 1], part[:, :k + 1], out=c[:, k + 1:])
             sums.append(c[:, size:size + valid] - c[:, :valid])
         return sums
 
@@ -187,52 +198,57 @@ class _Surface:
         block = max(1, _BLOCK_BYTES // (4 * self.nfft + 4))
         for start in range(0, periods.size, block):
             stop = min(start + block, periods.size)
-            sums = self._correlations(periods[start:stop])
-            floor[start:stop] = np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1)
-            fl = floor[start:stop, None]
-            for k in np.unique(factor[start:stop]).astype(int):
-                rows = np.flatnonzero(factor[start:stop] == k)
-                sel = slice(rows[0], rows[-1] + 1)  # the factor grows with the period
-                centre = np.argmax(self._score(*(a[sel, ::k] for a in sums), fl[sel]),
-                                   axis=1) * k
-                if k > 1:
-                    cols = np.clip(centre[:, None] + np.arange(-k + 1, k)[None, :], 0,
-                                   self.valid - 1)
-                    pick = [np.take_along_axis(a[sel], cols, axis=1) for a in sums]
-                    centre = cols[np.arange(rows.size), np.argmax(
-                        self._score(*pick, fl[sel]), axis=1)]
-                best[start + rows] = centre
-            here = best[start:stop]
-            for i, a in enumerate(sums):
-                at_best[i, start:stop] = a[np.arange(here.size), here]
+            best[start:stop], at_best[:, start:stop], floor[start:stop] = self._best_lags(
+                self._correlations(periods[start:stop]), factor[start:stop])
         gain, amp, bkg = self._gain(*at_best, floor)
         u = self.unit
         return ((float(self.syy) - gain.astype(float)) * u * u, self.offsets[best],
                 amp.astype(float) * u, bkg.astype(float) * u)
 
+    def _best_lags(self, sums, factor):
+        """Best lag of each row of ``sums``, the sums there, and the overlap floor."""
+        floor = np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1, keepdims=True)
+        best = np.empty(factor.size, dtype=np.intp)
+        for k in np.unique(factor).astype(int):
+            rows = np.flatnonzero(factor == k)
+            sel = slice(rows[0], rows[-1] + 1)  # the factor grows with the period
+            best[sel] = k * np.argmax(self._score(*(a[sel, ::k] for a in sums), floor[sel]),
+                                      axis=1)
+        wide = slice(int(np.searchsorted(factor, 1.5)), factor.size)
+        if wide.start < factor.size:
+            # Every lag within a coarse step of the coarse best, all factors at once: the
+            # narrower rows repeat their edge lags, which cannot change their argmax.
+            k = factor[wide, None].astype(np.intp)
+            reach = int(k.max()) - 1
+            step = np.clip(np.arange(-reach, reach + 1)[None, :], 1 - k, k - 1)
+            cols = np.clip(best[wide, None] + step, 0, self.valid - 1)
+            pick = [np.take_along_axis(a[wide], cols, axis=1) for a in sums]
+            best[wide] = cols[np.arange(cols.shape[0]), np.argmax(
+                self._score(*pick, floor[wide]), axis=1)]
+        rows = np.arange(factor.size)
+        return best, [a[rows, best] for a in sums], floor[:, 0]
+
     def _score(self, s_yf, s_f, s_ff, floor):
-        """``n`` times the gain of :meth:`_gain`, alone and with few temporaries: ranks the
-        lags where only the best one is wanted."""
-        n, sy = self.n, self.sy
-        amp_det = s_yf * n
-        amp_det -= s_f * sy
-        det = s_ff * n
-        det -= np.square(s_f)
-        bkg_det = s_ff * sy
-        bkg_det -= s_f * s_yf
-        both = amp_det > 0
-        both &= bkg_det >= 0
+        """The gain of :meth:`_gain` alone, with few temporaries: ranks the lags where only
+        the best one is wanted."""
+        mean, inv_n = self.sy / self.n, np.float32(1.0) / self.n
+        # amp_det / n, det / n and the sign of bkg_det of _gain.
+        amp = s_f * mean
+        np.subtract(s_yf, amp, out=amp)
+        det = np.square(s_f)
+        det *= inv_n
+        np.subtract(s_ff, det, out=det)
+        both = np.greater_equal(s_ff * self.sy, s_f * s_yf)
+        both &= amp > 0
         both &= det > 0
         with np.errstate(divide="ignore", invalid="ignore"):
-            # n * gain of the pure pattern, and (sy^2 + amp_det^2 / det) with a background.
             score = np.maximum(s_yf, np.float32(0.0))
             score *= score
-            score *= n
             score /= s_ff
-            amp_det *= amp_det
-            amp_det /= det
-            amp_det += sy * sy
-        np.copyto(score, amp_det, where=both)
+            amp *= amp
+            amp /= det
+            amp += self.sy * mean
+        np.copyto(score, amp, where=both)
         np.copyto(score, np.float32(0.0), where=s_ff <= floor)
         return score
 
