@@ -206,25 +206,32 @@ class _Surface:
                 amp.astype(float) * u, bkg.astype(float) * u)
 
     def _best_lags(self, sums, factor):
-        """Best lag of each row of ``sums``, the sums there, and the overlap floor."""
+        """Best lag of each row of ``sums``, the sums there, and the overlap floor.
+
+        ``factor`` (ascending) is each row's coarse step in lags: the best of every
+        ``factor``-th lag is refined at every lag within a coarse step of it. Rows of all
+        factors above one are searched together, the rows with fewer lags repeating
+        their last one, which cannot change an argmax."""
         floor = np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1, keepdims=True)
-        best = np.empty(factor.size, dtype=np.intp)
-        for k in np.unique(factor).astype(int):
-            rows = np.flatnonzero(factor == k)
-            sel = slice(rows[0], rows[-1] + 1)  # the factor grows with the period
-            best[sel] = k * np.argmax(self._score(*(a[sel, ::k] for a in sums), floor[sel]),
-                                      axis=1)
-        wide = slice(int(np.searchsorted(factor, 1.5)), factor.size)
-        if wide.start < factor.size:
-            # Every lag within a coarse step of the coarse best, all factors at once: the
-            # narrower rows repeat their edge lags, which cannot change their argmax.
+        best = np.zeros(factor.size, dtype=np.intp)
+        split = int(np.searchsorted(factor, 1.5))
+        if split:
+            best[:split] = np.argmax(self._score(*(a[:split] for a in sums), floor[:split]),
+                                     axis=1)
+        if split < factor.size:
+            wide = slice(split, factor.size)
             k = factor[wide, None].astype(np.intp)
-            reach = int(k.max()) - 1
+            last = (self.valid - 1) // k * k
+            cols = np.minimum(np.arange(-(-self.valid // k[0, 0]))[None, :] * k, last)
+            coarse = self._score(*(np.take_along_axis(a[wide], cols, axis=1) for a in sums),
+                                 floor[wide])
+            best[wide] = cols[np.arange(k.size), np.argmax(coarse, axis=1)]
+            reach = int(k[-1, 0]) - 1
             step = np.clip(np.arange(-reach, reach + 1)[None, :], 1 - k, k - 1)
             cols = np.clip(best[wide, None] + step, 0, self.valid - 1)
-            pick = [np.take_along_axis(a[wide], cols, axis=1) for a in sums]
-            best[wide] = cols[np.arange(cols.shape[0]), np.argmax(
-                self._score(*pick, floor[wide]), axis=1)]
+            fine = self._score(*(np.take_along_axis(a[wide], cols, axis=1) for a in sums),
+                               floor[wide])
+            best[wide] = cols[np.arange(k.size), np.argmax(fine, axis=1)]
         rows = np.arange(factor.size)
         return best, [a[rows, best] for a in sums], floor[:, 0]
 
