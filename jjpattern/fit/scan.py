@@ -151,21 +151,26 @@ class _Surface:
         cumulative sums of the half template (lags >= 0) alone."""
         k, size, valid = self.k_half, self.size, self.valid
         rows, width = half.shape[0], _PREFIX_BLOCK
-        blocks = -(-(k + 1) // width)
-        parts = np.zeros((2 * rows, blocks * width), dtype=np.float32)
-        parts[:rows, :k + 1] = half
-        np.square(half, out=parts[rows:, :k + 1])
-        # Cumulative sums as one small matrix product per block of lags plus the running
-        # block totals: several times faster than np.cumsum, a serial loop.
+        parts = np.zeros((2 * rows, -(-(k + 2) // width) * width), dtype=np.float32)
+        parts[:rows, 1:k + 2] = half
+        np.square(half, out=parts[rows:, 1:k + 2])
+        # h[:, i]: sum of the first i half-template lags. Cumulative sums as one small
+        # matrix product per block of lags plus the running block totals: several times
+        # faster than np.cumsum, a serial loop.
         h = (parts.reshape(-1, width) @ self._upper).reshape(2 * rows, -1)
         h[:, width:] += np.repeat(np.cumsum(h[:, width - 1:-1:width], axis=1), width, axis=1)
+        # The window sums are even about the middle lag: the upper half only, where the
+        # window lies right of the template centre (lag >= k) or straddles it.
+        mid = valid // 2
         sums = []
         for part in (h[:rows], h[rows:]):
-            c = np.empty((rows, 2 * k + 2), dtype=np.float32)
-            # c[m]: sum of the full template's first m lags; it is even about lag k.
-            np.subtract(part[:, k:k + 1], part[:, k::-1], out=c[:, :k + 1])
-            np.add(c[:, k:k + 1], part[:, :k + 1], out=c[:, k + 1:])
-            sums.append(c[:, size:size + valid] - c[:, :valid])
+            out = np.empty((rows, valid), dtype=np.float32)
+            np.subtract(part[:, size:k + 2], part[:, :k + 2 - size], out=out[:, k:])
+            straddle = out[:, mid:k]
+            np.add(part[:, k - mid + 1:1:-1], part[:, mid + size - k:size], out=straddle)
+            straddle -= part[:, 1:2]
+            out[:, :mid] = out[:, :valid - mid - 1:-1]
+            sums.append(out)
         return sums
 
     def _correlations(self, periods):
