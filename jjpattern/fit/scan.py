@@ -186,7 +186,9 @@ class _Surface:
             s_f = sfft.irfft(t_f * self.w_f, self.nfft, axis=1)[:, cut]
             s_ff = sfft.irfft(t2_f * self.w_f, self.nfft, axis=1)[:, cut]
         t_f *= self.wy_f
-        return sfft.irfft(t_f, self.nfft, axis=1)[:, cut], s_f, s_ff
+        # Contiguous, as the window sums are: their picks share one flat index.
+        s_yf = np.ascontiguousarray(sfft.irfft(t_f, self.nfft, axis=1)[:, cut])
+        return s_yf, np.ascontiguousarray(s_f), np.ascontiguousarray(s_ff)
 
     def best_offsets(self, periods):
         """Per period: best chi-square (grid sums) and its offset, amplitude and background.
@@ -226,16 +228,15 @@ class _Surface:
         if split < factor.size:
             wide = slice(split, factor.size)
             k = factor[wide, None].astype(np.intp)
+            first = np.arange(split, factor.size)[:, None] * self.valid  # flat row starts
             last = (self.valid - 1) // k * k
             cols = np.minimum(np.arange(-(-self.valid // k[0, 0]))[None, :] * k, last)
-            coarse = self._score(*(np.take_along_axis(a[wide], cols, axis=1) for a in sums),
-                                 floor[wide])
+            coarse = self._score(*(np.take(a, first + cols) for a in sums), floor[wide])
             best[wide] = cols[np.arange(k.size), np.argmax(coarse, axis=1)]
             reach = int(k[-1, 0]) - 1
             step = np.clip(np.arange(-reach, reach + 1)[None, :], 1 - k, k - 1)
             cols = np.clip(best[wide, None] + step, 0, self.valid - 1)
-            fine = self._score(*(np.take_along_axis(a[wide], cols, axis=1) for a in sums),
-                               floor[wide])
+            fine = self._score(*(np.take(a, first + cols) for a in sums), floor[wide])
             best[wide] = cols[np.arange(k.size), np.argmax(fine, axis=1)]
         rows = np.arange(factor.size)
         return best, [a[rows, best] for a in sums], floor[:, 0]
