@@ -100,7 +100,8 @@ class _Surface:
         self.unit_shape = unit_shape
         span = x[-1] - x[0]
         self.k_half = k = int(np.ceil((1.0 + extend) * span / step))
-        self.nfft = sfft.next_fast_len(2 * k + 1, real=True)
+        # Even, at least 2 k + 1: no wrap-around at the lags used.
+        self.nfft = 2 * sfft.next_fast_len(k + 1, real=True)
         self.size = self.grid.size
         self.valid = 2 * k + 2 - self.size
         # Offset of correlation lag s: B0 = x0 + (k_half - s) * step.
@@ -109,10 +110,11 @@ class _Surface:
         # Single precision is plenty for ranking candidates and twice as fast;
         # the local fit that follows works in double precision.
         self.wy_f = (np.conj(sfft.rfft(wg * yg, self.nfft)) * shift).astype(np.complex64)
-        self.w_f = (np.conj(sfft.rfft(wg, self.nfft)) * shift).astype(np.complex64)
         # Without gaps every weight is one: the template's window sums are differences of
         # cumulative sums, which saves four of the six FFTs.
         self.gapless = bool(np.all(wg == 1.0))
+        self.w_f = None if self.gapless else (
+            np.conj(sfft.rfft(wg, self.nfft)) * shift).astype(np.complex64)
         n, sy, syy = float(wg.sum()), float(np.dot(wg, yg)), float(np.dot(wg, yg**2))
         self.flat = (syy - sy**2 / n) * self.unit**2
         self.n, self.sy, self.syy = np.float32(n), np.float32(sy), np.float32(syy)
@@ -121,9 +123,9 @@ class _Surface:
         self._upper = np.triu(np.ones((_PREFIX_BLOCK, _PREFIX_BLOCK), dtype=np.float32))
 
     def _templates(self, periods):
-        """Templates of every period, wrapped around index 0 and zero-padded to the FFT
-        length: linear interpolation in one table of the unit shape, one shape evaluation
-        per call instead of one per period and lag."""
+        """Half templates (lags >= 0) of every period, zero-padded to half the FFT length
+        plus one: linear interpolation in one table of the unit shape, one shape
+        evaluation per call instead of one per period and lag."""
         k = self.k_half
         rate = self.step / (_TABLE_STEP * periods)  # table steps per grid step
         u_max = k * float(rate.max())
@@ -139,11 +141,10 @@ class _Surface:
         whole = np.floor(u)
         pair = np.take(self._table[1], whole.astype(np.int32)).view(np.float32)
         u -= whole
-        out = np.zeros((periods.size, self.nfft), dtype=np.float32)
+        out = np.zeros((periods.size, self.nfft // 2 + 1), dtype=np.float32)
         half = out[:, :k + 1]
         np.multiply(u, pair[:, 1::2], out=half)
         half += pair[:, 0::2]
-        out[:, self.nfft - k:] = half[:, k:0:-1]
         return out
 
     def _window_sums(self, half):
@@ -176,16 +177,18 @@ class _Surface:
     def _correlations(self, periods):
         """Sums over the data window, at every lag, of template * data, template and
         template squared."""
-        templates = self._templates(periods)
-        t_f = sfft.rfft(templates, axis=1)
+        half = self._templates(periods)
+        # The spectrum of an even template wrapped around index 0 is real: a type-1 DCT
+        # of its half, without the mirrored copy.
+        t_f = sfft.dct(half, type=1, axis=1)
         cut = slice(0, self.valid)
         if self.gapless:
-            s_f, s_ff = self._window_sums(templates[:, :self.k_half + 1])
+            s_f, s_ff = self._window_sums(half[:, :self.k_half + 1])
         else:
-            t2_f = sfft.rfft(np.square(templates), axis=1)
+            t2_f = sfft.dct(np.square(half), type=1, axis=1)
             s_f = sfft.irfft(t_f * self.w_f, self.nfft, axis=1)[:, cut]
             s_ff = sfft.irfft(t2_f * self.w_f, self.nfft, axis=1)[:, cut]
-        t_f *= self.wy_f
+        t_f = t_f * self.wy_f
         # Contiguous, as the window sums are: their picks share one flat index.
         s_yf = np.ascontiguousarray(sfft.irfft(t_f, self.nfft, axis=1)[:, cut])
         return s_yf, np.ascontiguousarray(s_f), np.ascontiguousarray(s_ff)
