@@ -234,15 +234,17 @@ class _Surface:
             first = np.arange(split, factor.size)[:, None] * self.valid  # flat row starts
             last = (self.valid - 1) // k * k
             cols = np.minimum(np.arange(-(-self.valid // k[0, 0]))[None, :] * k, last)
-            coarse = self._score(*(np.take(a, first + cols) for a in sums), floor[wide])
+            at = first + cols
+            coarse = self._score(*(np.take(a, at) for a in sums), floor[wide])
             best[wide] = cols[np.arange(k.size), np.argmax(coarse, axis=1)]
             reach = int(k[-1, 0]) - 1
             step = np.clip(np.arange(-reach, reach + 1)[None, :], 1 - k, k - 1)
             cols = np.clip(best[wide, None] + step, 0, self.valid - 1)
-            fine = self._score(*(np.take(a, first + cols) for a in sums), floor[wide])
+            at = first + cols
+            fine = self._score(*(np.take(a, at) for a in sums), floor[wide])
             best[wide] = cols[np.arange(k.size), np.argmax(fine, axis=1)]
-        rows = np.arange(factor.size)
-        return best, [a[rows, best] for a in sums], floor[:, 0]
+        at = np.arange(factor.size) * self.valid + best
+        return best, [np.take(a, at) for a in sums], floor[:, 0]
 
     def _score(self, s_yf, s_f, s_ff, floor):
         """The gain of :meth:`_gain` alone, with few temporaries: ranks the lags where only
