@@ -16,7 +16,7 @@ def _shape(u):
     return np.abs(np.sinc(u))
 
 
-def _surface(gap: bool, period: float = 0.3):
+def _surface(gap: bool, period: float = 0.3, extend: float = 1.0):
     rng = np.random.default_rng(5)
     x = np.linspace(-3.0, 3.0, 400)
     y = np.abs(_shape((x - 0.4) / period)) + rng.normal(0.0, 0.02, x.size)
@@ -24,7 +24,7 @@ def _surface(gap: bool, period: float = 0.3):
         keep = (x < -0.5) | (x > 0.6)  # a gap far wider than five usual steps
         x, y = x[keep], y[keep]
     span = x[-1] - x[0]
-    return _Surface(x, y, _shape, span / 120, 1.0), x, y
+    return _Surface(x, y, _shape, span / 120, extend), x, y
 
 
 def _direct(surface, x, y, period):
@@ -39,9 +39,9 @@ def _direct(surface, x, y, period):
     return t @ (wg * yg), t @ wg, (t * t) @ wg
 
 
-@pytest.mark.parametrize("gap", [False, True])
-def test_correlations_equal_the_direct_sums(gap):
-    surface, x, y = _surface(gap)
+@pytest.mark.parametrize(("gap", "extend"), [(False, 1.0), (True, 1.0), (False, 0.0)])
+def test_correlations_equal_the_direct_sums(gap, extend):
+    surface, x, y = _surface(gap, extend=extend)
     assert surface.gapless is not gap
     span = x[-1] - x[0]
     periods = period_grid(span, span / 60, 2 * span, 1.0)[::9]
