@@ -52,6 +52,12 @@ DESCRIBES_REDCHI = 2.0
 RUNS_Z = 4.0
 #: Shape-parameter starts: the period found by the scan is also tried at these factors.
 _PERIOD_FACTORS = (0.7, 0.85, 1.0, 1.2, 1.45)
+#: Rivals are first fitted on about this many points (every k-th) ...
+_SCREEN_POINTS = 250
+#: ... and left there when that fit, on all points, stays this far (BIC, noise units) above
+#: the reference and a floor could not close the gap: twenty margins, where the subset
+#: fit's distance from the least chi-square on all points (a few units) cannot matter.
+SCREEN_BIC = 200.0
 #: Points (every k-th) on which starts are ranked.
 _START_POINTS = 256
 #: A rival started from the reference fit tries these factors of the period that puts its
@@ -74,6 +80,7 @@ class Trial:
     points: int = 0
     shaped: bool = False
     runs_z: float = 0.0
+    screened: int = 0
 
     @property
     def reduced_chisq(self) -> float:
@@ -212,6 +219,23 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
             return None
     f_scale = 2.0 * noise
     floored = node_floor == "on" and not spec.periodic
+    if scans is None and beat is not None and x.size >= 2 * _SCREEN_POINTS:
+        # A rival is first fitted on every k-th point; evaluated on all of them that fit
+        # bounds its least chi-square from above. Far behind the reference, with no floor
+        # to close the gap, it stays screened; otherwise it is refitted on all points
+        # from there (a few iterations).
+        stride = x.size // _SCREEN_POINTS
+        params, _, k = quick_fit(spec, x[::stride], y[::stride], start, floor=floored,
+                                 loss=loss, f_scale=f_scale)
+        r = spec.formula(x, **full_params(spec, params, floored)) - y
+        chisq = float(np.sum(robust_weight((r / f_scale) ** 2, loss) * r * r))
+        if _beyond_floor(spec, x, y, params, chisq, k, noise, beat, least=SCREEN_BIC):
+            trial = Trial(spec.name, dict(params, floor_gain=None), chisq / noise**2, k,
+                          floored, points=int(x.size), screened=stride)
+            trial.runs_z = runs_z(r)
+            trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
+            return trial
+        start = params
     params, chisq, k = quick_fit(spec, x, y, start, floor=floored, loss=loss, f_scale=f_scale)
     if scans is not None and not spec.periodic:
         offset = params["field_offset_T"]
@@ -241,18 +265,18 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
     return trial
 
 
-def _beyond_floor(spec, x, y, params, chisq, k, noise, beat) -> bool:
+def _beyond_floor(spec, x, y, params, chisq, k, noise, beat, least=0.0) -> bool:
     """Whether a floor cannot bring a rival near the criterion ``beat`` to beat: its
     criterion without a floor exceeds ``beat`` by more than three times what a floor
     alone recovers at its fit (the rest held; the best of a grid of floors from 0.1 % to
     half the largest current) and three margins. The floor alone is a lower bound of the
     floored fit's gain; a refit of the rest moves it by a fraction, not threefold."""
     m = spec.formula(x, **full_params(spec, params, False))
-    floors = np.geomspace(1e-3, 0.5, 40) * max(float(np.max(np.abs(m))), 1e-300)
+    floors = np.geomspace(1e-3, 0.5, 16) * max(float(np.max(np.abs(m))), 1e-300)
     floored = np.sqrt(m[None, :] ** 2 + floors[:, None] ** 2)
     alone = (chisq - float(np.min(np.sum((y[None, :] - floored) ** 2, axis=1)))) / noise**2
     deficit = chisq / noise**2 + (k + 1) * np.log(x.size) - beat
-    return deficit > 3.0 * max(alone, MARGIN)
+    return deficit > max(3.0 * max(alone, MARGIN), least)
 
 
 def rival_start(spec, reference_spec, reference: dict, x, y) -> dict:
@@ -342,7 +366,8 @@ def _decide(trials, order):
                         "chisq_over_noise": float(t.chisq_over_noise),
                         "reduced_chisq": float(t.reduced_chisq),
                         "parameters": t.parameters, "node_floor": t.floor,
-                        "shape_parameter": t.shaped, "residual_runs_z": float(t.runs_z)}
+                        "shape_parameter": t.shaped, "residual_runs_z": float(t.runs_z),
+                        "screened_every": t.screened or None}
                        for t in trials],
         "set_aside": [{"model": t.name, "reduced_chisq": float(t.reduced_chisq),
                        "residual_runs_z": float(t.runs_z), "reason": reason}
@@ -405,7 +430,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
                                     x, y)
         found[name] = run(name, start)
     starts = f"from the {names[0]} fit"
-    fitted = [t for t in found.values() if t is not None]
+    fitted = [t for t in found.values() if t is not None and not t.at_limit]
     if reference is None or not fitted or min(t.reduced_chisq for t in fitted) > DESCRIBES_REDCHI:
         starts = "from the reference fit and from each model's own scan"
         for name in names[1:]:

@@ -140,6 +140,15 @@ def zero_field_ratio(ell, feed):
     return float(_hermite(grid_ell, g0, g0_slopes, ell))
 
 
+@functools.lru_cache(maxsize=64)
+def _minima(count, ell, feed):
+    """:func:`minima` for hashable arguments, cached (read-only): the starts of a fit ask
+    for the same grid values again and again."""
+    found = minima(count, ell, feed)
+    found.flags.writeable = False
+    return found
+
+
 def minima(count, ell, feed):
     """Reduced flux of the first ``count`` minima of ``s(u; ell)`` for ``u > 0``.
 
@@ -211,7 +220,7 @@ def make_model(feed: str, *, name: str, description: str, feed_words: str):
 
     def node_flux(count, length_over_josephson_depth=0.0):
         """Minima of the pattern (lifted above zero once the vortex modes overlap)."""
-        return minima(count, length_over_josephson_depth, feed)
+        return _minima(int(count), abs(float(length_over_josephson_depth)), feed).copy()
 
     def model_gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
                        length_over_josephson_depth=0.0):
