@@ -225,8 +225,8 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
         # to close the gap, it stays screened; otherwise it is refitted on all points
         # from there (a few iterations).
         stride = x.size // _SCREEN_POINTS
-        params, _, k = quick_fit(spec, x[::stride], y[::stride], start, floor=floored,
-                                 loss=loss, f_scale=f_scale)
+        params, sub_chisq, k = quick_fit(spec, x[::stride], y[::stride], start,
+                                         floor=floored, loss=loss, f_scale=f_scale)
         r = spec.formula(x, **full_params(spec, params, floored)) - y
         chisq = float(np.sum(robust_weight((r / f_scale) ** 2, loss) * r * r))
         if _beyond_floor(spec, x, y, params, chisq, k, noise, beat, least=SCREEN_BIC):
@@ -235,6 +235,17 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
             trial.runs_z = runs_z(r)
             trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
             return trial
+        if node_floor == "auto" and not spec.periodic:
+            # The floor decided on the subset too (its gain there times the stride); the
+            # full fit of a rival so chosen decides it again on all points.
+            fsub = solve(spec, x[::stride], y[::stride],
+                         dict(params, floor_A=0.05 * abs(params["ic0_A"])), floor=True,
+                         loss=loss, f_scale=f_scale)
+            gain = stride * (sub_chisq - fsub.chisq) / max(fsub.chisq / fsub.nfree, 1e-300)
+            floored = gain > floor_dchi2
+            params, chisq, k = quick_fit(spec, x, y, dict(fsub.params if floored else params),
+                                         floor=floored, loss=loss, f_scale=f_scale)
+            return _trial(spec, x, y, params, chisq, k, noise, floored, decided=False)
         start = params
     params, chisq, k = quick_fit(spec, x, y, start, floor=floored, loss=loss, f_scale=f_scale)
     if scans is not None and not spec.periodic:
@@ -257,8 +268,15 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
         gain = (chisq - fchisq) / (fchisq / max(x.size - fk, 1))
         if gain > floor_dchi2:
             params, chisq, k, floored = fp, fchisq, fk, True
-    # The full fit of the chosen model takes the floor decision made here.
-    params["floor_gain"] = gain if floored else None
+    return _trial(spec, x, y, params, chisq, k, noise, floored, gain if floored else None)
+
+
+def _trial(spec, x, y, params, chisq, k, noise, floored, floor_gain=None, *,
+           decided=True) -> Trial:
+    """The trial of a finished quick fit. The full fit of the chosen model takes its floor
+    decision (``floor_gain`` in the parameters, ``None`` for no floor) where ``decided``,
+    and decides again on all points otherwise (no ``floor_gain`` key)."""
+    params = dict(params, floor_gain=floor_gain) if decided else dict(params)
     trial = Trial(spec.name, params, chisq / noise**2, k, floored, points=int(x.size))
     trial.runs_z = runs_z(spec.formula(x, **full_params(spec, params, floored)) - y)
     trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
