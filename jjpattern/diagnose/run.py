@@ -7,13 +7,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..fit.engine import local_fit
-from ..fit.models import MODELS
 from ..physics import geometry as geo
 from ..physics.models import get_model
 from ..result import stderr_key
 from .reconstruct import reconstruct
-from .shape import branch_flags, drift_flag, lifted_floor_A, long_junction_flag, shape_flags
+from .shape import (
+    branch_flags,
+    drift_flag,
+    floor_test,
+    long_junction_flag,
+    shape_flags,
+)
 
 
 @dataclass
@@ -35,20 +39,32 @@ class GeometryInputs:
 
 
 def _half_periods(fit):
-    """Period fitted separately below and above the offset (offset and floor held)."""
+    """Period fitted separately below and above the offset (offset and floor held).
+
+    Each half is fitted as the reported fit is (:func:`jjpattern.fit.lsq.final_fit`:
+    MINPACK with the model's gradient, in normalised units), started at the whole
+    fit's parameters with Ic0, the period and the model's extras free: one lmfit
+    minimisation per half instead of an lmfit model fit (its parameter copies and
+    expression evaluation cost more than the least squares).
+    """
     if fit.field_offset_T is None or fit.lmfit_result is None:
         return None
+    from ..fit.lsq import Local, Units, final_fit
+
     x, y, b0, p = fit.field_T, fit.ic_A, fit.field_offset_T, fit.period_T
-    first = float(get_model(fit.model).nodes(1, fit.extra_params)[0])
-    model = MODELS[fit.model]()
+    spec = get_model(fit.model)
+    first = float(spec.nodes(1, fit.extra_params)[0])
+    fitted = fit.lmfit_result.params
+    start = {k: float(fitted[k].value) for k in spec.parameter_names() if k in fitted}
+    free = ("ic0_A", "period_T") + tuple(q.name for q in spec.extra)
     out = []
     for side in (x < b0, x > b0):
         if np.sum(side) < 20 or np.ptp(x[side]) < (first + 1.5) * p:
             return None
-        params = fit.lmfit_result.params.copy()
-        params["field_offset_T"].set(vary=False)
-        params["floor_A"].set(vary=False)
-        res = local_fit(model, y[side], x[side], params, "linear", 1.0)
+        xs, ys = x[side], y[side]
+        units = Units.of(xs, ys)
+        local = Local(units.to_unit(start), free, 0.0, np.ones(xs.size), ys)
+        res = final_fit(spec, xs, ys, local, units, fit.noise_A)
         err = res.params["period_T"].stderr
         out.append((abs(res.params["period_T"].value), err))
     return out
@@ -207,14 +223,17 @@ def diagnose(fits, *, seed=0, resamples=200, geometry: GeometryInputs | None = N
         if fit.period_T is None:
             continue
         density = None
+        # The node-floor test once, for the reconstruction's method and the flags.
+        floor = floor_test(fit, criterion_floor_A)
         centred = (fit.field_offset_T is not None
                    and fit.field_T[0] < fit.field_offset_T < fit.field_T[-1])
         if centred and _reconstructable(fit):
             # Lifted nodes mean an asymmetric profile: then do not assume symmetry.
-            lifted = lifted_floor_A(fit, criterion_floor_A) is not None
+            lifted = bool(floor and floor["lifted"])
             density = _density(fit, "support" if lifted else "symmetric", rng, resamples)
             densities[fit.branch] = density
-        flags += shape_flags(fit, criterion_floor_A=criterion_floor_A, density=density)
+        flags += shape_flags(fit, criterion_floor_A=criterion_floor_A, density=density,
+                             floor=floor)
         halves = _half_periods(fit)
         if halves:
             flags += drift_flag(fit, halves)

@@ -44,12 +44,31 @@ DRIFT_FRACTION = 0.005
 LONG_RATIO = 1.0
 
 
+def _mirror_spans(centres, x):
+    """Indices ``(i0, i1)`` per centre ``c`` of the points strictly between ``c`` and ``c``
+    plus its reach (the shorter distance to an end of the window)."""
+    reach = np.minimum(centres - x[0], x[-1] - centres)
+    return np.searchsorted(x, centres, "right"), np.searchsorted(x, centres + reach, "left")
+
+
 def _mirror_cost(c, x, y):
-    reach = min(c - x[0], x[-1] - c)
-    b = x[(x > c) & (x < c + reach)]
-    if b.size < 10:
-        return np.inf
-    return float(np.mean((np.interp(b, x, y) - np.interp(2 * c - b, x, y)) ** 2))
+    return float(_mirror_costs(np.array([c]), x, y)[0])
+
+
+def _mirror_costs(centres, x, y):
+    """Mean squared difference of the data and their mirror image about each centre.
+
+    Over the points beyond the centre within its reach (``inf`` where fewer than 10):
+    those are data points, a slice found by bisection, so only their mirror images
+    are interpolated (a mask over the whole window per centre cost more than that).
+    """
+    i0, i1 = _mirror_spans(centres, x)
+    costs = np.full(centres.size, np.inf)
+    for k in np.flatnonzero(i1 - i0 >= 10):
+        beyond = slice(i0[k], i1[k])
+        mirrored = np.interp(2 * centres[k] - x[beyond], x, y)
+        costs[k] = np.mean((y[beyond] - mirrored) ** 2)
+    return costs
 
 
 def mirror_centre(x, y, period_T):
@@ -63,7 +82,7 @@ def mirror_centre(x, y, period_T):
     span = x[-1] - x[0]
     grid = np.linspace(x[0] + 0.25 * span, x[-1] - 0.25 * span,
                        max(21, int(round(0.5 * span / (period_T / 20)))))
-    costs = [_mirror_cost(c, x, y) for c in grid]
+    costs = _mirror_costs(grid, x, y)
     k = int(np.argmin(costs))
     step = grid[1] - grid[0]
     res = optimize.minimize_scalar(_mirror_cost, bounds=(grid[k] - step, grid[k] + step),
@@ -250,14 +269,17 @@ def lifted_floor_A(fit, criterion_floor_A=0.0) -> float | None:
     return test["lifted_floor_A"] if test and test["lifted"] else None
 
 
-def shape_flags(fit, *, criterion_floor_A=0.0, density=None) -> list:
-    """Flags for one fitted branch: lifted nodes, asymmetry, central dip, edge/centre current."""
+def shape_flags(fit, *, criterion_floor_A=0.0, density=None, floor=None) -> list:
+    """Flags for one fitted branch: lifted nodes, asymmetry, central dip, edge/centre current.
+
+    ``floor`` is :func:`floor_test` of this fit where the caller has it already.
+    """
     flags = []
     if fit.period_T is None:
         return flags
     x, y, noise = fit.field_T, fit.ic_A, fit.noise_A
-    floor = floor_test(fit, criterion_floor_A)
-    if floor is not None and floor.pop("lifted"):
+    floor = dict(floor) if floor is not None else floor_test(fit, criterion_floor_A)
+    if floor and floor.pop("lifted"):
         flags.append(make_flag(
             "nodes-lifted", fit.branch, **floor,
             # Over Ic0 only where Ic0 is given (a main lobe outside the window is never
