@@ -253,7 +253,7 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
     rn_rows = cr.normal_resistance(sig, bias, ivmap.kind)
     rn = float(np.nanmedian(rn_rows)) if np.isfinite(rn_rows).any() else None
 
-    data = MapData(ivmap.path, ivmap.kind, sig, bias, offsets, noise, rn)
+    data = MapData(ivmap.path, ivmap.kind, sig, bias, offsets, noise, rn, dense)
     level, info = crit.level(data, threshold)
     quantity = crit.quantity(data)
     # A derivative is NaN near the turns of a dense map: those points are left out of the

@@ -52,13 +52,16 @@ class MapData:
     offsets_V: object  # per row; zeros for dV/dI maps
     noise_V: float | None  # None for dV/dI maps
     rn_ohm: float | None
+    #: True when the signal is known to hold no NaN (saves a pass over the map).
+    dense: bool = False
 
     @cached_property
     def dvdi(self):
         """dV/dI over the map: measured, or differentiated here (the one new map-sized array)."""
         from . import criteria as cr
 
-        return self.signal if self.kind == "dvdi" else cr.differential(self.signal, self.bias_A)
+        return (self.signal if self.kind == "dvdi"
+                else cr.differential(self.signal, self.bias_A, dense=self.dense))
 
     @cached_property
     def dvdi_noise_ohm(self) -> float:
