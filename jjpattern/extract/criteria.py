@@ -61,6 +61,12 @@ class Segment:
         if isinstance(a, Deviation):
             sub, valid = self.take(a.signal)
             return Deviation(sub, a.offset), valid
+        if hasattr(a, "columns") and self.cols is not None and self.all_finite:
+            # A derivative computed where it is read (.derivative): narrowed, not computed.
+            c = self.cols
+            run = c.size > 0 and c[-1] - c[0] == c.size - 1
+            sub = a.columns(c[0], c[-1] + 1) if run else a[:, c]
+            return sub, np.broadcast_to(np.True_, sub.shape)
         if self.cols is not None:
             c = self.cols
             run = c.size > 0 and c[-1] - c[0] == c.size - 1

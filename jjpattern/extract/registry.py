@@ -57,11 +57,21 @@ class MapData:
 
     @cached_property
     def dvdi(self):
-        """dV/dI over the map: measured, or differentiated here (the one new map-sized array)."""
+        """dV/dI over the map: measured, or differentiated here.
+
+        A dense map with one bias row is differentiated where the search reads it
+        (:class:`.derivative.Derivative`, the same numbers); any other map at once
+        (the one new map-sized array).
+        """
         from . import criteria as cr
 
-        return (self.signal if self.kind == "dvdi"
-                else cr.differential(self.signal, self.bias_A, dense=self.dense))
+        if self.kind == "dvdi":
+            return self.signal
+        if self.dense and cr.shared(self.bias_A) and self.signal.shape[1] >= 7:
+            from .derivative import Derivative
+
+            return Derivative(self.signal, self.bias_A[0])
+        return cr.differential(self.signal, self.bias_A, dense=self.dense)
 
     @cached_property
     def dvdi_noise_ohm(self) -> float:
