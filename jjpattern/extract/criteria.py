@@ -164,7 +164,7 @@ def _row_median(a, valid):
     return np.where(n > 0, 0.5 * (lo + hi), np.nan)
 
 
-def row_offset(signal, bias_A, noise=None):
+def row_offset(signal, bias_A, noise=None, all_finite=False):
     """Amplifier offset per row: median voltage within 5 % of zero bias (supercurrent branch).
 
     A row that is resistive near zero bias (over a fifth of those points more
@@ -174,8 +174,9 @@ def row_offset(signal, bias_A, noise=None):
     straddle it symmetrically (ohmic), where the median over 5 % of zero bias
     lands anywhere between two ohmic points (up to half of Rn times a bias step
     off) or is pulled by one polarity that is resistive and one that is not.
+    ``all_finite`` promises a map without NaN (the engine has checked).
     """
-    seg = select(bias_A, near_zero(0.05))
+    seg = select(bias_A, near_zero(0.05), all_finite)
     sub, valid = seg.take(signal)
     offset = _row_median(sub, valid)
     if noise is None or not noise > 0 or sub.shape[1] < 3:

@@ -247,7 +247,7 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
         # Second differences and the slope of V(I) do not see the offset: no need to
         # subtract it from the whole map first.
         noise = cr.zero_branch_noise(sig, bias)
-        offsets = cr.row_offset(sig, bias, noise)
+        offsets = cr.row_offset(sig, bias, noise, dense)
         offsets = np.where(np.isfinite(offsets), offsets, np.nanmedian(offsets))
         offset = float(np.nanmedian(offsets))
     rn_rows = cr.normal_resistance(sig, bias, ivmap.kind)

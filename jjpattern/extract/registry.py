@@ -57,27 +57,35 @@ class MapData:
 
     @cached_property
     def dvdi(self):
-        """dV/dI over the map: measured, or differentiated here.
+        """dV/dI over the map: measured, or differentiated here (the one new map-sized array)."""
+        from . import criteria as cr
 
-        A dense map with one bias row is differentiated where the search reads it
-        (:class:`.derivative.Derivative`, the same numbers); any other map at once
-        (the one new map-sized array).
+        return (self.signal if self.kind == "dvdi"
+                else cr.differential(self.signal, self.bias_A, dense=self.dense))
+
+    @cached_property
+    def dvdi_where_read(self):
+        """:attr:`dvdi` with the same numbers, differentiated only where it is read.
+
+        For a dense voltage map with one bias row (:class:`.derivative.Derivative`):
+        a search that stops at the transition then never differentiates the rest,
+        and no map-sized array is written. A search that reads every point (the
+        peak) is faster on :attr:`dvdi`, one convolution of the whole map.
         """
         from . import criteria as cr
 
-        if self.kind == "dvdi":
-            return self.signal
-        if self.dense and cr.shared(self.bias_A) and self.signal.shape[1] >= 7:
+        if (self.kind == "voltage" and self.dense and cr.shared(self.bias_A)
+                and self.signal.shape[1] >= 7 and "dvdi" not in self.__dict__):
             from .derivative import Derivative
 
             return Derivative(self.signal, self.bias_A[0])
-        return cr.differential(self.signal, self.bias_A, dense=self.dense)
+        return self.dvdi
 
     @cached_property
     def dvdi_noise_ohm(self) -> float:
         from . import criteria as cr
 
-        return cr.zero_branch_noise(self.dvdi, self.bias_A)
+        return cr.zero_branch_noise(self.dvdi_where_read, self.bias_A)
 
     def need_rn(self, why: str) -> float:
         """Rn, or an :class:`InputError` ending with ``why`` when it could not be fitted."""
@@ -267,6 +275,10 @@ class DvdiThreshold(_Derivative):
     name = "dvdi-threshold"
     threshold_unit = "ohm"
     threshold_example = "5Ohm"
+
+    def quantity(self, data):
+        # The search stops at the first point above the level: differentiate only there.
+        return data.dvdi_where_read
 
     def parse_threshold(self, value, unit, where):
         from ..io.units import resistance_factor
