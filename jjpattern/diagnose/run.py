@@ -64,9 +64,8 @@ def _half_periods(fit):
         xs, ys = x[side], y[side]
         units = Units.of(xs, ys)
         local = Local(units.to_unit(start), free, 0.0, np.ones(xs.size), ys)
-        res = final_fit(spec, xs, ys, local, units, fit.noise_A)
-        err = res.params["period_T"].stderr
-        out.append((abs(res.params["period_T"].value), err))
+        period = final_fit(spec, xs, ys, local, units, fit.noise_A).params["period_T"]
+        out.append((abs(period.value), period.stderr))  # the fit's arrays go here
     return out
 
 
