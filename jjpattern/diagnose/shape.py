@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..flags import make_flag
+from .mirror import mirror_centre, mirror_redchi
 
 #: A node floor this many standard errors above the floor that true zeros measured as
 #: magnitudes would give (folded noise, and the extraction criterion's own) means lifted
@@ -42,72 +43,6 @@ DRIFT_SIGMAS = 5.0
 DRIFT_FRACTION = 0.005
 #: L / lambda_J above which the junction is not short.
 LONG_RATIO = 1.0
-
-
-def _mirror_spans(centres, x):
-    """Indices ``(i0, i1)`` per centre ``c`` of the points strictly between ``c`` and ``c``
-    plus its reach (the shorter distance to an end of the window)."""
-    reach = np.minimum(centres - x[0], x[-1] - centres)
-    return np.searchsorted(x, centres, "right"), np.searchsorted(x, centres + reach, "left")
-
-
-def _mirror_cost(c, x, y):
-    return float(_mirror_costs(np.array([c]), x, y)[0])
-
-
-def _mirror_costs(centres, x, y):
-    """Mean squared difference of the data and their mirror image about each centre.
-
-    Over the points beyond the centre within its reach (``inf`` where fewer than 10):
-    those are data points, a slice found by bisection, so only their mirror images
-    are interpolated (a mask over the whole window per centre cost more than that).
-    """
-    i0, i1 = _mirror_spans(centres, x)
-    costs = np.full(centres.size, np.inf)
-    for k in np.flatnonzero(i1 - i0 >= 10):
-        beyond = slice(i0[k], i1[k])
-        d = y[beyond] - np.interp(2 * centres[k] - x[beyond], x, y)
-        # np.mean's sum and division without its Python wrapper (the same numbers).
-        costs[k] = np.add.reduce(d * d) / d.size
-    return costs
-
-
-def mirror_centre(x, y, period_T):
-    """Field about which the data are most nearly mirror-symmetric (model-free).
-
-    A grid of a twentieth of a period over the middle half of the window, then a
-    bounded refinement around the best grid point.
-    """
-    from scipy import optimize
-
-    span = x[-1] - x[0]
-    grid = np.linspace(x[0] + 0.25 * span, x[-1] - 0.25 * span,
-                       max(21, int(round(0.5 * span / (period_T / 20)))))
-    costs = _mirror_costs(grid, x, y)
-    k = int(np.argmin(costs))
-    step = grid[1] - grid[0]
-    res = optimize.minimize_scalar(_mirror_cost, bounds=(grid[k] - step, grid[k] + step),
-                                   args=(x, y), method="bounded",
-                                   options={"xatol": 1e-4 * period_T})
-    return float(res.x if res.fun <= costs[k] else grid[k])
-
-
-#: Median of a chi-square variable with one degree of freedom.
-_CHI2_1_MEDIAN = 0.454936423119572
-
-
-def mirror_redchi(x, y, centre, noise):
-    """Robust reduced chi-square of ``Ic(c + b) - Ic(c - b)`` against twice the noise variance.
-
-    The median of the squared differences (scaled to the mean for Gaussian noise)
-    keeps a few premature-switching points from posing as asymmetry.
-    """
-    reach = min(centre - x[0], x[-1] - centre)
-    b = x[(x > centre) & (x < centre + reach)]
-    if b.size < 20:
-        return None, int(b.size)
-    diff = np.interp(b, x, y) - np.interp(2 * centre - b, x, y)
-    return float(np.median(diff**2) / _CHI2_1_MEDIAN / (2 * noise**2)), int(b.size)
 
 
 def _lobe_maxima(geometry, count, extras=None):
