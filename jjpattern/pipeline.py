@@ -218,9 +218,10 @@ def fit_method(settings: Settings) -> dict:
     loss = settings.fit.loss
     model = settings.fit.model
     return {
-        "fit": "scan of period and offset (FFT correlation), then lmfit "
-               + ("leastsq (Levenberg-Marquardt)" if loss == "linear"
-                  else f"least_squares (trust region, {loss} loss)"),
+        "fit": "scan of period and offset (FFT correlation), then scipy "
+               + ("leastsq (MINPACK Levenberg-Marquardt)" if loss == "linear"
+                  else f"least_squares (trust region, {loss} loss) finished by weighted "
+                       "leastsq (MINPACK Levenberg-Marquardt)"),
         "model": (f"every registered model fitted, the one with the lowest {choice.CRITERION} "
                   "(chi-square over the model-free noise plus k ln n) reported when no "
                   f"simpler model is within {choice.MARGIN:g} of it, else the simplest within "

@@ -80,12 +80,12 @@ class ExtractSettings:
 class FitSettings:
     """The pattern model and how it is fitted.
 
-    ``model`` is the name of one model (default ``"rectangular"``) or ``"auto"``
-    (every registered model is fitted and the Bayesian information criterion picks
-    one by a margin; four to five times the cost of one model, see scripts/bench_fit.py).
+    ``model`` is ``"auto"`` (default: every registered model is fitted and the Bayesian
+    information criterion picks one by a margin, at about three times the cost of one
+    model, see scripts/bench_fit.py) or the name of one model, which is then fitted alone.
     """
 
-    model: str = "rectangular"
+    model: str = "auto"
     node_floor: str = "auto"
     loss: str = "linear"
 

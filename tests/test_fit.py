@@ -68,7 +68,7 @@ def test_effective_area_is_phi0_over_period_with_propagated_error():
     assert fit.effective_area_m2 == pytest.approx(PHI0_WB / fit.period_T, rel=1e-12)
     assert fit.effective_area_stderr_m2 / fit.effective_area_m2 == pytest.approx(
         fit.period_stderr_T / fit.period_T, rel=1e-6)
-    assert fit.lmfit_result.params["period_T"].value == pytest.approx(fit.period_T)
+    assert fit.fit_result.params["period_T"].value == pytest.approx(fit.period_T)
 
 
 def test_api_accepts_unsorted_negative_branch_and_nans():

@@ -130,7 +130,7 @@ def test_derived_errors_carry_the_correlation_of_period_and_ic0():
             cov = np.array([[sp**2, rho * sp * si], [rho * sp * si, si**2]])
             params = {"period_T": SimpleNamespace(value=sign * period),
                       "ic0_A": SimpleNamespace(value=ic0)}
-            fit.lmfit_result = SimpleNamespace(var_names=["period_T", "ic0_A"], covar=cov,
+            fit.fit_result = SimpleNamespace(var_names=["period_T", "ic0_A"], covar=cov,
                                                params=params)
         return geometry_block([fit], inputs)["josephson_depth_stderr_m"]
 

@@ -13,10 +13,11 @@ import pytest
 
 from jjpattern.fit.choice import MARGIN
 from jjpattern.fit.engine import fit_pattern
+from jjpattern.fit.runs import runs_z
 from jjpattern.io.sweep import Branch, Sweep
 from jjpattern.pipeline import analyze_data
 from jjpattern.report.methods import methods_paragraph
-from jjpattern.report.summary import render_summary
+from jjpattern.report.summary import choice_sentence, render_summary
 
 PERIOD_T, OFFSET_T, IC0_A = 1.0e-3, 0.12e-3, 72.5e-6 / 0.7246
 
@@ -169,3 +170,57 @@ def test_flag_messages_list_their_real_causes():
     assert "not the period" in long_text and "long-inline" in long_text
     severity, poor = CATALOGUE["poor-fit"]
     assert severity == "error" and "withheld" in poor
+
+
+def _gaussian_profile(u, width=0.2):
+    """|integral of J(x) exp(2 pi i u x) dx| over the junction x in [-1/2, 1/2] for a
+    Gaussian J of standard deviation ``width`` (Dynes-Fulton; the integral by the
+    trapezoid rule here, independent of the project's reconstruction)."""
+    x = np.linspace(-0.5, 0.5, 801)
+    j = np.exp(-0.5 * (x / width) ** 2)
+    kernel = np.cos(2 * np.pi * np.outer(u, x))  # J even: the sine part vanishes
+    return np.abs(np.trapezoid(kernel * j, x, axis=1)) / np.trapezoid(j, x)
+
+
+def test_a_model_that_only_bends_towards_the_data_is_set_aside():
+    # A Gaussian current profile is no long junction, though a long overlap junction at
+    # L / lambda_J near 11 comes within a reduced chi-square of 1.8 at 2.5 % noise; its
+    # residuals keep one sign over long stretches (runs test), so it is set aside, no
+    # other model fits, and the reference rectangle is reported with its numbers withheld.
+    rng = np.random.default_rng(8)
+    field, positive, _ = sweep(rng, lambda u: _gaussian_profile(u, 0.15), 6.4, points=900,
+                               noise=0.025)
+    fit = fit_pattern(field, positive)
+    block = fit.model_choice
+    assert block["decision"] == "none fits" and fit.model == "rectangular"
+    assert fit.period_T is None and fit.withheld["reason"] == "poor-fit"
+    aside = {a["model"]: a for a in block["set_aside"]}
+    assert aside["long-overlap"]["reduced_chisq"] < 2.0
+    assert aside["long-overlap"]["residual_runs_z"] < -4.0
+    assert "runs test" in aside["long-overlap"]["reason"]
+    for c in block["candidates"]:
+        assert c["reduced_chisq"] == pytest.approx(
+            c["chisq_over_noise"] / (block["points"] - c["parameters"]), rel=1e-9)
+    words = choice_sentence(block)
+    assert "no model describes the data" in words and "long-overlap set aside" in words
+
+
+def test_runs_test_against_its_exact_small_sample_values():
+    # Wald and Wolfowitz (1940): for n1 = n2 = 10 the number of runs has mean 11 and
+    # variance 2 n1 n2 (2 n1 n2 - n) / (n^2 (n - 1)) = 200 * 180 / (400 * 19) = 4.7368.
+    signs = np.array([1.0] * 5 + [-1.0] * 5 + [1.0] * 5 + [-1.0] * 5)  # 4 runs
+    assert runs_z(signs) == pytest.approx((4 - 11) / np.sqrt(4.7368421), rel=1e-6)
+    alternating = np.tile([1.0, -1.0], 10)  # 20 runs
+    assert runs_z(alternating) == pytest.approx((20 - 11) / np.sqrt(4.7368421), rel=1e-6)
+    assert runs_z(np.ones(30)) == 0.0  # one sign only: no test
+
+
+def test_rivals_start_from_the_reference_fit_when_it_describes_the_data():
+    rng = np.random.default_rng(9)
+    field, positive, _ = sweep(rng, lambda u: np.abs(np.sinc(u)), 5.4, noise=0.02)
+    block = fit_pattern(field, positive).model_choice
+    assert block["rival_starts"] == "from the rectangular fit"
+    # A 0-pi pattern: its own model fits from the rectangle's start (no scans needed).
+    field, positive, _ = sweep(rng, zero_pi, 9.3)
+    fit = fit_pattern(field, positive)
+    assert fit.model == "zero-pi" and fit.period_T == pytest.approx(PERIOD_T, rel=0.01)

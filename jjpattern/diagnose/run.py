@@ -7,6 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..fit.reported import weighted_fit
 from ..physics import geometry as geo
 from ..physics.models import get_model
 from ..result import stderr_key
@@ -39,33 +40,26 @@ class GeometryInputs:
 
 
 def _half_periods(fit):
-    """Period fitted separately below and above the offset (offset and floor held).
-
-    Each half is fitted as the reported fit is (:func:`jjpattern.fit.lsq.final_fit`:
-    MINPACK with the model's gradient, in normalised units), started at the whole
-    fit's parameters with Ic0, the period and the model's extras free: one lmfit
-    minimisation per half instead of an lmfit model fit (its parameter copies and
-    expression evaluation cost more than the least squares).
-    """
-    if fit.field_offset_T is None or fit.lmfit_result is None:
+    """Period fitted separately below and above the offset (offset and floor held)."""
+    result = fit.fit_result
+    if fit.field_offset_T is None or result is None:
         return None
-    from ..fit.lsq import Local, Units, final_fit
-
     x, y, b0, p = fit.field_T, fit.ic_A, fit.field_offset_T, fit.period_T
     spec = get_model(fit.model)
     first = float(spec.nodes(1, fit.extra_params)[0])
-    fitted = fit.lmfit_result.params
-    start = {k: float(fitted[k].value) for k in spec.parameter_names() if k in fitted}
-    free = ("ic0_A", "period_T") + tuple(q.name for q in spec.extra)
+    units = result.units
+    start = units.to_unit({k: q.value for k, q in result.params.items()
+                           if k != "effective_area_m2"})
+    names = [n for n in result.var_names if n not in ("field_offset_T", "floor_A")]
     out = []
     for side in (x < b0, x > b0):
         if np.sum(side) < 20 or np.ptp(x[side]) < (first + 1.5) * p:
             return None
-        xs, ys = x[side], y[side]
-        units = Units.of(xs, ys)
-        local = Local(units.to_unit(start), free, 0.0, np.ones(xs.size), ys)
-        period = final_fit(spec, xs, ys, local, units, fit.noise_A).params["period_T"]
-        out.append((abs(period.value), period.stderr))  # the fit's arrays go here
+        params, covar, _ = weighted_fit(spec, units.field(x[side]), y[side] / units.scale_A,
+                                        start, names, 1.0)
+        k = names.index("period_T")
+        err = None if covar is None else float(np.sqrt(covar[k, k])) * units.span_T
+        out.append((abs(params["period_T"]) * units.span_T, err))
     return out
 
 
@@ -130,7 +124,7 @@ def _correlation(fit, first: str, second: str) -> float:
     The patterns are even in period and Ic0 and the fit is unbounded, so a parameter
     may converge negative; the magnitudes' correlation carries the signs' product.
     """
-    result = getattr(fit, "lmfit_result", None)
+    result = getattr(fit, "fit_result", None)
     names = list(getattr(result, "var_names", None) or [])
     covar = getattr(result, "covar", None)
     if covar is None or first not in names or second not in names:
@@ -267,7 +261,7 @@ def _trial(fit):
     """
     p = fit.best_params
     floor = err = None
-    result = fit.lmfit_result
+    result = fit.fit_result
     if (fit.withheld.get("reason") != "undersampled" and result is not None
             and "floor_A" in result.params and result.params["floor_A"].vary):
         floor, err = p["floor_A"], result.params["floor_A"].stderr

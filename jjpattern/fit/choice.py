@@ -26,17 +26,38 @@ import numpy as np
 
 from ..physics.models import get_model, model_names
 from .far import far_lobe_start, periodic_candidate
-from .lsq import Units, robust_weight, solve
+from .lsq import Units, full_params, robust_weight, solve
+from .outcome import POOR_FIT_REDCHI
+from .runs import runs_z
 from .scan import scan_pattern
 
-__all__ = ["CRITERION", "MARGIN", "ModelChoice", "Trial", "choose_model", "joint_choice",
-           "quick_fit", "robust_weight", "shape_start", "trial_fit"]
+__all__ = ["CRITERION", "DESCRIBES_REDCHI", "MARGIN", "RUNS_Z", "ModelChoice", "Trial",
+           "choose_model", "joint_choice", "quick_fit", "rival_start", "robust_weight",
+           "shape_start", "trial_fit"]
 
 #: BIC difference that makes a choice clear (Kass and Raftery 1995: "very strong").
 MARGIN = 10.0
 CRITERION = "BIC"
+#: A model with a free shape parameter (L / lambda_J, a channel asymmetry) is chosen only
+#: where it describes the data: reduced chi-square against the model-free noise at most
+#: this. Such a model can bend towards a pattern it does not describe (a Gaussian current
+#: profile fits a long overlap junction at L / lambda_J = 11 to a reduced chi-square of 3)
+#: and then names physics the junction need not have; the rectangle's departures are read
+#: by the diagnostics instead. Below it, rivals also need no scans of their own.
+DESCRIBES_REDCHI = 2.0
+#: A model other than the reference is chosen only where the signs of its residuals in field
+#: order pass the runs test (``runs.py``) at this one-sided normal score: a model that bends
+#: towards a pattern it does not describe leaves long runs of one sign (a Gaussian current
+#: profile fitted as a long overlap junction at 2.5 % noise: z = -7; the right model: |z| < 2).
+RUNS_Z = 4.0
 #: Shape-parameter starts: the period found by the scan is also tried at these factors.
 _PERIOD_FACTORS = (0.7, 0.85, 1.0, 1.2, 1.45)
+#: Points (every k-th) on which starts are ranked.
+_START_POINTS = 256
+#: A rival started from the reference fit tries these factors of the period that puts its
+#: first node on the reference's (patterns whose node spacing differs from their first
+#: node's distance, such as the disc's, settle within them).
+_RIVAL_FACTORS = (0.5, 0.7, 0.85, 1.0, 1.2, 1.45, 2.0)
 
 
 @dataclass
@@ -50,6 +71,14 @@ class Trial:
     floor: bool
     bic: float = np.inf
     at_limit: list = field(default_factory=list)
+    points: int = 0
+    shaped: bool = False
+    runs_z: float = 0.0
+
+    @property
+    def reduced_chisq(self) -> float:
+        """Chi-square over the noise per degree of freedom."""
+        return self.chisq_over_noise / max(self.points - self.parameters, 1)
 
 
 @dataclass
@@ -109,26 +138,39 @@ class _Scans:
         return self._cache[key]
 
 
-def shape_start(spec, x, y, period_T, offset_T):
-    """For a model with a shape-parameter grid: the grid value and period that fit best.
+def _ranked(spec, x, y, periods, offset_T, shape):
+    """Least-squares cost and closed-form amplitude of the model at each period in
+    ``periods`` (one broadcast evaluation; one per period for a formula that does not
+    broadcast)."""
+    t = spec.formula(x[None, :], 1.0, periods[:, None], offset_T, 0.0, **shape)
+    if np.shape(t) != (periods.size, x.size):
+        t = np.array([spec.formula(x, 1.0, p, offset_T, 0.0, **shape) for p in periods])
+    amp = (t @ y) / np.maximum(np.einsum("ij,ij->i", t, t), 1e-300)
+    return np.sum((amp[:, None] * t - y[None, :]) ** 2, axis=1), amp
 
-    At each grid value the scan's period is rescaled so that the model's first node
-    falls where the scan put the default shape's, then tried at a few factors; the
-    amplitude is solved in closed form. Returns a start dict.
+
+def shape_start(spec, x, y, period_T, offset_T, first_T=None, factors=_PERIOD_FACTORS):
+    """Start of a model from another model's period and offset: the period that puts its
+    first node where the other's was (``first_T`` from the offset; by default where the
+    model's own default shape puts it), tried at ``factors`` and at every value of a
+    shape-parameter grid, the amplitude solved in closed form. Returns a start dict.
     """
-    grid_param = next(p for p in spec.extra if p.grid)
-    first = float(spec.nodes(1)[0])
+    grid_param = next((p for p in spec.extra if p.grid), None)
+    values = grid_param.grid if grid_param else (None,)
+    # A few hundred points rank the starts as well as all of them (the fit uses all).
+    stride = max(1, x.size // _START_POINTS)
+    x, y = x[::stride], y[::stride]
+    if first_T is None:
+        first_T = float(spec.nodes(1)[0]) * period_T
     best = (np.inf, None)
-    for value in grid_param.grid:
-        node = float(spec.nodes(1, {grid_param.name: value})[0])
-        for factor in _PERIOD_FACTORS:
-            period = period_T * first / node * factor
-            t = spec.formula(x, 1.0, period, offset_T, 0.0, **{grid_param.name: value})
-            amp = float(np.dot(t, y) / max(np.dot(t, t), 1e-300))
-            cost = float(np.sum((amp * t - y) ** 2))
-            if cost < best[0]:
-                best = (cost, {"ic0_A": amp, "period_T": period, "field_offset_T": offset_T,
-                               grid_param.name: value})
+    for value in values:
+        shape = {} if grid_param is None else {grid_param.name: value}
+        periods = first_T / float(spec.nodes(1, shape or None)[0]) * np.asarray(factors)
+        cost, amp = _ranked(spec, x, y, periods, offset_T, shape)
+        i = int(np.argmin(cost))
+        if cost[i] < best[0]:
+            best = (float(cost[i]), {"ic0_A": float(amp[i]), "period_T": float(periods[i]),
+                                     "field_offset_T": offset_T, **shape})
     return best[1]
 
 
@@ -154,41 +196,76 @@ def _nodes_inside(spec, x, params):
     return int(np.sum((nodes > x[0] + margin) & (nodes < x[-1] - margin)))
 
 
-def trial_fit(spec, x, y, noise, scans: _Scans, *, node_floor, loss, floor_dchi2, min_nodes):
-    """One model's quick fit with the full fit's choices of start and floor."""
-    start = model_start(spec, scans, x, y)
+def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floor_dchi2,
+              min_nodes, start=None, beat=None):
+    """One model's quick fit with the full fit's choices of start and floor.
+
+    Without ``start`` the model is started from its own scan (and, with its main lobe
+    at or beyond an edge, from the far-lobe start and a short walk over lobes); with
+    ``start`` (a rival started from the reference model's fit, see ``rival_start``)
+    from there alone. ``beat``, the reference's criterion, lets a rival that no floor
+    could bring near it skip its floor trial (``_beyond_floor``).
+    """
     if start is None:
-        return None
+        start = model_start(spec, scans, x, y)
+        if start is None:
+            return None
     f_scale = 2.0 * noise
-    params, chisq, k = quick_fit(spec, x, y, start, floor=node_floor == "on" and not
-                                 spec.periodic, loss=loss, f_scale=f_scale)
-    offset = params["field_offset_T"]
-    if not spec.periodic and (not x[0] <= offset <= x[-1]
-                              or _nodes_inside(spec, x, params) < min_nodes):
-        far = scans.far(spec.unit_shape)
-        if far is not None:
-            alt_start = dict(params, ic0_A=far.amplitude_A, period_T=far.period_T,
-                             field_offset_T=far.field_offset_T)
-            alt = quick_fit(spec, x, y, alt_start, floor=node_floor == "on", loss=loss,
-                            f_scale=f_scale)
-            if alt[1] < chisq:
-                params, chisq, k = alt
-    if not spec.periodic:
-        params, chisq, k = _walk_lobes(spec, x, y, params, chisq, k, node_floor == "on",
-                                       loss, f_scale)
-    floor = node_floor == "on" and not spec.periodic
+    floored = node_floor == "on" and not spec.periodic
+    params, chisq, k = quick_fit(spec, x, y, start, floor=floored, loss=loss, f_scale=f_scale)
+    if scans is not None and not spec.periodic:
+        offset = params["field_offset_T"]
+        if not x[0] <= offset <= x[-1] or _nodes_inside(spec, x, params) < min_nodes:
+            far = scans.far(spec.unit_shape)
+            if far is not None:
+                alt_start = dict(params, ic0_A=far.amplitude_A, period_T=far.period_T,
+                                 field_offset_T=far.field_offset_T)
+                alt = quick_fit(spec, x, y, alt_start, floor=floored, loss=loss,
+                                f_scale=f_scale)
+                if alt[1] < chisq:
+                    params, chisq, k = alt
+        params, chisq, k = _walk_lobes(spec, x, y, params, chisq, k, floored, loss, f_scale)
     gain = None
-    if node_floor == "auto" and not spec.periodic:
+    if node_floor == "auto" and not spec.periodic and (
+            beat is None or not _beyond_floor(spec, x, y, params, chisq, k, noise, beat)):
         fp, fchisq, fk = quick_fit(spec, x, y, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
                                    floor=True, loss=loss, f_scale=f_scale)
         gain = (chisq - fchisq) / (fchisq / max(x.size - fk, 1))
         if gain > floor_dchi2:
-            params, chisq, k, floor = fp, fchisq, fk, True
+            params, chisq, k, floored = fp, fchisq, fk, True
     # The full fit of the chosen model takes the floor decision made here.
-    params["floor_gain"] = gain if floor else None
-    trial = Trial(spec.name, params, chisq / noise**2, k, floor)
+    params["floor_gain"] = gain if floored else None
+    trial = Trial(spec.name, params, chisq / noise**2, k, floored, points=int(x.size))
+    trial.runs_z = runs_z(spec.formula(x, **full_params(spec, params, floored)) - y)
     trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
     return trial
+
+
+def _beyond_floor(spec, x, y, params, chisq, k, noise, beat) -> bool:
+    """Whether a floor cannot bring a rival near the criterion ``beat`` to beat: its
+    criterion without a floor exceeds ``beat`` by more than three times what a floor
+    alone recovers at its fit (the rest held; the best of a grid of floors from 0.1 % to
+    half the largest current) and three margins. The floor alone is a lower bound of the
+    floored fit's gain; a refit of the rest moves it by a fraction, not threefold."""
+    m = spec.formula(x, **full_params(spec, params, False))
+    floors = np.geomspace(1e-3, 0.5, 40) * max(float(np.max(np.abs(m))), 1e-300)
+    floored = np.sqrt(m[None, :] ** 2 + floors[:, None] ** 2)
+    alone = (chisq - float(np.min(np.sum((y[None, :] - floored) ** 2, axis=1)))) / noise**2
+    deficit = chisq / noise**2 + (k + 1) * np.log(x.size) - beat
+    return deficit > 3.0 * max(alone, MARGIN)
+
+
+def rival_start(spec, reference_spec, reference: dict, x, y) -> dict:
+    """A model's start from the reference model's converged fit: the period that puts its
+    first node where the reference's first node fell, a few factors around it (and the
+    shape-parameter grid), the reference's offset; amplitude in closed form."""
+    extras = {p.name: reference[p.name] for p in reference_spec.extra}
+    first = float(reference_spec.nodes(1, extras or None)[0]) * abs(reference["period_T"])
+    factors = _PERIOD_FACTORS if any(p.grid for p in spec.extra) else _RIVAL_FACTORS
+    start = shape_start(spec, x, y, abs(reference["period_T"]), reference["field_offset_T"],
+                        first_T=first, factors=factors)
+    start["floor_A"] = 0.0
+    return start
 
 
 def _walk_lobes(spec, x, y, params, chisq, k, floor, loss, f_scale, max_steps=3):
@@ -221,35 +298,79 @@ def _simplicity(trial: Trial, order: dict):
 
 
 def _decide(trials, order):
-    """Sort ``trials`` by BIC; the simplest within the margin of the lowest is chosen.
+    """Sort ``trials`` by BIC; the simplest within the margin of the lowest is chosen,
+    unless it is not the reference and does not describe the data (``_unlike``: a shape
+    parameter with a reduced chi-square above ``DESCRIBES_REDCHI``, or residual signs that
+    fail the runs test): then it is set aside and the choice made among the rest.
+
+    Where the model so chosen misses the data (reduced chi-square above
+    ``POOR_FIT_REDCHI``, where its numbers would be withheld), the reference model (first
+    in ``order``) is reported instead and the decision is ``"none fits"``.
 
     Returns ``(chosen, verdict)``, the verdict being the block's keys from ``chosen`` to
-    ``candidates``.
+    ``set_aside``.
     """
     trials.sort(key=lambda t: t.bic)
-    lowest = trials[0]
-    within = [t for t in trials if t.bic - lowest.bic < MARGIN]
-    chosen = min(within, key=lambda t: _simplicity(t, order))
-    runner = next((t for t in trials if t is not chosen), None)
-    clear = chosen is lowest and (runner is None or runner.bic - chosen.bic >= MARGIN)
+    set_aside, rest = [], list(trials)
+    while True:
+        lowest = rest[0]
+        within = [t for t in rest if t.bic - lowest.bic < MARGIN]
+        chosen = min(within, key=lambda t: _simplicity(t, order))
+        reason = _unlike(chosen, order)
+        if reason is None or len(rest) == 1:
+            break
+        set_aside.append((chosen, reason))
+        rest.remove(chosen)
+    decision = ("clear" if chosen is lowest and (len(rest) == 1 or sorted(
+        t.bic for t in rest)[1] - chosen.bic >= MARGIN) else "near tie")
+    # Where no model describes the data, none is named: the reference (the simplest, the
+    # uniform junction) is reported, its numbers withheld as a poor fit, and its
+    # departures read by the diagnostics.
+    reference = min(trials, key=lambda t: order.get(t.name, len(order)))
+    if chosen.reduced_chisq > POOR_FIT_REDCHI:
+        chosen, decision = reference, "none fits"
+    aside = [t for t, _ in set_aside]
+    runner = next((t for t in trials if t is not chosen and t not in aside), None)
     return chosen, {
         "chosen": chosen.name,
-        "lowest_criterion": lowest.name,
+        "lowest_criterion": trials[0].name,
         "runner_up": None if runner is None else runner.name,
         "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
-        "decision": "clear" if clear else "near tie",
+        "decision": decision,
         "candidates": [{"model": t.name, "bic": float(t.bic),
-                        "delta_bic": float(t.bic - lowest.bic),
+                        "delta_bic": float(t.bic - trials[0].bic),
                         "chisq_over_noise": float(t.chisq_over_noise),
-                        "parameters": t.parameters, "node_floor": t.floor}
+                        "reduced_chisq": float(t.reduced_chisq),
+                        "parameters": t.parameters, "node_floor": t.floor,
+                        "shape_parameter": t.shaped, "residual_runs_z": float(t.runs_z)}
                        for t in trials],
+        "set_aside": [{"model": t.name, "reduced_chisq": float(t.reduced_chisq),
+                       "residual_runs_z": float(t.runs_z), "reason": reason}
+                      for t, reason in set_aside],
     }
+
+
+def _unlike(trial, order):
+    """Why a model other than the reference does not describe the data, or ``None``."""
+    if order.get(trial.name, len(order)) == 0:
+        return None
+    if trial.shaped and trial.reduced_chisq > DESCRIBES_REDCHI:
+        return (f"its shape parameter lets it bend towards data it does not describe "
+                f"(reduced chi-square {trial.reduced_chisq:.3g} above {DESCRIBES_REDCHI:g})")
+    if trial.runs_z < -RUNS_Z:
+        return (f"its residuals run in long stretches of one sign (runs test z = "
+                f"{trial.runs_z:.1f}, below -{RUNS_Z:g})")
+    return None
 
 
 def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
                  floor_dchi2=10.0, min_nodes=2) -> ModelChoice | None:
     """Quick-fit every model in ``names`` (default: all registered) and pick one by BIC.
 
+    The first name (the reference, the uniform rectangle) is started from its own scan;
+    the others from its converged fit (``rival_start``), which saves their scans. When
+    none of them then describes the data (reduced chi-square above ``DESCRIBES_REDCHI``)
+    each is fitted again from its own scan and the better of its two fits kept.
     Returns ``None`` when no model could be fitted at all.
     """
     names = tuple(names or model_names())
@@ -258,16 +379,41 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     units = Units.of(x, y)
     noise_A, x, y, noise = noise, units.field(x), y / units.scale_A, noise / units.scale_A
     scans = _Scans(x, y)
-    trials = []
-    for name in names:
+
+    def run(name, start=None):
+        beat = None if start is None or reference is None else reference.bic
         try:
-            trial = trial_fit(get_model(name), x, y, noise, scans, node_floor=node_floor,
-                              loss=loss, floor_dchi2=floor_dchi2, min_nodes=min_nodes)
+            trial = trial_fit(get_model(name), x, y, noise, None if start else scans,
+                              node_floor=node_floor, loss=loss, floor_dchi2=floor_dchi2,
+                              min_nodes=min_nodes, start=start, beat=beat)
         except (ValueError, FloatingPointError, np.linalg.LinAlgError):
-            trial = None
-        if trial is not None and np.isfinite(trial.chisq_over_noise):
-            trial.bic = trial.chisq_over_noise + trial.parameters * np.log(x.size)
-            trials.append(trial)
+            return None
+        if trial is None or not np.isfinite(trial.chisq_over_noise):
+            return None
+        trial.bic = trial.chisq_over_noise + trial.parameters * np.log(x.size)
+        trial.shaped = bool(get_model(name).extra)
+        return trial
+
+    reference = None
+    reference = run(names[0])
+    found = {names[0]: reference}
+    for name in names[1:]:
+        start = None
+        if reference is not None:
+            with np.errstate(all="ignore"):
+                start = rival_start(get_model(name), get_model(names[0]), reference.params,
+                                    x, y)
+        found[name] = run(name, start)
+    starts = f"from the {names[0]} fit"
+    fitted = [t for t in found.values() if t is not None]
+    if reference is None or not fitted or min(t.reduced_chisq for t in fitted) > DESCRIBES_REDCHI:
+        starts = "from the reference fit and from each model's own scan"
+        for name in names[1:]:
+            own = run(name)
+            if own is not None and (found[name] is None
+                                    or own.chisq_over_noise < found[name].chisq_over_noise):
+                found[name] = own
+    trials = [t for t in found.values() if t is not None]
     # A model whose shape parameter ran to the end of its range does not fit: left out.
     excluded = [{"model": t.name, "reason": f"{', '.join(t.at_limit)} ran to the end of the "
                  "range the model describes"} for t in trials if t.at_limit]
@@ -276,7 +422,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
         return None
     chosen, verdict = _decide(trials, order)
     block = {"criterion": CRITERION, "margin": MARGIN, "noise_A": float(noise_A),
-             "points": int(x.size), **verdict, "excluded": excluded}
+             "points": int(x.size), "rival_starts": starts, **verdict, "excluded": excluded}
     return ModelChoice(chosen.name, units.to_si(chosen.params), block)
 
 
@@ -295,14 +441,19 @@ def joint_choice(blocks, names=None) -> dict | None:
     per_model = {}
     for block in blocks:
         for c in block["candidates"]:
-            entry = per_model.setdefault(c["model"], [0.0, 0.0, 0, False, 0])
+            entry = per_model.setdefault(c["model"], [0.0, 0.0, 0, False, 0, 0, False, 0.0])
             entry[0] += c["bic"]
             entry[1] += c["chisq_over_noise"]
             entry[2] += c["parameters"]
             entry[3] |= c["node_floor"]
             entry[4] += 1
-    trials = [Trial(m, {}, v[1], v[2], v[3], v[0]) for m, v in per_model.items()
-              if v[4] == len(blocks)]
+            entry[5] += int(block.get("points", 0))
+            entry[6] |= bool(c.get("shape_parameter", False))
+            entry[7] += float(c.get("residual_runs_z", 0.0))
+    # The branches' runs scores combined as independent normal scores (Stouffer).
+    trials = [Trial(m, {}, v[1], v[2], v[3], v[0], points=v[5], shaped=v[6],
+                    runs_z=v[7] / np.sqrt(v[4]))
+              for m, v in per_model.items() if v[4] == len(blocks)]
     if not trials:
         return None
     _, verdict = _decide(trials, order)

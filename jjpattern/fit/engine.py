@@ -17,7 +17,7 @@ from ..sampling import tidy
 from .choice import choose_model, shape_start
 from .far import far_lobe_start
 from .lobes import OFFSET_DCHI2, check_lobe_assignment, extras_of, nodes_in_window
-from .lsq import Units, final_fit, robust_weight, solve
+from .lsq import Units, solve
 from .noise import difference_noise
 from .outcome import (
     MIN_NODES,
@@ -28,6 +28,7 @@ from .outcome import (
     withhold_if_poor,
     withhold_if_undersampled,
 )
+from .reported import final_fit
 from .result import PatternFit
 from .scan import scan_pattern
 
@@ -46,24 +47,10 @@ AUTO = "auto"
 
 __all__ = ["AUTO", "FLOOR_DCHI2", "MIN_NODES", "MODULATION_DCHI2", "MODULATION_POINTS",
            "OFFSET_DCHI2",
-           "OUTLIER_SIGMAS", "POOR_FIT_REDCHI", "ROBUST_SCALE", "fit_pattern", "local_fit"]
+           "OUTLIER_SIGMAS", "POOR_FIT_REDCHI", "ROBUST_SCALE", "fit_pattern"]
 
 LOSSES = ("linear", "soft_l1", "huber", "cauchy")
 NODE_FLOOR = ("auto", "on", "off")
-
-
-def local_fit(model, y, x, params, loss, f_scale):
-    """One local fit. A robust fit ends with a weighted least-squares step at the
-    robust weights (the fixed point of iteratively reweighted least squares), so
-    that its covariance and reduced chi-square use the down-weighted residuals."""
-    if loss == "linear":
-        return model.fit(y, params, field_T=x, method="leastsq")
-    fit_kws = {"loss": loss, "f_scale": f_scale, "x_scale": "jac"}
-    robust = model.fit(y, params, field_T=x, method="least_squares", fit_kws=fit_kws)
-    weights = robust_weight((robust.residual / f_scale) ** 2, loss)
-    result = model.fit(y, robust.params, field_T=x, weights=np.sqrt(weights), method="leastsq")
-    result.robust_weights = weights
-    return result
 
 
 def _uncertainty_text(loss):
@@ -173,7 +160,7 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
     """The fit of one model: start, local fit, far lobe, node floor, checks, numbers.
 
     Everything up to the reported fit runs in normalised units (``lsq.Units``) with
-    scipy; the reported fit is lmfit's, started at the converged point.
+    scipy; the reported fit (``reported.final_fit``) starts at the converged point.
     """
     scale = float(np.max(np.abs(y)))
     out = PatternFit(
@@ -203,7 +190,9 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
     def refit(params, floor=False):
         return solve(spec, xn, yn, params, floor=floor, loss=loss, f_scale=f_scale)
 
-    local = refit(start)
+    # The choice's converged parameters, with the floor it decided on: one short refit.
+    chosen_floor = decided and choice_gain is not None and not spec.periodic
+    local = refit(start, floor=chosen_floor)
     offset = local.params["field_offset_T"]
     if not given and not spec.periodic and (not xn[0] <= offset <= xn[-1] or nodes_in_window(
             spec, xn, abs(local.params["period_T"]), offset,
@@ -215,10 +204,7 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
             if alt.chisq < local.chisq:
                 local = alt
     gain = None
-    if decided and choice_gain is not None and not spec.periodic:
-        local = refit(dict(local.params, floor_A=max(abs(start.get("floor_A", 0.0)),
-                                                     0.05 * abs(local.params["ic0_A"]))),
-                      floor=True)
+    if chosen_floor:
         gain = choice_gain
     elif not decided and node_floor != "off" and not spec.periodic:
         floored = refit(dict(local.params, floor_A=max(

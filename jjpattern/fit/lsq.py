@@ -1,12 +1,12 @@
-"""Least squares in normalised units: scipy for the inner loops, lmfit for the final fit.
+"""Least squares in normalised units for the inner loops (scipy, analytic gradients).
 
 Every fit runs on ``xn = (B - centre) / span`` and ``yn = Ic / max|Ic|`` with the
 parameters in the same units, so that the numerics (step sizes, tolerances, the
 covariance) are the same at Ic0 = 1e-15 A and at 1e3 A; values and errors are
 converted to SI once, at the end. The inner loops (scan refinement, lobe walks,
 node-floor and model-choice trials) call scipy directly with the model's analytic
-gradient where it has one; only the result that is reported goes through lmfit,
-started at the converged point, for its covariance and report.
+gradient where it has one; the reported fit (``reported``) starts at the converged
+point.
 """
 
 from __future__ import annotations
@@ -16,13 +16,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..physics.constants import PHI0_WB
 from ..physics.models.spec import BASE_PARAMETERS
 
-#: Relative tolerances of the inner fits: their chi-squares are then within 1e-3 noise units
-#: for a thousand points, far below every threshold they are compared with (10 or more),
-#: and the reported fit (lmfit, MINPACK's default tolerances) polishes the chosen one.
-_TOL = 1e-6
+#: Chi-square accuracy of the inner fits in noise units: the relative tolerance is this over
+#: the number of points (the chi-square over the noise is about that number), at most
+#: ``_TOL``; a hundredth of the smallest threshold (10) they are compared with.
+_CHISQ_ACCURACY = 0.1
+#: Largest relative tolerance of the inner fits; the reported fit (MINPACK's default
+#: tolerances) polishes the chosen one.
+_TOL = 1e-4
 
 
 @dataclass(frozen=True)
@@ -129,17 +131,19 @@ def _jacobian(spec, x, names, fixed):
 
 
 def solve(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
-          tol: float = _TOL) -> Local:
+          tol: float | None = None) -> Local:
     """Least squares of ``spec`` from ``start`` with scipy alone, normalised units.
 
     ``loss == "linear"`` runs MINPACK (``lmder`` with the analytic gradient, else
-    ``lmdif``) to relative tolerances ``tol``; a robust loss runs scipy's trust-region
+    ``lmdif``) to relative tolerances ``tol`` (default ``_CHISQ_ACCURACY`` over the number
+    of points, at most ``_TOL``); a robust loss runs scipy's trust-region
     reflective solver.
     """
     from scipy import optimize
 
     params = full_params(spec, start, floor)
     names = free_names(spec, floor)
+    tol = min(_TOL, _CHISQ_ACCURACY / max(x.size, 1)) if tol is None else tol
     fixed = {k: v for k, v in params.items() if k not in names}
     v0 = np.array([params[n] for n in names])
 
@@ -161,71 +165,3 @@ def solve(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
     weights = robust_weight((r / f_scale) ** 2, loss)
     params.update(zip(names, (float(b) for b in best), strict=True))
     return Local(params, names, float(np.sum(weights * r * r)), weights, r)
-
-
-def final_fit(spec, x_T, y_A, local: Local, units: Units, noise_A: float):
-    """The reported fit: lmfit ``leastsq`` from the converged ``local``, in normalised
-    units weighted by the noise (so lmfit's reduced chi-square is the tool's), with
-    the result converted to SI.
-
-    Returns an :class:`lmfit.minimizer.MinimizerResult` whose ``params`` (SI, with
-    ``effective_area_m2`` and its standard error), ``covar`` (SI, over ``var_names``)
-    and ``best_fit`` (A) describe the fit; ``residual`` is in noise units and
-    ``robust_weights`` holds the weights of a robust loss.
-    """
-    import lmfit
-
-    xn, yn = units.field(x_T), np.asarray(y_A, dtype=float) / units.scale_A
-    weight = np.sqrt(local.weights) / (noise_A / units.scale_A)
-    bounds = {p.name: (p.min, p.max) for p in spec.extra}
-    free = local.free
-    # Only the fitted parameters are lmfit Parameters: each one costs lmfit bookkeeping.
-    fixed = {k: v for k, v in local.params.items() if k not in free}
-    params = lmfit.Parameters()
-    for name in free:
-        lo, hi = bounds.get(name, (-np.inf, np.inf))
-        params.add(name, value=local.params[name], min=lo, max=hi)
-
-    def residual(p):
-        return (spec.formula(xn, **fixed, **p.valuesdict()) - yn) * weight
-
-    kws = {}
-    # lmfit's bound transform would need the chain rule in the gradient: numeric then.
-    bounded = any(np.isfinite(bounds[n]).any() for n in free if n in bounds)
-    if spec.gradient is not None and not bounded:
-        def dfun(p):
-            grads = spec.gradient(xn, **fixed, **p.valuesdict())
-            return np.array([grads[n] * weight for n in free])
-        kws = {"Dfun": dfun, "col_deriv": 1}
-    with np.errstate(all="ignore"):
-        result = lmfit.Minimizer(residual, params).leastsq(**kws)
-    fitted = dict(fixed, **{k: float(v.value) for k, v in result.params.items()})
-    _to_si(result, fixed, units)
-    result.best_fit = spec.formula(np.asarray(x_T, dtype=float), **units.to_si(fitted))
-    result.robust_weights = local.weights
-    result.units = units
-    return result
-
-
-def _to_si(result, fixed, units: Units):
-    """Turn the normalised lmfit parameters into SI ones in place (values, bounds, errors,
-    covariance), add the fixed ones and ``effective_area_m2`` with its error."""
-    params = result.params
-    names = list(result.var_names or [])
-    factors = np.array([units.factor(n) for n in names])
-    if result.covar is not None and result.covar.shape == (len(names), len(names)):
-        result.covar = result.covar * np.outer(factors, factors)
-    values = units.to_si({k: p.value for k, p in params.items()})
-    starts = units.to_si({k: p.init_value for k, p in params.items()})
-    for name, p in params.items():
-        f = units.factor(name)
-        p.min, p.max = p.min * f, p.max * f
-        p.value, p.init_value = values[name], starts[name]
-        if p.stderr is not None:
-            p.stderr = float(p.stderr) * f
-    for name, value in units.to_si(fixed).items():
-        params.add(name, value=value, vary=False)
-    params.add("phi0_Wb", value=PHI0_WB, vary=False)
-    params.add("effective_area_m2", expr="phi0_Wb / abs(period_T)")
-    period, err = abs(params["period_T"].value), params["period_T"].stderr
-    params["effective_area_m2"].stderr = None if err is None else PHI0_WB * err / period**2

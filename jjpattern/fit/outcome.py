@@ -59,11 +59,11 @@ def fill(out, result, spec, x, offset_ok):
         if p.name in FIT_KEYS:  # the JSON keys that exist, such as asymmetry
             setattr(out, p.name, value)
             setattr(out, f"{p.name}_stderr", out.extra_stderr[p.name])
-    out.lmfit_result = result
+    out.fit_result = result
     nfree = max(result.nfree, 1)
     out.residual_rms_A = float(np.sqrt(np.mean((out.ic_A - result.best_fit) ** 2)))
     # Residuals in noise units, weighted: for a robust fit the down-weighted points count
-    # less. lmfit's own reduced chi-square is this number.
+    # less; the reported fit's own reduced chi-square is this number.
     out.reduced_chisq = float(np.sum(result.residual**2) / nfree)
 
     extras = extras_of(spec, result.params)

@@ -23,10 +23,11 @@ class PatternFit:
     """Outcome of :func:`jjpattern.fit_pattern` for one current branch.
 
     Attributes are ``None`` where the data do not determine the number (an
-    honest "cannot tell"); ``flags`` says why. ``lmfit_result`` is the
-    reported fit, an :class:`lmfit.minimizer.MinimizerResult` in SI (``params`` with
+    honest "cannot tell"); ``flags`` says why. ``fit_result`` is the
+    reported fit, a :class:`jjpattern.fit.reported.ReportedFit` in SI (``params`` with
     ``effective_area_m2``, ``covar`` over ``var_names``, ``best_fit`` in A; its residual
-    and reduced chi-square are in units of the model-free noise), for further work.
+    and reduced chi-square are in units of the model-free noise), for further work;
+    :meth:`lmfit_result` gives lmfit's view of the same fit (imports lmfit).
     ``extra_params`` and ``extra_stderr`` hold the model's extra parameters by
     name (magnitudes where the pattern is even in them); those with a JSON key
     of their own (``asymmetry``) are also copied there. ``derived`` holds the
@@ -69,7 +70,7 @@ class PatternFit:
     extra_params: dict = field(default_factory=dict, repr=False)
     extra_stderr: dict = field(default_factory=dict, repr=False)
     floor_evidence: dict | None = field(default=None, repr=False)
-    lmfit_result: object = field(default=None, repr=False)
+    fit_result: object = field(default=None, repr=False)
     derived: dict = field(default_factory=dict, repr=False)
     derived_stderr: dict = field(default_factory=dict, repr=False)
     withheld: dict | None = field(default=None, repr=False)
@@ -86,6 +87,11 @@ class PatternFit:
                 value = None
             out[key] = value
         return out
+
+    def lmfit_result(self):
+        """lmfit's ``MinimizerResult`` of the reported fit in SI (``None`` without one),
+        for ``lmfit.fit_report`` and confidence intervals."""
+        return None if self.fit_result is None else self.fit_result.to_lmfit()
 
     def model_A(self, field_T) -> np.ndarray:
         """The best-fit curve at ``field_T`` (also where offset or Ic0 are withheld); NaN

@@ -17,8 +17,10 @@ from .summary import branch_words, edge_fraction_text, sweep_words
 REFERENCES = {
     "lm": "K. Levenberg, Q. Appl. Math. 2, 164 (1944); D. W. Marquardt, J. Soc. Ind. Appl. "
           "Math. 11, 431 (1963).",
-    "lmfit": "M. Newville et al., LMFIT: Non-Linear Least-Squares Minimization and "
-             "Curve-Fitting for Python, Zenodo (2014).",
+    "minpack": "J. J. More, B. S. Garbow and K. E. Hillstrom, User Guide for MINPACK-1, "
+               "Argonne National Laboratory report ANL-80-74 (1980).",
+    "scipy": "P. Virtanen et al., SciPy 1.0: Fundamental Algorithms for Scientific Computing "
+             "in Python, Nat. Methods 17, 261 (2020).",
     "codata": "E. Tiesinga et al., CODATA Recommended Values of the Fundamental Physical "
               "Constants: 2018, Rev. Mod. Phys. 93, 025010 (2021).",
     "sg": "A. Savitzky and M. J. E. Golay, Anal. Chem. 36, 1627 (1964).",
@@ -146,7 +148,13 @@ def _model_choice_text(result, cited) -> str:
     for where, c in choices:
         if c.get("runner_up") is None:
             continue
-        if c["decision"] == "clear":
+        for a in c.get("set_aside") or []:
+            text += (f" For the {where} the {a['model']} model was set aside because "
+                     f"{a['reason']}.")
+        if c["decision"] == "none fits":
+            text += (f" For the {where} no model described the data, so the reference "
+                     f"{c['chosen']} model is reported, its numbers withheld.")
+        elif c["decision"] == "clear":
             text += (f" For the {where} {c['chosen']} had the lowest BIC, with "
                      f"{c['runner_up']} next, higher by {c['criterion_difference']:.1f}.")
         else:
@@ -190,7 +198,7 @@ def methods_paragraph(result, field_calibration: str) -> str:
     """Plain prose for a methods section, numbers as in the JSON, references at the end."""
     versions = result.provenance.get("versions") or {}
     loss = result.settings.fit.loss
-    cited = ["lm", "lmfit", "codata"]
+    cited = ["lm", "minpack", "scipy", "codata"]
     out = [f"The critical current of {_junction(result.metadata)} was analysed with jjpattern "
            f"{result.tool['version']}."]
     if result.extraction is not None:
@@ -223,11 +231,12 @@ def methods_paragraph(result, field_calibration: str) -> str:
         "Phi = (B - B0) A_eff"
         + (", combined in quadrature with a constant node floor" if floor else "")
         + ", by non-linear least squares"
-        + (" (Levenberg-Marquardt [lm], in lmfit "
-           f"{versions['lmfit']} [lmfit]) with equal weights" if loss == "linear"
-           else f" with a robust {loss} loss (scipy least_squares, scale twice the "
-                "point-to-point noise), finished by weighted Levenberg-Marquardt least squares "
-                f"[lm] at the robust weights (lmfit {versions['lmfit']} [lmfit])")
+        + (" (Levenberg-Marquardt [lm], MINPACK [minpack] in SciPy "
+           f"{versions['scipy']} [scipy]) with equal weights" if loss == "linear"
+           else f" with a robust {loss} loss (SciPy {versions['scipy']} [scipy] least_squares, "
+                "scale twice the point-to-point noise), finished by weighted "
+                "Levenberg-Marquardt least squares [lm] (MINPACK [minpack]) at the robust "
+                "weights")
         + ", starting from a global search over period and offset that needs no "
           "starting values. Standard errors are from the covariance matrix scaled by the "
           "reduced chi-square, i.e. the noise was estimated from the fit residuals. The "

@@ -114,6 +114,12 @@ def choice_sentence(choice: dict | None) -> str:
     if runner is None:
         return text
     diff = choice["criterion_difference"]
+    aside = "".join(f"; {a['model']} set aside ({a['reason']})"
+                    for a in choice.get("set_aside") or [])
+    if choice["decision"] == "none fits":
+        return (f"{text}: no model describes the data, so the reference {chosen} model is "
+                f"reported and its numbers are withheld{aside}")
+    text += aside
     if choice["decision"] == "clear":
         return (f"{text}: {chosen}, next {runner} {diff:+.1f} "
                 f"(margin {choice['margin']:g})")

@@ -112,14 +112,18 @@ def gradient(field_T, ic0_A, period_T, field_offset_T, floor_A, ell, feed):
     sinc = np.sinc(u)
     safe = np.where(u == 0, 1.0, u)
     d_sinc = np.where(u == 0, 0.0, (np.cos(np.pi * u) - sinc) / safe)
-    row = _row(feed, min(abs(float(ell)), float(table(feed)[0][-1])))
+    top = float(table(feed)[0][-1])
+    row = _row(feed, min(abs(float(ell)), top))
     i = np.clip(np.searchsorted(grid_u, a, side="right") - 1, 0, grid_u.size - 2)
     seg = np.diff(row) / np.diff(grid_u)
     d_table = np.where(a < grid_u[-1], seg[i], 0.0) * np.sign(u)
     s = np.abs(sinc) + np.interp(a, grid_u, row, right=0.0)
     d_s = np.sign(sinc) * d_sinc + d_table
     h = 1e-4 * max(1.0, abs(float(ell)))
-    d_ell = (shape(u, ell + h, feed) - shape(u, ell - h, feed)) / (2 * h)
+    # The sinc part does not depend on ell: the difference of the two table rows alone.
+    d_row = (_row(feed, min(abs(float(ell + h)), top))
+             - _row(feed, min(abs(float(ell - h)), top))) / (2 * h)
+    d_ell = np.interp(a, grid_u, d_row, right=0.0)
     total = np.hypot(ic0_A * s, floor_A)
     inv = np.divide(1.0, total, out=np.zeros_like(total), where=total > 0)
     along = ic0_A * s * inv

@@ -159,6 +159,12 @@ class PatternModelSpec:
         object.__setattr__(self, "extra", tuple(self.extra))
         if self.unit_shape is None:
             object.__setattr__(self, "unit_shape", self.formula)
+        # The keywords node_flux accepts, read once (nodes() is called inside the fits).
+        try:
+            accepted = frozenset(inspect.signature(self.node_flux).parameters)
+        except (TypeError, ValueError):
+            accepted = frozenset()
+        object.__setattr__(self, "_node_keywords", accepted)
 
     def parameter_names(self) -> tuple[str, ...]:
         """The fitted parameters: the four of every pattern, then the extras."""
@@ -167,10 +173,7 @@ class PatternModelSpec:
     def nodes(self, count: int, extras: Mapping | None = None):
         """``node_flux(count)``, with the extra parameters it takes (by keyword)."""
         extras = extras or {}
-        try:
-            accepted = inspect.signature(self.node_flux).parameters
-        except (TypeError, ValueError):
-            accepted = {}
+        accepted = self._node_keywords
         return self.node_flux(count, **{k: v for k, v in extras.items() if k in accepted})
 
 

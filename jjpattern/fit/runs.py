@@ -1,0 +1,32 @@
+"""The runs test on the signs of residuals in field order.
+
+A model that describes the data leaves residual signs that change at random from
+point to point; one that only bends towards the data leaves long stretches of one
+sign. With ``n1`` positive and ``n2`` negative residuals (zeros dropped) the number
+of runs has mean ``mu = 2 n1 n2 / n + 1`` and variance
+``(mu - 1)(mu - 2) / (n - 1)`` under randomness (Wald and Wolfowitz, Ann. Math.
+Stat. 11, 147 (1940), from memory); ``z = (runs - mu) / sqrt(var)`` is far below
+zero for structured residuals.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["runs_z"]
+
+
+def runs_z(residual) -> float:
+    """Normal score of the number of sign runs of ``residual`` (in field order); 0.0
+    when fewer than ten residuals have a sign or one sign is missing."""
+    r = np.asarray(residual, dtype=float)
+    signs = r[r != 0] > 0
+    n1 = int(np.count_nonzero(signs))
+    n2 = signs.size - n1
+    if signs.size < 10 or n1 == 0 or n2 == 0:
+        return 0.0
+    n = signs.size
+    runs = 1 + int(np.count_nonzero(signs[1:] != signs[:-1]))
+    mu = 2.0 * n1 * n2 / n + 1.0
+    var = (mu - 1.0) * (mu - 2.0) / (n - 1.0)
+    return float((runs - mu) / np.sqrt(var)) if var > 0 else 0.0
