@@ -30,10 +30,10 @@ from .lsq import Units, full_params, robust_weight, solve
 from .outcome import POOR_FIT_REDCHI
 from .runs import runs_z
 from .scan import scan_pattern
+from .starts import rival_start, shape_start
 
 __all__ = ["CRITERION", "DESCRIBES_REDCHI", "MARGIN", "RUNS_Z", "ModelChoice", "Trial",
-           "choose_model", "joint_choice", "quick_fit", "rival_start", "robust_weight",
-           "shape_start", "trial_fit"]
+           "choose_model", "joint_choice", "quick_fit", "robust_weight", "trial_fit"]
 
 #: BIC difference that makes a choice clear (Kass and Raftery 1995: "very strong").
 MARGIN = 10.0
@@ -50,20 +50,12 @@ DESCRIBES_REDCHI = 2.0
 #: towards a pattern it does not describe leaves long runs of one sign (a Gaussian current
 #: profile fitted as a long overlap junction at 2.5 % noise: z = -7; the right model: |z| < 2).
 RUNS_Z = 4.0
-#: Shape-parameter starts: the period found by the scan is also tried at these factors.
-_PERIOD_FACTORS = (0.7, 0.85, 1.0, 1.2, 1.45)
 #: Rivals are first fitted on about this many points (every k-th) ...
 _SCREEN_POINTS = 250
 #: ... and left there when that fit, on all points, stays this far (BIC, noise units) above
 #: the reference and a floor could not close the gap: twenty margins, where the subset
 #: fit's distance from the least chi-square on all points (a few units) cannot matter.
 SCREEN_BIC = 200.0
-#: Points (every k-th) on which starts are ranked.
-_START_POINTS = 256
-#: A rival started from the reference fit tries these factors of the period that puts its
-#: first node on the reference's (patterns whose node spacing differs from their first
-#: node's distance, such as the disc's, settle within them).
-_RIVAL_FACTORS = (0.5, 0.7, 0.85, 1.0, 1.2, 1.45, 2.0)
 
 
 @dataclass
@@ -143,42 +135,6 @@ class _Scans:
             self._cache[key] = far_lobe_start(self.x, self.y, shape,
                                               periodic=self._cache["periodic"])
         return self._cache[key]
-
-
-def _ranked(spec, x, y, periods, offset_T, shape):
-    """Least-squares cost and closed-form amplitude of the model at each period in
-    ``periods`` (one broadcast evaluation; one per period for a formula that does not
-    broadcast)."""
-    t = spec.formula(x[None, :], 1.0, periods[:, None], offset_T, 0.0, **shape)
-    if np.shape(t) != (periods.size, x.size):
-        t = np.array([spec.formula(x, 1.0, p, offset_T, 0.0, **shape) for p in periods])
-    amp = (t @ y) / np.maximum(np.einsum("ij,ij->i", t, t), 1e-300)
-    return np.sum((amp[:, None] * t - y[None, :]) ** 2, axis=1), amp
-
-
-def shape_start(spec, x, y, period_T, offset_T, first_T=None, factors=_PERIOD_FACTORS):
-    """Start of a model from another model's period and offset: the period that puts its
-    first node where the other's was (``first_T`` from the offset; by default where the
-    model's own default shape puts it), tried at ``factors`` and at every value of a
-    shape-parameter grid, the amplitude solved in closed form. Returns a start dict.
-    """
-    grid_param = next((p for p in spec.extra if p.grid), None)
-    values = grid_param.grid if grid_param else (None,)
-    # A few hundred points rank the starts as well as all of them (the fit uses all).
-    stride = max(1, x.size // _START_POINTS)
-    x, y = x[::stride], y[::stride]
-    if first_T is None:
-        first_T = float(spec.nodes(1)[0]) * period_T
-    best = (np.inf, None)
-    for value in values:
-        shape = {} if grid_param is None else {grid_param.name: value}
-        periods = first_T / float(spec.nodes(1, shape or None)[0]) * np.asarray(factors)
-        cost, amp = _ranked(spec, x, y, periods, offset_T, shape)
-        i = int(np.argmin(cost))
-        if cost[i] < best[0]:
-            best = (float(cost[i]), {"ic0_A": float(amp[i]), "period_T": float(periods[i]),
-                                     "field_offset_T": offset_T, **shape})
-    return best[1]
 
 
 def model_start(spec, scans: _Scans, x, y) -> dict | None:
@@ -265,7 +221,7 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
             beat is None or not _beyond_floor(spec, x, y, params, chisq, k, noise, beat)):
         fp, fchisq, fk = quick_fit(spec, x, y, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
                                    floor=True, loss=loss, f_scale=f_scale)
-        gain = (chisq - fchisq) / (fchisq / max(x.size - fk, 1))
+        gain = (chisq - fchisq) / max(fchisq / max(x.size - fk, 1), 1e-300)
         if gain > floor_dchi2:
             params, chisq, k, floored = fp, fchisq, fk, True
     return _trial(spec, x, y, params, chisq, k, noise, floored, gain if floored else None)
@@ -295,19 +251,6 @@ def _beyond_floor(spec, x, y, params, chisq, k, noise, beat, least=0.0) -> bool:
     alone = (chisq - float(np.min(np.sum((y[None, :] - floored) ** 2, axis=1)))) / noise**2
     deficit = chisq / noise**2 + (k + 1) * np.log(x.size) - beat
     return deficit > max(3.0 * max(alone, MARGIN), least)
-
-
-def rival_start(spec, reference_spec, reference: dict, x, y) -> dict:
-    """A model's start from the reference model's converged fit: the period that puts its
-    first node where the reference's first node fell, a few factors around it (and the
-    shape-parameter grid), the reference's offset; amplitude in closed form."""
-    extras = {p.name: reference[p.name] for p in reference_spec.extra}
-    first = float(reference_spec.nodes(1, extras or None)[0]) * abs(reference["period_T"])
-    factors = _PERIOD_FACTORS if any(p.grid for p in spec.extra) else _RIVAL_FACTORS
-    start = shape_start(spec, x, y, abs(reference["period_T"]), reference["field_offset_T"],
-                        first_T=first, factors=factors)
-    start["floor_A"] = 0.0
-    return start
 
 
 def _walk_lobes(spec, x, y, params, chisq, k, floor, loss, f_scale, max_steps=3):

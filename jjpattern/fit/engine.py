@@ -14,7 +14,7 @@ from ..flags import make_flag
 from ..io.sweep import MIN_POINTS
 from ..physics.models import get_model, model_names
 from ..sampling import tidy
-from .choice import choose_model, shape_start
+from .choice import choose_model
 from .far import far_lobe_start
 from .lobes import OFFSET_DCHI2, check_lobe_assignment, extras_of, nodes_in_window
 from .lsq import Units, solve
@@ -31,6 +31,7 @@ from .outcome import (
 from .reported import final_fit
 from .result import PatternFit
 from .scan import scan_pattern
+from .starts import shape_start
 
 #: Below this drop in chi-square (in noise units) from a flat line to the fitted
 #: pattern, the data show no modulation.
