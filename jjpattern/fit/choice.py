@@ -52,9 +52,9 @@ DESCRIBES_REDCHI = 2.0
 RUNS_Z = 4.0
 #: Rivals are first fitted on about this many points (every k-th) ...
 _SCREEN_POINTS = 250
-#: ... and left there when that fit, on all points, stays this far (BIC, noise units) above
-#: the reference and a floor could not close the gap: twenty margins, where the subset
-#: fit's distance from the least chi-square on all points (a few units) cannot matter.
+#: ... and left there when that fit (with the floor decided on the subset), evaluated on all
+#: points, stays this far (BIC, noise units) above the reference: twenty margins, where the
+#: subset fit's distance from the least chi-square on all points (a few units) cannot matter.
 SCREEN_BIC = 200.0
 
 
@@ -89,7 +89,8 @@ class ModelChoice:
     block: dict
 
 
-def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float):
+def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
+              tol: float | None = None):
     """Least squares of one model from ``start`` with scipy alone (no lmfit overhead),
     in the normalised units of ``lsq`` (``x``, ``y`` and ``start`` all normalised).
 
@@ -97,7 +98,7 @@ def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float
     robust loss the chi-square uses the robust weights at the solution, as the full
     fit's reduced chi-square does.
     """
-    local = solve(spec, x, y, start, floor=floor, loss=loss, f_scale=f_scale)
+    local = solve(spec, x, y, start, floor=floor, loss=loss, f_scale=f_scale, tol=tol)
     return dict(local.params), local.chisq, len(local.free)
 
 
@@ -176,33 +177,8 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
     f_scale = 2.0 * noise
     floored = node_floor == "on" and not spec.periodic
     if scans is None and beat is not None and x.size >= 2 * _SCREEN_POINTS:
-        # A rival is first fitted on every k-th point; evaluated on all of them that fit
-        # bounds its least chi-square from above. Far behind the reference, with no floor
-        # to close the gap, it stays screened; otherwise it is refitted on all points
-        # from there (a few iterations).
-        stride = x.size // _SCREEN_POINTS
-        params, sub_chisq, k = quick_fit(spec, x[::stride], y[::stride], start,
-                                         floor=floored, loss=loss, f_scale=f_scale)
-        r = spec.formula(x, **full_params(spec, params, floored)) - y
-        chisq = float(np.sum(robust_weight((r / f_scale) ** 2, loss) * r * r))
-        if _beyond_floor(spec, x, y, params, chisq, k, noise, beat, least=SCREEN_BIC):
-            trial = Trial(spec.name, dict(params, floor_gain=None), chisq / noise**2, k,
-                          floored, points=int(x.size), screened=stride)
-            trial.runs_z = runs_z(r)
-            trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
-            return trial
-        if node_floor == "auto" and not spec.periodic:
-            # The floor decided on the subset too (its gain there times the stride); the
-            # full fit of a rival so chosen decides it again on all points.
-            fsub = solve(spec, x[::stride], y[::stride],
-                         dict(params, floor_A=0.05 * abs(params["ic0_A"])), floor=True,
-                         loss=loss, f_scale=f_scale)
-            gain = stride * (sub_chisq - fsub.chisq) / max(fsub.chisq / fsub.nfree, 1e-300)
-            floored = gain > floor_dchi2
-            params, chisq, k = quick_fit(spec, x, y, dict(fsub.params if floored else params),
-                                         floor=floored, loss=loss, f_scale=f_scale)
-            return _trial(spec, x, y, params, chisq, k, noise, floored, decided=False)
-        start = params
+        return _rival_trial(spec, x, y, noise, start, beat, node_floor=node_floor, loss=loss,
+                            floor_dchi2=floor_dchi2)
     params, chisq, k = quick_fit(spec, x, y, start, floor=floored, loss=loss, f_scale=f_scale)
     if scans is not None and not spec.periodic:
         offset = params["field_offset_T"]
@@ -227,6 +203,38 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
     return _trial(spec, x, y, params, chisq, k, noise, floored, gain if floored else None)
 
 
+def _rival_trial(spec, x, y, noise, start, beat, *, node_floor, loss, floor_dchi2):
+    """A rival's trial, fitted first on every k-th point (without and with a floor, the
+    floor kept where its gain there times k passes the threshold). That fit, evaluated
+    on all points, bounds the rival's least chi-square from above: where even that bound
+    lies ``SCREEN_BIC`` above the reference's criterion ``beat`` the rival stays screened;
+    otherwise it is refitted on all points from there (a few iterations). The full fit
+    of a rival so chosen decides its floor again on all points."""
+    f_scale = 2.0 * noise
+    stride = x.size // _SCREEN_POINTS
+    xs, ys = x[::stride], y[::stride]
+    floored = node_floor == "on" and not spec.periodic
+    params, sub_chisq, k = quick_fit(spec, xs, ys, start, floor=floored, loss=loss,
+                                     f_scale=f_scale)
+    if node_floor == "auto" and not spec.periodic:
+        fsub = solve(spec, xs, ys, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
+                     floor=True, loss=loss, f_scale=f_scale)
+        gain = stride * (sub_chisq - fsub.chisq) / max(fsub.chisq / fsub.nfree, 1e-300)
+        if gain > floor_dchi2:
+            params, k, floored = dict(fsub.params), len(fsub.free), True
+    r = spec.formula(x, **full_params(spec, params, floored)) - y
+    bound = float(np.sum(robust_weight((r / f_scale) ** 2, loss) * r * r))
+    if bound / noise**2 + k * np.log(x.size) - beat > SCREEN_BIC:
+        trial = _trial(spec, x, y, params, bound, k, noise, floored, decided=False)
+        trial.screened = stride
+        return trial
+    # Ranking needs the chi-square to a noise unit (a tenth of the margin); the full fit of
+    # a rival so chosen polishes it.
+    params, chisq, k = quick_fit(spec, x, y, params, floor=floored, loss=loss,
+                                 f_scale=f_scale, tol=min(1e-3, 1.0 / x.size))
+    return _trial(spec, x, y, params, chisq, k, noise, floored, decided=False)
+
+
 def _trial(spec, x, y, params, chisq, k, noise, floored, floor_gain=None, *,
            decided=True) -> Trial:
     """The trial of a finished quick fit. The full fit of the chosen model takes its floor
@@ -239,7 +247,7 @@ def _trial(spec, x, y, params, chisq, k, noise, floored, floor_gain=None, *,
     return trial
 
 
-def _beyond_floor(spec, x, y, params, chisq, k, noise, beat, least=0.0) -> bool:
+def _beyond_floor(spec, x, y, params, chisq, k, noise, beat) -> bool:
     """Whether a floor cannot bring a rival near the criterion ``beat`` to beat: its
     criterion without a floor exceeds ``beat`` by more than three times what a floor
     alone recovers at its fit (the rest held; the best of a grid of floors from 0.1 % to
@@ -250,7 +258,7 @@ def _beyond_floor(spec, x, y, params, chisq, k, noise, beat, least=0.0) -> bool:
     floored = np.sqrt(m[None, :] ** 2 + floors[:, None] ** 2)
     alone = (chisq - float(np.min(np.sum((y[None, :] - floored) ** 2, axis=1)))) / noise**2
     deficit = chisq / noise**2 + (k + 1) * np.log(x.size) - beat
-    return deficit > max(3.0 * max(alone, MARGIN), least)
+    return deficit > 3.0 * max(alone, MARGIN)
 
 
 def _walk_lobes(spec, x, y, params, chisq, k, floor, loss, f_scale, max_steps=3):

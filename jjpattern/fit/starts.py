@@ -21,6 +21,9 @@ _START_POINTS = 256
 #: first node on the reference's (patterns whose node spacing differs from their first
 #: node's distance, such as the disc's, settle within them).
 _RIVAL_FACTORS = (0.5, 0.7, 0.85, 1.0, 1.2, 1.45, 2.0)
+#: ... and with a shape-parameter grid, these at every grid value (the grid moves the first
+#: node itself; where the reference fits too poorly for this, the rival is scanned anyway).
+_GRID_RIVAL_FACTORS = (0.85, 1.0, 1.2)
 
 
 def _ranked(spec, x, y, periods, offset_T, shape):
@@ -65,7 +68,7 @@ def rival_start(spec, reference_spec, reference: dict, x, y) -> dict:
     shape-parameter grid), the reference's offset; amplitude in closed form."""
     extras = {p.name: reference[p.name] for p in reference_spec.extra}
     first = float(reference_spec.nodes(1, extras or None)[0]) * abs(reference["period_T"])
-    factors = _PERIOD_FACTORS if any(p.grid for p in spec.extra) else _RIVAL_FACTORS
+    factors = _GRID_RIVAL_FACTORS if any(p.grid for p in spec.extra) else _RIVAL_FACTORS
     start = shape_start(spec, x, y, abs(reference["period_T"]), reference["field_offset_T"],
                         first_T=first, factors=factors)
     start["floor_A"] = 0.0
