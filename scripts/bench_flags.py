@@ -50,8 +50,8 @@ def flags_of(case, excess, model=None):
     """
     settings = Settings()
     fs, ds = settings.fit, settings.diagnose
-    # fit_pattern's own default is the automatic choice, the pipeline's is not: pass
-    # the settings, or these figures describe a fit the pipeline does not make.
+    # Pass the settings (the automatic choice by default, as fit_pattern's own), so that
+    # these figures describe the fit the pipeline makes whatever either default becomes.
     fit = fit_pattern(case.field_T, case.ic_A, geometry=model or fs.model,
                       node_floor=fs.node_floor, loss=fs.loss)
     found = diagnose([fit], seed=ds.seed, resamples=ds.resamples)
@@ -81,7 +81,7 @@ def main():
     parser.add_argument("--clear", type=int, default=60, help="patterns per clear case")
     parser.add_argument("--seed", type=int, default=1)
     parser.add_argument("--model", default=None,
-                        help="model to fit (default: the settings', as the pipeline; auto)")
+                        help="model to fit (default: the settings', as the pipeline)")
     args = parser.parse_args()
     rng = np.random.default_rng(args.seed)
     print(f"model: {args.model or Settings().fit.model}")

@@ -165,10 +165,10 @@ def _bench_flags():
 
 
 def test_flag_benchmark_fits_as_the_pipeline_does():
-    # The benchmark once fitted with fit_pattern's own default, the automatic model choice,
-    # while the pipeline fits the settings' model (rectangular): Gaussian profiles then went
-    # to the long-overlap model and center-current fell from 100 % to 37 % of the cases,
-    # with no change in what the pipeline reports. Seed 5 draws three such patterns first.
+    # The benchmark must raise what the pipeline raises (it once fitted another model than
+    # the pipeline's). Gaussian profiles are the telling case: a long overlap junction
+    # bends towards them (set aside by the runs test), no model fits, the rectangle is
+    # reported withheld and center-current stays. Seed 5 draws three such patterns first.
     bench = _bench_flags()
     rng = np.random.default_rng(5)
     for _ in range(3):

@@ -266,15 +266,22 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
     if symmetric:
         centre = grid.size // 2
         taper = (signs * window)[centre:]
-        j, j_flat = _even_transform(np.stack([values[centre:] * taper,
-                                              flat[centre:] * flat_signs[centre:]
-                                              * window[centre:]]), grid[centre:], x, du)
         # A mirror average and its mirror image are one number, so its noise (half the
         # variance of the two values averaged) is drawn once for both.
         spread = 0.5 * np.hypot(sigma[centre:], sigma[centre::-1])
         spread[0] = sigma[centre]  # u = 0 is its own mirror image
-        noisy = values[centre:] + rng.normal(0.0, 1.0, (resamples, spread.size)) * spread
-        band = _even_transform(noisy * taper, grid[centre:], x, du)
+        # The profile, the uniform reference and the resamples in one product (one
+        # cosine table for all); the resamples are drawn into place (the draws of
+        # rng.normal(0, 1, ...)) and scaled there.
+        rows = np.empty((resamples + 2, spread.size))
+        rows[0] = values[centre:] * taper
+        rows[1] = (flat * flat_signs * window)[centre:]
+        noisy = rng.standard_normal(out=rows[2:])
+        noisy *= spread
+        noisy += values[centre:]
+        noisy *= taper
+        out = _even_transform(rows, grid[centre:], x, du)
+        j, j_flat, band = out[0], out[1], out[2:]
     else:
         support = np.abs(x) <= 0.5
         transform = _MirrorTransform(grid, x[support], du)

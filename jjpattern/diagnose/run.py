@@ -12,7 +12,13 @@ from ..physics import geometry as geo
 from ..physics.models import get_model
 from ..result import stderr_key
 from .reconstruct import reconstruct
-from .shape import branch_flags, drift_flag, lifted_floor_A, long_junction_flag, shape_flags
+from .shape import (
+    branch_flags,
+    drift_flag,
+    floor_test,
+    long_junction_flag,
+    shape_flags,
+)
 
 
 @dataclass
@@ -210,14 +216,17 @@ def diagnose(fits, *, seed=0, resamples=200, geometry: GeometryInputs | None = N
         if fit.period_T is None:
             continue
         density = None
+        # The node-floor test once, for the reconstruction's method and the flags.
+        floor = floor_test(fit, criterion_floor_A)
         centred = (fit.field_offset_T is not None
                    and fit.field_T[0] < fit.field_offset_T < fit.field_T[-1])
         if centred and _reconstructable(fit):
             # Lifted nodes mean an asymmetric profile: then do not assume symmetry.
-            lifted = lifted_floor_A(fit, criterion_floor_A) is not None
+            lifted = bool(floor and floor["lifted"])
             density = _density(fit, "support" if lifted else "symmetric", rng, resamples)
             densities[fit.branch] = density
-        flags += shape_flags(fit, criterion_floor_A=criterion_floor_A, density=density)
+        flags += shape_flags(fit, criterion_floor_A=criterion_floor_A, density=density,
+                             floor=floor)
         halves = _half_periods(fit)
         if halves:
             flags += drift_flag(fit, halves)

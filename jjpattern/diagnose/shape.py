@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..flags import make_flag
+from .mirror import mirror_centre, mirror_redchi
 
 #: A node floor this many standard errors above the floor that true zeros measured as
 #: magnitudes would give (folded noise, and the extraction criterion's own) means lifted
@@ -42,52 +43,6 @@ DRIFT_SIGMAS = 5.0
 DRIFT_FRACTION = 0.005
 #: L / lambda_J above which the junction is not short.
 LONG_RATIO = 1.0
-
-
-def _mirror_cost(c, x, y):
-    reach = min(c - x[0], x[-1] - c)
-    b = x[(x > c) & (x < c + reach)]
-    if b.size < 10:
-        return np.inf
-    return float(np.mean((np.interp(b, x, y) - np.interp(2 * c - b, x, y)) ** 2))
-
-
-def mirror_centre(x, y, period_T):
-    """Field about which the data are most nearly mirror-symmetric (model-free).
-
-    A grid of a twentieth of a period over the middle half of the window, then a
-    bounded refinement around the best grid point.
-    """
-    from scipy import optimize
-
-    span = x[-1] - x[0]
-    grid = np.linspace(x[0] + 0.25 * span, x[-1] - 0.25 * span,
-                       max(21, int(round(0.5 * span / (period_T / 20)))))
-    costs = [_mirror_cost(c, x, y) for c in grid]
-    k = int(np.argmin(costs))
-    step = grid[1] - grid[0]
-    res = optimize.minimize_scalar(_mirror_cost, bounds=(grid[k] - step, grid[k] + step),
-                                   args=(x, y), method="bounded",
-                                   options={"xatol": 1e-4 * period_T})
-    return float(res.x if res.fun <= costs[k] else grid[k])
-
-
-#: Median of a chi-square variable with one degree of freedom.
-_CHI2_1_MEDIAN = 0.454936423119572
-
-
-def mirror_redchi(x, y, centre, noise):
-    """Robust reduced chi-square of ``Ic(c + b) - Ic(c - b)`` against twice the noise variance.
-
-    The median of the squared differences (scaled to the mean for Gaussian noise)
-    keeps a few premature-switching points from posing as asymmetry.
-    """
-    reach = min(centre - x[0], x[-1] - centre)
-    b = x[(x > centre) & (x < centre + reach)]
-    if b.size < 20:
-        return None, int(b.size)
-    diff = np.interp(b, x, y) - np.interp(2 * centre - b, x, y)
-    return float(np.median(diff**2) / _CHI2_1_MEDIAN / (2 * noise**2)), int(b.size)
 
 
 def _lobe_maxima(geometry, count, extras=None):
@@ -250,14 +205,17 @@ def lifted_floor_A(fit, criterion_floor_A=0.0) -> float | None:
     return test["lifted_floor_A"] if test and test["lifted"] else None
 
 
-def shape_flags(fit, *, criterion_floor_A=0.0, density=None) -> list:
-    """Flags for one fitted branch: lifted nodes, asymmetry, central dip, edge/centre current."""
+def shape_flags(fit, *, criterion_floor_A=0.0, density=None, floor=None) -> list:
+    """Flags for one fitted branch: lifted nodes, asymmetry, central dip, edge/centre current.
+
+    ``floor`` is :func:`floor_test` of this fit where the caller has it already.
+    """
     flags = []
     if fit.period_T is None:
         return flags
     x, y, noise = fit.field_T, fit.ic_A, fit.noise_A
-    floor = floor_test(fit, criterion_floor_A)
-    if floor is not None and floor.pop("lifted"):
+    floor = dict(floor) if floor is not None else floor_test(fit, criterion_floor_A)
+    if floor and floor.pop("lifted"):
         flags.append(make_flag(
             "nodes-lifted", fit.branch, **floor,
             # Over Ic0 only where Ic0 is given (a main lobe outside the window is never

@@ -247,13 +247,13 @@ def _extract(ivmap: IVMap, *, criterion: str = "auto", threshold: float | None =
         # Second differences and the slope of V(I) do not see the offset: no need to
         # subtract it from the whole map first.
         noise = cr.zero_branch_noise(sig, bias)
-        offsets = cr.row_offset(sig, bias, noise)
+        offsets = cr.row_offset(sig, bias, noise, dense)
         offsets = np.where(np.isfinite(offsets), offsets, np.nanmedian(offsets))
         offset = float(np.nanmedian(offsets))
     rn_rows = cr.normal_resistance(sig, bias, ivmap.kind)
     rn = float(np.nanmedian(rn_rows)) if np.isfinite(rn_rows).any() else None
 
-    data = MapData(ivmap.path, ivmap.kind, sig, bias, offsets, noise, rn)
+    data = MapData(ivmap.path, ivmap.kind, sig, bias, offsets, noise, rn, dense)
     level, info = crit.level(data, threshold)
     quantity = crit.quantity(data)
     # A derivative is NaN near the turns of a dense map: those points are left out of the

@@ -175,10 +175,11 @@ def peak(quantity, bias_A, candidates):
     def masked(c):
         return np.where(candidates[rows, c], quantity[rows, c], -np.inf)
 
-    found = np.isfinite(masked(k))
+    y1 = masked(k)
+    found = np.isfinite(y1)
     lo, hi = np.clip(k - 1, 0, n - 1), np.clip(k + 1, 0, n - 1)
     inner = (k > 0) & (k < n - 1) & candidates[rows, lo] & candidates[rows, hi]
-    y0, y1, y2 = masked(lo), masked(k), masked(hi)
+    y0, y2 = masked(lo), masked(hi)
     with np.errstate(all="ignore"):
         denom = y0 - 2 * y1 + y2
         shift = np.where(inner & (denom < 0), 0.5 * (y0 - y2) / denom, 0.0)

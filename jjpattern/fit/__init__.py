@@ -1,1 +1,2 @@
-"""Fitting layer: lmfit models, data-driven starting values, the automatic fit."""
+"""Fitting layer: global scan, inner least squares, the reported fit, the automatic model
+choice. lmfit appears only in ``models.py`` and ``lmfit_view.py``, for the Python API."""

@@ -30,10 +30,10 @@ from .lsq import Units, full_params, robust_weight, solve
 from .outcome import POOR_FIT_REDCHI
 from .runs import runs_z
 from .scan import scan_pattern
+from .starts import rival_start, shape_start
 
 __all__ = ["CRITERION", "DESCRIBES_REDCHI", "MARGIN", "RUNS_Z", "ModelChoice", "Trial",
-           "choose_model", "joint_choice", "quick_fit", "rival_start", "robust_weight",
-           "shape_start", "trial_fit"]
+           "choose_model", "joint_choice", "quick_fit", "robust_weight", "trial_fit"]
 
 #: BIC difference that makes a choice clear (Kass and Raftery 1995: "very strong").
 MARGIN = 10.0
@@ -50,14 +50,12 @@ DESCRIBES_REDCHI = 2.0
 #: towards a pattern it does not describe leaves long runs of one sign (a Gaussian current
 #: profile fitted as a long overlap junction at 2.5 % noise: z = -7; the right model: |z| < 2).
 RUNS_Z = 4.0
-#: Shape-parameter starts: the period found by the scan is also tried at these factors.
-_PERIOD_FACTORS = (0.7, 0.85, 1.0, 1.2, 1.45)
-#: Points (every k-th) on which starts are ranked.
-_START_POINTS = 256
-#: A rival started from the reference fit tries these factors of the period that puts its
-#: first node on the reference's (patterns whose node spacing differs from their first
-#: node's distance, such as the disc's, settle within them).
-_RIVAL_FACTORS = (0.5, 0.7, 0.85, 1.0, 1.2, 1.45, 2.0)
+#: Rivals are first fitted on about this many points (every k-th) ...
+_SCREEN_POINTS = 250
+#: ... and left there when that fit (with the floor decided on the subset), evaluated on all
+#: points, stays this far (BIC, noise units) above the reference: twenty margins, where the
+#: subset fit's distance from the least chi-square on all points (a few units) cannot matter.
+SCREEN_BIC = 200.0
 
 
 @dataclass
@@ -74,6 +72,7 @@ class Trial:
     points: int = 0
     shaped: bool = False
     runs_z: float = 0.0
+    screened: int = 0
 
     @property
     def reduced_chisq(self) -> float:
@@ -90,7 +89,8 @@ class ModelChoice:
     block: dict
 
 
-def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float):
+def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
+              tol: float | None = None):
     """Least squares of one model from ``start`` with scipy alone (no lmfit overhead),
     in the normalised units of ``lsq`` (``x``, ``y`` and ``start`` all normalised).
 
@@ -98,7 +98,7 @@ def quick_fit(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float
     robust loss the chi-square uses the robust weights at the solution, as the full
     fit's reduced chi-square does.
     """
-    local = solve(spec, x, y, start, floor=floor, loss=loss, f_scale=f_scale)
+    local = solve(spec, x, y, start, floor=floor, loss=loss, f_scale=f_scale, tol=tol)
     return dict(local.params), local.chisq, len(local.free)
 
 
@@ -136,42 +136,6 @@ class _Scans:
             self._cache[key] = far_lobe_start(self.x, self.y, shape,
                                               periodic=self._cache["periodic"])
         return self._cache[key]
-
-
-def _ranked(spec, x, y, periods, offset_T, shape):
-    """Least-squares cost and closed-form amplitude of the model at each period in
-    ``periods`` (one broadcast evaluation; one per period for a formula that does not
-    broadcast)."""
-    t = spec.formula(x[None, :], 1.0, periods[:, None], offset_T, 0.0, **shape)
-    if np.shape(t) != (periods.size, x.size):
-        t = np.array([spec.formula(x, 1.0, p, offset_T, 0.0, **shape) for p in periods])
-    amp = (t @ y) / np.maximum(np.einsum("ij,ij->i", t, t), 1e-300)
-    return np.sum((amp[:, None] * t - y[None, :]) ** 2, axis=1), amp
-
-
-def shape_start(spec, x, y, period_T, offset_T, first_T=None, factors=_PERIOD_FACTORS):
-    """Start of a model from another model's period and offset: the period that puts its
-    first node where the other's was (``first_T`` from the offset; by default where the
-    model's own default shape puts it), tried at ``factors`` and at every value of a
-    shape-parameter grid, the amplitude solved in closed form. Returns a start dict.
-    """
-    grid_param = next((p for p in spec.extra if p.grid), None)
-    values = grid_param.grid if grid_param else (None,)
-    # A few hundred points rank the starts as well as all of them (the fit uses all).
-    stride = max(1, x.size // _START_POINTS)
-    x, y = x[::stride], y[::stride]
-    if first_T is None:
-        first_T = float(spec.nodes(1)[0]) * period_T
-    best = (np.inf, None)
-    for value in values:
-        shape = {} if grid_param is None else {grid_param.name: value}
-        periods = first_T / float(spec.nodes(1, shape or None)[0]) * np.asarray(factors)
-        cost, amp = _ranked(spec, x, y, periods, offset_T, shape)
-        i = int(np.argmin(cost))
-        if cost[i] < best[0]:
-            best = (float(cost[i]), {"ic0_A": float(amp[i]), "period_T": float(periods[i]),
-                                     "field_offset_T": offset_T, **shape})
-    return best[1]
 
 
 def model_start(spec, scans: _Scans, x, y) -> dict | None:
@@ -212,6 +176,9 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
             return None
     f_scale = 2.0 * noise
     floored = node_floor == "on" and not spec.periodic
+    if scans is None and beat is not None and x.size >= 2 * _SCREEN_POINTS:
+        return _rival_trial(spec, x, y, noise, start, beat, node_floor=node_floor, loss=loss,
+                            floor_dchi2=floor_dchi2)
     params, chisq, k = quick_fit(spec, x, y, start, floor=floored, loss=loss, f_scale=f_scale)
     if scans is not None and not spec.periodic:
         offset = params["field_offset_T"]
@@ -230,11 +197,50 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
             beat is None or not _beyond_floor(spec, x, y, params, chisq, k, noise, beat)):
         fp, fchisq, fk = quick_fit(spec, x, y, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
                                    floor=True, loss=loss, f_scale=f_scale)
-        gain = (chisq - fchisq) / (fchisq / max(x.size - fk, 1))
+        gain = (chisq - fchisq) / max(fchisq / max(x.size - fk, 1), 1e-300)
         if gain > floor_dchi2:
             params, chisq, k, floored = fp, fchisq, fk, True
-    # The full fit of the chosen model takes the floor decision made here.
-    params["floor_gain"] = gain if floored else None
+    return _trial(spec, x, y, params, chisq, k, noise, floored, gain if floored else None)
+
+
+def _rival_trial(spec, x, y, noise, start, beat, *, node_floor, loss, floor_dchi2):
+    """A rival's trial, fitted first on every k-th point (without and with a floor, the
+    floor kept where its gain there times k passes the threshold). That fit, evaluated
+    on all points, bounds the rival's least chi-square from above: where even that bound
+    lies ``SCREEN_BIC`` above the reference's criterion ``beat`` the rival stays screened;
+    otherwise it is refitted on all points from there (a few iterations). The full fit
+    of a rival so chosen decides its floor again on all points."""
+    f_scale = 2.0 * noise
+    stride = x.size // _SCREEN_POINTS
+    xs, ys = x[::stride], y[::stride]
+    floored = node_floor == "on" and not spec.periodic
+    params, sub_chisq, k = quick_fit(spec, xs, ys, start, floor=floored, loss=loss,
+                                     f_scale=f_scale)
+    if node_floor == "auto" and not spec.periodic:
+        fsub = solve(spec, xs, ys, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
+                     floor=True, loss=loss, f_scale=f_scale)
+        gain = stride * (sub_chisq - fsub.chisq) / max(fsub.chisq / fsub.nfree, 1e-300)
+        if gain > floor_dchi2:
+            params, k, floored = dict(fsub.params), len(fsub.free), True
+    r = spec.formula(x, **full_params(spec, params, floored)) - y
+    bound = float(np.sum(robust_weight((r / f_scale) ** 2, loss) * r * r))
+    if bound / noise**2 + k * np.log(x.size) - beat > SCREEN_BIC:
+        trial = _trial(spec, x, y, params, bound, k, noise, floored, decided=False)
+        trial.screened = stride
+        return trial
+    # Ranking needs the chi-square to a noise unit (a tenth of the margin); the full fit of
+    # a rival so chosen polishes it.
+    params, chisq, k = quick_fit(spec, x, y, params, floor=floored, loss=loss,
+                                 f_scale=f_scale, tol=min(1e-3, 1.0 / x.size))
+    return _trial(spec, x, y, params, chisq, k, noise, floored, decided=False)
+
+
+def _trial(spec, x, y, params, chisq, k, noise, floored, floor_gain=None, *,
+           decided=True) -> Trial:
+    """The trial of a finished quick fit. The full fit of the chosen model takes its floor
+    decision (``floor_gain`` in the parameters, ``None`` for no floor) where ``decided``,
+    and decides again on all points otherwise (no ``floor_gain`` key)."""
+    params = dict(params, floor_gain=floor_gain) if decided else dict(params)
     trial = Trial(spec.name, params, chisq / noise**2, k, floored, points=int(x.size))
     trial.runs_z = runs_z(spec.formula(x, **full_params(spec, params, floored)) - y)
     trial.at_limit = [p.name for p in spec.extra if p.at_limit(params[p.name])]
@@ -248,24 +254,11 @@ def _beyond_floor(spec, x, y, params, chisq, k, noise, beat) -> bool:
     half the largest current) and three margins. The floor alone is a lower bound of the
     floored fit's gain; a refit of the rest moves it by a fraction, not threefold."""
     m = spec.formula(x, **full_params(spec, params, False))
-    floors = np.geomspace(1e-3, 0.5, 40) * max(float(np.max(np.abs(m))), 1e-300)
+    floors = np.geomspace(1e-3, 0.5, 16) * max(float(np.max(np.abs(m))), 1e-300)
     floored = np.sqrt(m[None, :] ** 2 + floors[:, None] ** 2)
     alone = (chisq - float(np.min(np.sum((y[None, :] - floored) ** 2, axis=1)))) / noise**2
     deficit = chisq / noise**2 + (k + 1) * np.log(x.size) - beat
     return deficit > 3.0 * max(alone, MARGIN)
-
-
-def rival_start(spec, reference_spec, reference: dict, x, y) -> dict:
-    """A model's start from the reference model's converged fit: the period that puts its
-    first node where the reference's first node fell, a few factors around it (and the
-    shape-parameter grid), the reference's offset; amplitude in closed form."""
-    extras = {p.name: reference[p.name] for p in reference_spec.extra}
-    first = float(reference_spec.nodes(1, extras or None)[0]) * abs(reference["period_T"])
-    factors = _PERIOD_FACTORS if any(p.grid for p in spec.extra) else _RIVAL_FACTORS
-    start = shape_start(spec, x, y, abs(reference["period_T"]), reference["field_offset_T"],
-                        first_T=first, factors=factors)
-    start["floor_A"] = 0.0
-    return start
 
 
 def _walk_lobes(spec, x, y, params, chisq, k, floor, loss, f_scale, max_steps=3):
@@ -342,7 +335,8 @@ def _decide(trials, order):
                         "chisq_over_noise": float(t.chisq_over_noise),
                         "reduced_chisq": float(t.reduced_chisq),
                         "parameters": t.parameters, "node_floor": t.floor,
-                        "shape_parameter": t.shaped, "residual_runs_z": float(t.runs_z)}
+                        "shape_parameter": t.shaped, "residual_runs_z": float(t.runs_z),
+                        "screened_every": t.screened or None}
                        for t in trials],
         "set_aside": [{"model": t.name, "reduced_chisq": float(t.reduced_chisq),
                        "residual_runs_z": float(t.runs_z), "reason": reason}
@@ -405,7 +399,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
                                     x, y)
         found[name] = run(name, start)
     starts = f"from the {names[0]} fit"
-    fitted = [t for t in found.values() if t is not None]
+    fitted = [t for t in found.values() if t is not None and not t.at_limit]
     if reference is None or not fitted or min(t.reduced_chisq for t in fitted) > DESCRIBES_REDCHI:
         starts = "from the reference fit and from each model's own scan"
         for name in names[1:]:

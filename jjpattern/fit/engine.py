@@ -14,10 +14,10 @@ from ..flags import make_flag
 from ..io.sweep import MIN_POINTS
 from ..physics.models import get_model, model_names
 from ..sampling import tidy
-from .choice import choose_model, shape_start
+from .choice import choose_model
 from .far import far_lobe_start
 from .lobes import OFFSET_DCHI2, check_lobe_assignment, extras_of, nodes_in_window
-from .lsq import Units, solve
+from .lsq import Units, evaluate, solve
 from .noise import difference_noise
 from .outcome import (
     MIN_NODES,
@@ -31,6 +31,7 @@ from .outcome import (
 from .reported import final_fit
 from .result import PatternFit
 from .scan import scan_pattern
+from .starts import shape_start
 
 #: Below this drop in chi-square (in noise units) from a flat line to the fitted
 #: pattern, the data show no modulation.
@@ -190,9 +191,11 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
     def refit(params, floor=False):
         return solve(spec, xn, yn, params, floor=floor, loss=loss, f_scale=f_scale)
 
-    # The choice's converged parameters, with the floor it decided on: one short refit.
+    # The choice's parameters, converged on all points with the floor it decided on, are
+    # taken as they are (the reported fit polishes them).
     chosen_floor = decided and choice_gain is not None and not spec.periodic
-    local = refit(start, floor=chosen_floor)
+    local = (evaluate(spec, xn, yn, start, floor=chosen_floor, loss=loss, f_scale=f_scale)
+             if decided else refit(start, floor=chosen_floor))
     offset = local.params["field_offset_T"]
     if not given and not spec.periodic and (not xn[0] <= offset <= xn[-1] or nodes_in_window(
             spec, xn, abs(local.params["period_T"]), offset,

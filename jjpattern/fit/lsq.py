@@ -165,3 +165,11 @@ def solve(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
     weights = robust_weight((r / f_scale) ** 2, loss)
     params.update(zip(names, (float(b) for b in best), strict=True))
     return Local(params, names, float(np.sum(weights * r * r)), weights, r)
+
+
+def evaluate(spec, x, y, params: dict, *, floor: bool, loss: str, f_scale: float) -> Local:
+    """A :class:`Local` at ``params`` without fitting (parameters already converged)."""
+    values = full_params(spec, params, floor)
+    r = spec.formula(x, **values) - y
+    weights = robust_weight((r / f_scale) ** 2, loss)
+    return Local(values, free_names(spec, floor), float(np.sum(weights * r * r)), weights, r)

@@ -25,6 +25,11 @@ _MIN_OVERLAP = 1e-4
 #: Step (in flux quanta) of the table the templates are interpolated in: linear
 #: interpolation of |sinc| is then within 3e-5 of it, far below what ranks candidates.
 _TABLE_STEP = 1.0 / 128.0
+#: Largest single-precision spectrum (bytes) of a block of periods: below the size
+#: from which the C allocator maps fresh pages for each array (128 KiB by default).
+_BLOCK_BYTES = 120 * 1024
+#: Lags per block of the cumulative sums done as matrix products.
+_PREFIX_BLOCK = 16
 
 
 @dataclass(frozen=True)
@@ -72,6 +77,8 @@ def _uniform(field_T, ic_A, step_T):
     values = np.interp(grid, field_T, ic_A)
     gaps = np.diff(field_T)
     wide = 5.0 * np.median(gaps)
+    if gaps.max() <= wide:
+        return grid, values, np.ones(n)
     k = np.clip(np.searchsorted(field_T, grid, side="right") - 1, 0, gaps.size - 1)
     near = np.minimum(np.abs(grid - field_T[k]), np.abs(field_T[k + 1] - grid)) <= step_T
     weight = ((gaps[k] <= wide) | near).astype(float)
@@ -79,7 +86,12 @@ def _uniform(field_T, ic_A, step_T):
 
 
 class _Surface:
-    """FFT correlations of the resampled data with sliding templates."""
+    """FFT correlations of the resampled data with sliding templates.
+
+    The templates are even in the field difference, so only their half for lags >= 0
+    is computed. For the FFTs each one is laid out wrapped around index 0 (its spectrum
+    is then real), and the shift to the centre goes once into the data's spectra.
+    """
 
     def __init__(self, x, y, unit_shape, step, extend):
         self.grid, yg, wg = _uniform(x, y, step)
@@ -87,87 +99,178 @@ class _Surface:
         yg = yg / self.unit
         self.unit_shape = unit_shape
         span = x[-1] - x[0]
-        self.k_half = int(np.ceil((1.0 + extend) * span / step))
-        self.d = (np.arange(2 * self.k_half + 1) - self.k_half) * step
-        self.nfft = sfft.next_fast_len(self.d.size, real=True)
-        self.valid = self.d.size - self.grid.size + 1
+        self.k_half = k = int(np.ceil((1.0 + extend) * span / step))
+        # Even, at least 2 k + 1: no wrap-around at the lags used.
+        self.nfft = 2 * sfft.next_fast_len(k + 1, real=True)
+        self.size = self.grid.size
+        self.valid = 2 * k + 2 - self.size
         # Offset of correlation lag s: B0 = x0 + (k_half - s) * step.
         self.offsets = self.grid[0] + (self.k_half - np.arange(self.valid)) * step
+        shift = np.exp(-2j * np.pi * k / self.nfft * np.arange(self.nfft // 2 + 1))
         # Single precision is plenty for ranking candidates and twice as fast;
         # the local fit that follows works in double precision.
-        self.wy_f = np.conj(sfft.rfft((wg * yg).astype(np.float32), self.nfft))
-        self.w_f = np.conj(sfft.rfft(wg.astype(np.float32), self.nfft))
+        self.wy_f = (np.conj(sfft.rfft(wg * yg, self.nfft)) * shift).astype(np.complex64)
         # Without gaps every weight is one: the template's window sums are differences of
         # cumulative sums, which saves four of the six FFTs.
         self.gapless = bool(np.all(wg == 1.0))
-        self.size = self.grid.size
+        self.w_f = None if self.gapless else (
+            np.conj(sfft.rfft(wg, self.nfft)) * shift).astype(np.complex64)
         n, sy, syy = float(wg.sum()), float(np.dot(wg, yg)), float(np.dot(wg, yg**2))
         self.flat = (syy - sy**2 / n) * self.unit**2
         self.n, self.sy, self.syy = np.float32(n), np.float32(sy), np.float32(syy)
         self.step = step
         self._table = None
+        self._upper = np.triu(np.ones((_PREFIX_BLOCK, _PREFIX_BLOCK), dtype=np.float32))
 
     def _templates(self, periods):
-        """Half templates (lags >= 0) of every period, interpolated in one table of the
-        unit shape: one shape evaluation per call instead of one per period and lag."""
-        u_max = float(self.d[-1] / periods.min())
+        """Half templates (lags >= 0) of every period, zero-padded to half the FFT length
+        plus one: linear interpolation in one table of the unit shape, one shape
+        evaluation per call instead of one per period and lag."""
+        k = self.k_half
+        rate = self.step / (_TABLE_STEP * periods)  # table steps per grid step
+        u_max = k * float(rate.max())
         if self._table is None or self._table[0] < u_max:
-            u = np.arange(int(np.ceil(u_max / _TABLE_STEP)) + 2) * _TABLE_STEP
-            self._table = (float(u[-1]), np.asarray(self.unit_shape(u), dtype=np.float32))
-        h, table = _TABLE_STEP, self._table[1]
-        u = (self.d[self.k_half:] / h).astype(np.float32)[None, :] / (
-            periods.astype(np.float32)[:, None])
-        i = np.minimum(u.astype(np.int32), table.size - 2)
-        frac = u - i
-        return table[i] * (1.0 - frac) + table[i + 1] * frac
+            # Evaluated in single precision (the table's u are exact there): several
+            # times faster for the numpy shapes, and within 3e-5 of double precision.
+            u = np.arange(int(np.ceil(u_max)) + 3, dtype=np.float32) * np.float32(_TABLE_STEP)
+            values = np.asarray(self.unit_shape(u), dtype=np.float32)
+            # Value and slope side by side, fetched as one 8-byte item per lag.
+            pairs = np.stack([values[:-1], np.diff(values)], axis=1)
+            self._table = (float(np.ceil(u_max)), pairs.view(np.int64).ravel())
+        u = np.arange(k + 1, dtype=np.float32)[None, :] * rate.astype(np.float32)[:, None]
+        whole = np.floor(u)
+        pair = np.take(self._table[1], whole.astype(np.int32)).view(np.float32)
+        u -= whole
+        out = np.zeros((periods.size, self.nfft // 2 + 1), dtype=np.float32)
+        half = out[:, :k + 1]
+        np.multiply(u, pair[:, 1::2], out=half)
+        half += pair[:, 0::2]
+        return out
 
-    def _window_sums(self, templates):
-        """Sums of the template and of its square over the data window, at every lag."""
-        c = np.zeros((templates.shape[0], templates.shape[1] + 1), dtype=np.float32)
-        np.cumsum(templates, axis=1, out=c[:, 1:])
-        s_f = c[:, self.size:self.size + self.valid] - c[:, :self.valid]
-        np.cumsum(np.square(templates), axis=1, out=c[:, 1:])
-        s_ff = c[:, self.size:self.size + self.valid] - c[:, :self.valid]
-        return s_f, s_ff
+    def _window_sums(self, half):
+        """Sums of the template and of its square over the data window, at every lag, from
+        cumulative sums of the half template (lags >= 0) alone."""
+        k, size, valid = self.k_half, self.size, self.valid
+        rows, width = half.shape[0], _PREFIX_BLOCK
+        parts = np.zeros((2 * rows, -(-(k + 2) // width) * width), dtype=np.float32)
+        parts[:rows, 1:k + 2] = half
+        np.square(half, out=parts[rows:, 1:k + 2])
+        # h[:, i]: sum of the first i half-template lags. Cumulative sums as one small
+        # matrix product per block of lags plus the running block totals: several times
+        # faster than np.cumsum, a serial loop.
+        h = (parts.reshape(-1, width) @ self._upper).reshape(2 * rows, -1)
+        h[:, width:] += np.repeat(np.cumsum(h[:, width - 1:-1:width], axis=1), width, axis=1)
+        # The window sums are even about the middle lag: the upper half only, where the
+        # window lies right of the template centre (lag >= k) or straddles it.
+        mid = valid // 2
+        sums = []
+        for part in (h[:rows], h[rows:]):
+            out = np.empty((rows, valid), dtype=np.float32)
+            np.subtract(part[:, size:k + 2], part[:, :k + 2 - size], out=out[:, k:])
+            straddle = out[:, mid:k]
+            np.add(part[:, k - mid + 1:1:-1], part[:, mid + size - k:size], out=straddle)
+            straddle -= part[:, 1:2]
+            out[:, :mid] = out[:, :valid - mid - 1:-1]
+            sums.append(out)
+        return sums
 
-    def best_offsets(self, periods):
-        """Per period: best chi-square (grid sums) and its offset, amplitude and background."""
-        # The templates are even in the field difference: compute one half, mirror it.
+    def _correlations(self, periods):
+        """Sums over the data window, at every lag, of template * data, template and
+        template squared."""
         half = self._templates(periods)
-        templates = np.concatenate([half[:, :0:-1], half], axis=1)
-        t_f = sfft.rfft(templates, self.nfft, axis=1)
+        # The spectrum of an even template wrapped around index 0 is real: a type-1 DCT
+        # of its half, without the mirrored copy.
+        t_f = sfft.dct(half, type=1, axis=1)
         cut = slice(0, self.valid)
-        s_yf = sfft.irfft(t_f * self.wy_f, self.nfft, axis=1)[:, cut]
         if self.gapless:
-            s_f, s_ff = self._window_sums(templates)
+            s_f, s_ff = self._window_sums(half[:, :self.k_half + 1])
         else:
-            t2_f = sfft.rfft(templates * templates, self.nfft, axis=1)
+            t2_f = sfft.dct(np.square(half), type=1, axis=1)
             s_f = sfft.irfft(t_f * self.w_f, self.nfft, axis=1)[:, cut]
             s_ff = sfft.irfft(t2_f * self.w_f, self.nfft, axis=1)[:, cut]
-        rows = np.arange(periods.size)
-        best = np.zeros(periods.size, dtype=np.intp)
+        t_f = t_f * self.wy_f
+        # Contiguous, as the window sums are: their picks share one flat index.
+        s_yf = np.ascontiguousarray(sfft.irfft(t_f, self.nfft, axis=1)[:, cut])
+        return s_yf, np.ascontiguousarray(s_f), np.ascontiguousarray(s_ff)
+
+    def best_offsets(self, periods):
+        """Per period: best chi-square (grid sums) and its offset, amplitude and background.
+
+        ``periods`` ascending."""
+        best = np.empty(periods.size, dtype=np.intp)
+        at_best = np.empty((3, periods.size), dtype=np.float32)
+        floor = np.empty(periods.size, dtype=np.float32)
         # Lags an eighth of a period apart are enough to find the best lobe of a long
         # period; the best of those is then refined at every lag around it.
         factor = 2 ** np.floor(np.log2(np.maximum(periods / (8.0 * self.step), 1.0)))
-        peak = np.max(s_ff, axis=1, keepdims=True)
-        for k in np.unique(factor).astype(int):
-            sel = rows[factor == k]
-            coarse = self._gain(s_yf[sel, ::k], s_f[sel, ::k], s_ff[sel, ::k], peak[sel])[0]
-            centre = np.argmax(coarse, axis=1) * k
-            if k > 1:
-                cols = np.clip(centre[:, None] + np.arange(-k + 1, k)[None, :], 0,
-                               self.valid - 1)
-                pick = [np.take_along_axis(a[sel], cols, axis=1) for a in (s_yf, s_f, s_ff)]
-                centre = cols[np.arange(sel.size), np.argmax(
-                    self._gain(*pick, peak[sel])[0], axis=1)]
-            best[sel] = centre
-        pick = (rows, best)
-        gain, amp, bkg = self._gain(s_yf[pick], s_f[pick], s_ff[pick], peak[:, 0])
+        # A few periods at a time keep every array small: large ones are fresh pages
+        # from the system at each call, and faulting them in took more time than the sums.
+        block = max(1, _BLOCK_BYTES // (4 * self.nfft + 4))
+        for start in range(0, periods.size, block):
+            stop = min(start + block, periods.size)
+            best[start:stop], at_best[:, start:stop], floor[start:stop] = self._best_lags(
+                self._correlations(periods[start:stop]), factor[start:stop])
+        gain, amp, bkg = self._gain(*at_best, floor)
         u = self.unit
         return ((float(self.syy) - gain.astype(float)) * u * u, self.offsets[best],
                 amp.astype(float) * u, bkg.astype(float) * u)
 
-    def _gain(self, s_yf, s_f, s_ff, peak):
+    def _best_lags(self, sums, factor):
+        """Best lag of each row of ``sums``, the sums there, and the overlap floor.
+
+        ``factor`` (ascending) is each row's coarse step in lags: the best of every
+        ``factor``-th lag is refined at every lag within a coarse step of it. Rows of all
+        factors above one are searched together, the rows with fewer lags repeating
+        their last one, which cannot change an argmax."""
+        floor = np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1, keepdims=True)
+        best = np.zeros(factor.size, dtype=np.intp)
+        split = int(np.searchsorted(factor, 1.5))
+        if split:
+            best[:split] = np.argmax(self._score(*(a[:split] for a in sums), floor[:split]),
+                                     axis=1)
+        if split < factor.size:
+            wide = slice(split, factor.size)
+            k = factor[wide, None].astype(np.intp)
+            first = np.arange(split, factor.size)[:, None] * self.valid  # flat row starts
+            last = (self.valid - 1) // k * k
+            cols = np.minimum(np.arange(-(-self.valid // k[0, 0]))[None, :] * k, last)
+            at = first + cols
+            coarse = self._score(*(np.take(a, at) for a in sums), floor[wide])
+            best[wide] = cols[np.arange(k.size), np.argmax(coarse, axis=1)]
+            reach = int(k[-1, 0]) - 1
+            step = np.clip(np.arange(-reach, reach + 1)[None, :], 1 - k, k - 1)
+            cols = np.clip(best[wide, None] + step, 0, self.valid - 1)
+            at = first + cols
+            fine = self._score(*(np.take(a, at) for a in sums), floor[wide])
+            best[wide] = cols[np.arange(k.size), np.argmax(fine, axis=1)]
+        at = np.arange(factor.size) * self.valid + best
+        return best, [np.take(a, at) for a in sums], floor[:, 0]
+
+    def _score(self, s_yf, s_f, s_ff, floor):
+        """The gain of :meth:`_gain` alone, with few temporaries: ranks the lags where only
+        the best one is wanted."""
+        mean, inv_n = self.sy / self.n, np.float32(1.0) / self.n
+        # amp_det / n, det / n and the sign of bkg_det of _gain.
+        amp = s_f * mean
+        np.subtract(s_yf, amp, out=amp)
+        det = np.square(s_f)
+        det *= inv_n
+        np.subtract(s_ff, det, out=det)
+        both = np.greater_equal(s_ff * self.sy, s_f * s_yf)
+        both &= amp > 0
+        both &= det > 0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            score = np.maximum(s_yf, np.float32(0.0))
+            score *= score
+            score /= s_ff
+            amp *= amp
+            amp /= det
+            amp += self.sy * mean
+        np.copyto(score, amp, where=both)
+        np.copyto(score, np.float32(0.0), where=s_ff <= floor)
+        return score
+
+    def _gain(self, s_yf, s_f, s_ff, floor):
         """Least squares of y = amp * template + bkg at every lag, in closed form; where
         that needs amp <= 0 or bkg < 0, the pure pattern (bkg = 0) instead. Returns the
         drop in the sum of squares, the amplitude and the background."""
@@ -180,7 +283,7 @@ class _Surface:
         safe_ff = np.maximum(s_ff, np.float32(1e-30))
         gain = np.where(both, (amp_det * s_yf + bkg_det * sy) / safe_det,
                         np.maximum(s_yf, 0.0) ** 2 / safe_ff)
-        gain = np.where(s_ff > np.float32(_MIN_OVERLAP) * peak, gain, 0.0)
+        gain = np.where(s_ff > floor, gain, 0.0)
         amp = np.where(both, amp_det / safe_det, s_yf / safe_ff)
         bkg = np.where(both, bkg_det / safe_det, 0.0)
         return gain, amp, bkg

@@ -62,18 +62,23 @@ def _slopes(ell, rows):
     return (ext[2:] - ext[:-2]) / (ext_l[2:] - ext_l[:-2])[:, None]
 
 
-def _hermite(ell_grid, rows, slopes, ell):
-    """Cubic Hermite interpolation of ``rows`` at ``|ell|`` (clamped to the table)."""
+def _hermite(ell_grid, rows, slopes, ell, derivative=False):
+    """Cubic Hermite interpolation of ``rows`` at ``|ell|`` (clamped to the table), or its
+    derivative in ``ell`` at ``|ell|``."""
     import numpy as np
 
     q = min(abs(float(ell)), float(ell_grid[-1]))
-    i = int(np.clip(np.searchsorted(ell_grid, q, side="right") - 1, 0, ell_grid.size - 2))
-    width = ell_grid[i + 1] - ell_grid[i]
-    t = (q - ell_grid[i]) / width
-    h00, h10 = 2 * t**3 - 3 * t**2 + 1, t**3 - 2 * t**2 + t
-    h01, h11 = -2 * t**3 + 3 * t**2, t**3 - t**2
-    return (h00 * rows[i] + h10 * width * slopes[i] + h01 * rows[i + 1]
-            + h11 * width * slopes[i + 1])
+    i = min(max(int(np.searchsorted(ell_grid, q, side="right")) - 1, 0), ell_grid.size - 2)
+    width = float(ell_grid[i + 1] - ell_grid[i])
+    t = (q - float(ell_grid[i])) / width
+    if derivative:
+        # d/d(ell) of the basis below: d/dt over the width.
+        h00, h10 = (6 * t**2 - 6 * t) / width, 3 * t**2 - 4 * t + 1
+        h01, h11 = (-6 * t**2 + 6 * t) / width, 3 * t**2 - 2 * t
+    else:
+        h00, h10 = 2 * t**3 - 3 * t**2 + 1, (t**3 - 2 * t**2 + t) * width
+        h01, h11 = -2 * t**3 + 3 * t**2, (t**3 - t**2) * width
+    return h00 * rows[i] + h10 * slopes[i] + h01 * rows[i + 1] + h11 * slopes[i + 1]
 
 
 @functools.lru_cache(maxsize=16)
@@ -119,11 +124,14 @@ def gradient(field_T, ic0_A, period_T, field_offset_T, floor_A, ell, feed):
     d_table = np.where(a < grid_u[-1], seg[i], 0.0) * np.sign(u)
     s = np.abs(sinc) + np.interp(a, grid_u, row, right=0.0)
     d_s = np.sign(sinc) * d_sinc + d_table
-    h = 1e-4 * max(1.0, abs(float(ell)))
-    # The sinc part does not depend on ell: the difference of the two table rows alone.
-    d_row = (_row(feed, min(abs(float(ell + h)), top))
-             - _row(feed, min(abs(float(ell - h)), top))) / (2 * h)
-    d_ell = np.interp(a, grid_u, d_row, right=0.0)
+    # The sinc part does not depend on ell: the derivative of the table row alone (even in
+    # ell, and constant beyond the table's end).
+    grid_ell, _, departure, slopes, _, _ = table(feed)
+    if abs(float(ell)) >= top:
+        d_ell = np.zeros_like(a)
+    else:
+        d_row = _hermite(grid_ell, departure, slopes, ell, derivative=True)
+        d_ell = np.sign(float(ell)) * np.interp(a, grid_u, d_row, right=0.0)
     total = np.hypot(ic0_A * s, floor_A)
     inv = np.divide(1.0, total, out=np.zeros_like(total), where=total > 0)
     along = ic0_A * s * inv
@@ -138,6 +146,15 @@ def zero_field_ratio(ell, feed):
     in-line one, 1 at any length for the overlap feed."""
     grid_ell, _, _, _, g0, g0_slopes = table(feed)
     return float(_hermite(grid_ell, g0, g0_slopes, ell))
+
+
+@functools.lru_cache(maxsize=64)
+def _minima(count, ell, feed):
+    """:func:`minima` for hashable arguments, cached (read-only): the starts of a fit ask
+    for the same grid values again and again."""
+    found = minima(count, ell, feed)
+    found.flags.writeable = False
+    return found
 
 
 def minima(count, ell, feed):
@@ -211,7 +228,7 @@ def make_model(feed: str, *, name: str, description: str, feed_words: str):
 
     def node_flux(count, length_over_josephson_depth=0.0):
         """Minima of the pattern (lifted above zero once the vortex modes overlap)."""
-        return minima(count, length_over_josephson_depth, feed)
+        return _minima(int(count), abs(float(length_over_josephson_depth)), feed).copy()
 
     def model_gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0,
                        length_over_josephson_depth=0.0):
