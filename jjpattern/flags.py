@@ -45,11 +45,13 @@ CATALOGUE = {
     "poor-fit": (
         "error",
         "The best model misses the data by more than the point-to-point noise, so its period, "
-        "Ic0 and everything derived from them are withheld rather than given with error bars "
-        "that would not mean anything. Usual causes: a non-uniform current density (see the "
-        "other flags), flux trapped in or near the junction, a field axis that is not linear, "
-        "or a junction none of the models describes (with --model NAME only that model was "
-        "tried; the automatic choice tries them all).",
+        "field offset, Ic0, node floor and everything derived from them are withheld rather "
+        "than given with error bars that would not mean anything. Usual causes: a non-uniform "
+        "current density (see the other flags), flux trapped in or near the junction, a field "
+        "axis that is not linear, or a junction none of the models describes (the automatic "
+        "choice, the default, tries them all; --model NAME tries only that one). Points far "
+        "below the pattern (premature switching, glitches) also raise it: --loss cauchy "
+        "down-weights them.",
     ),
     "nodes-lifted": (
         "warning",

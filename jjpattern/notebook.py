@@ -86,7 +86,7 @@ def headline_table(fits) -> str:
 def flags_html(flags, fits=()) -> str:
     """Each flag with its scope (branch, sweep or both branches), meaning and evidence."""
     if not flags:
-        return "<p>No flags: the pattern is consistent with the model within the noise.</p>"
+        return "<p>No flags raised.</p>"
     out = []
     for f in flags:
         evidence = evidence_text(f.evidence)

@@ -181,7 +181,7 @@ def _flag_from_dict(data: dict) -> Flag:
                 dict(data.get("evidence") or {}))
 
 
-@dataclass
+@dataclass(eq=False)
 class Result:
     """The analysis of one input: the JSON contract of ``analyze --json`` and ``result.json``.
 
@@ -285,6 +285,15 @@ class Result:
                 doc[key] = value
         doc["provenance"] = self.provenance
         return plain(doc)
+
+    def __eq__(self, other) -> bool:
+        """Equal when the JSON documents are (the document is the contract; the fitted
+        points and the reported fit's object ride along but are not compared)."""
+        if not isinstance(other, Result):
+            return NotImplemented
+        return self.to_dict() == other.to_dict()
+
+    __hash__ = None
 
     def to_json(self) -> str:
         """Readable, stable JSON text; floats are written so they read back exactly."""

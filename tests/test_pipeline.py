@@ -38,6 +38,8 @@ def test_result_json_round_trips_exactly(map_result):
     text = map_result.to_json()
     again = Result.from_json(text)
     assert again.to_json() == text
+    assert again == map_result  # as the README shows
+    assert not again != map_result
     assert again.settings == map_result.settings
     pos = again.fit("positive")
     np.testing.assert_array_equal(pos.field_T, map_result.fit("positive").field_T)

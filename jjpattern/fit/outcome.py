@@ -131,7 +131,8 @@ def withhold_if_undersampled(out, x) -> bool:
         "numbers": list(WITHHELD),
         "text": (f"the fitted period spans {steps:.2g} field steps, fewer than "
                  f"{MIN_STEPS_PER_PERIOD:g}: the sampling cannot tell it from its aliases, "
-                 "so the period, Ic0 and everything derived from them are not given"),
+                 "so the period, field offset, Ic0, node floor and everything derived from "
+                 "them are not given"),
     }
     return True
 
@@ -165,8 +166,8 @@ def withhold_if_poor(out, spec) -> bool:
         "numbers": given + [p.name for p in spec.extra],
         "text": (f"the {spec.name} model misses the data (reduced chi-square "
                  f"{out.reduced_chisq:.3g} against the point-to-point noise, above "
-                 f"{POOR_FIT_REDCHI:g}), so its period, Ic0 and everything derived from "
-                 "them are not given"),
+                 f"{POOR_FIT_REDCHI:g}), so its period, field offset, Ic0, node floor and "
+                 "everything derived from them are not given"),
     }
     if at_limit:
         out.withheld.update(reason="at-limit", parameters=at_limit, text=(

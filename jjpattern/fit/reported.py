@@ -66,6 +66,11 @@ class ReportedFit:
     def redchi(self) -> float:
         return self.chisqr / max(self.nfree, 1)
 
+    def __repr__(self) -> str:
+        fitted = ", ".join(f"{n}={self.params[n].value:.6g}" for n in self.var_names)
+        return (f"ReportedFit({getattr(self.spec, 'name', '?')}: {fitted}; reduced chi-square "
+                f"{self.redchi:.3g}, {self.residual.size} points)")
+
     def values(self) -> dict:
         """Every parameter's value by name (SI)."""
         return {k: p.value for k, p in self.params.items()}

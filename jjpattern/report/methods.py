@@ -30,6 +30,7 @@ REFERENCES = {
     "fienup": "J. R. Fienup, Appl. Opt. 21, 2758 (1982).",
     "schwarz": "G. Schwarz, Ann. Stat. 6, 461 (1978).",
     "kass": "R. E. Kass and A. E. Raftery, J. Am. Stat. Assoc. 90, 773 (1995).",
+    "runs": "A. Wald and J. Wolfowitz, Ann. Math. Stat. 11, 147 (1940).",
 }
 
 def _junction(meta: dict) -> str:
@@ -142,27 +143,35 @@ def _model_choice_text(result, cited) -> str:
             f"of the data and k the number of fitted parameters; the model with the lowest "
             f"BIC was reported unless a simpler one lay within {first['margin']:g} of it "
             "[kass], in which case the simplest within that margin was reported.")
+    text += (" A model other than the uniform rectangle was reported only where it described "
+             "the data: the signs of its residuals in field order passed the runs test "
+             "[runs] (z above -4) and, for a model with a free shape parameter, its reduced "
+             "chi-square was at most 2; where the model so chosen missed the data (reduced "
+             "chi-square above 4) the rectangle was reported.")
+    cited.append("runs")
     if first.get("branches"):
         n = first["branches"]
         choices = [(f"{'both' if n == 2 else n} branches together (BIC summed)", first)]
+    else:
+        choices = [(f"{branch} branch", c) for branch, c in choices]
     for where, c in choices:
         if c.get("runner_up") is None:
             continue
         for a in c.get("set_aside") or []:
-            text += (f" For the {where} the {a['model']} model was set aside because "
+            text += (f" For {where} the {a['model']} model was set aside because "
                      f"{a['reason']}.")
         if c["decision"] == "none fits":
-            text += (f" For the {where} no model described the data, so the reference "
-                     f"{c['chosen']} model is reported, its numbers withheld.")
+            text += (f" For {where} no model described the data, so the reference "
+                     f"{c['chosen']} model was reported.")
         elif c["decision"] == "clear":
-            text += (f" For the {where} {c['chosen']} had the lowest BIC, with "
+            text += (f" For {where} {c['chosen']} had the lowest BIC, with "
                      f"{c['runner_up']} next, higher by {c['criterion_difference']:.1f}.")
         else:
             other = (c["lowest_criterion"] if c["lowest_criterion"] != c["chosen"]
                      else c["runner_up"])
-            text += (f" For the {where} the choice was a near tie ({other} within "
+            text += (f" For {where} the choice was a near tie ({other} within "
                      f"{c['margin']:g} of {c['chosen']}), and the simpler {c['chosen']} model "
-                     "is reported.")
+                     "was reported.")
     return text
 
 

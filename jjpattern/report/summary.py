@@ -107,28 +107,40 @@ def choice_sentence(choice: dict | None) -> str:
     """The automatic model choice in words (empty when the model was given)."""
     if not choice:
         return ""
+    text = _choice_words(choice)
+    own = choice.get("this_branch")
+    if choice.get("branches") and own and (own.get("chosen"), own.get("decision")) != (
+            choice["chosen"], choice["decision"]):
+        text += f" (this branch alone: {_choice_words(own, short=True)})"
+    return text
+
+
+def _choice_words(choice: dict, short: bool = False) -> str:
     chosen, runner = choice["chosen"], choice.get("runner_up")
-    text = f"chosen automatically by {choice['criterion']} over {len(choice['candidates'])} models"
-    if choice.get("branches"):
-        text += f", summed over {choice['branches']} branches"
-    if runner is None:
-        return text
-    diff = choice["criterion_difference"]
+    together = bool(choice.get("branches"))
+    text = ("" if short else
+            f"chosen automatically by {choice['criterion']} over "
+            f"{len(choice['candidates'])} models"
+            + (f", summed over {choice['branches']} branches" if together else "") + ": ")
+    margin = choice["margin"]
     aside = "".join(f"; {a['model']} set aside ({a['reason']})"
                     for a in choice.get("set_aside") or [])
     if choice["decision"] == "none fits":
-        return (f"{text}: no model describes the data, so the reference {chosen} model is "
-                f"reported and its numbers are withheld{aside}")
-    text += aside
+        what = "the branches together" if together else "the data"
+        return (f"{text}no model describes {what}, so the reference {chosen} model is "
+                f"reported{aside}")
+    if runner is None:
+        return f"{text}{chosen}{aside}"
+    diff = choice["criterion_difference"]
     if choice["decision"] == "clear":
-        return (f"{text}: {chosen}, next {runner} {diff:+.1f} "
-                f"(margin {choice['margin']:g})")
+        return (f"{text}{chosen}, BIC lower than the next ({runner}) by {diff:.1f}; a clear "
+                f"choice needs {margin:g}{aside}")
     lowest = choice["lowest_criterion"]
     if lowest != chosen:
-        return (f"{text}: near tie, {lowest} is lower by {-diff:.1f}, less than the margin "
-                f"{choice['margin']:g}, so the simpler {chosen} model is reported")
-    return (f"{text}: near tie between {chosen} and {runner} ({diff:+.1f}, margin "
-            f"{choice['margin']:g}); the simpler {chosen} model is reported")
+        return (f"{text}near tie, {lowest} is lower by {-diff:.1f}, less than the margin "
+                f"{margin:g}, so the simpler {chosen} model is reported{aside}")
+    return (f"{text}near tie between {chosen} and {runner} ({diff:+.1f}, margin "
+            f"{margin:g}); the simpler {chosen} model is reported{aside}")
 
 
 #: Names for people of the numbers models derive (others: the key in words).
