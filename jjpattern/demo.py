@@ -8,7 +8,7 @@ from importlib import resources
 #: Demo file and the settings a user would pick for it (keywords of jjpattern.analyze).
 DEMO_RUNS = (
     ("kt14_j03.csv", {"loss": "cauchy"}),
-    ("kt14_j05.h5", {"model": "circular"}),
+    ("kt14_j05.h5", {}),  # a disc: the automatic choice finds the circular model
     ("kt14_j11.tsv", {}),
     ("kt14_j07_map.h5", {"tc_K": 9.2}),
 )

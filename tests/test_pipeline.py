@@ -90,7 +90,7 @@ def _comparable(doc):
 def test_demo_result_equals_analyze_json(tmp_path, capsys):
     run_demo(str(tmp_path / "d"), echo=lambda *_: None, chip=False)
     for name, extra in (("kt14_j03.csv", ["--loss", "cauchy"]),
-                        ("kt14_j05.h5", ["--model", "circular"])):
+                        ("kt14_j05.h5", [])):
         assert main(["analyze", demo_files()[name], "--json", *extra]) == 0
         printed = json.loads(capsys.readouterr().out)
         stem = os.path.splitext(name)[0]
