@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["runs_z"]
+__all__ = ["runs_ratio", "runs_z"]
 
 
 def runs_z(residual) -> float:
@@ -30,3 +30,17 @@ def runs_z(residual) -> float:
     mu = 2.0 * n1 * n2 / n + 1.0
     var = (mu - 1.0) * (mu - 2.0) / (n - 1.0)
     return float((runs - mu) / np.sqrt(var)) if var > 0 else 0.0
+
+
+def runs_ratio(residual) -> float:
+    """Number of sign runs of ``residual`` over its mean under randomness (1.0 when fewer
+    than ten residuals have a sign or one sign is missing): how much structure there is,
+    where :func:`runs_z` says how significant it is."""
+    r = np.asarray(residual, dtype=float)
+    signs = r[r != 0] > 0
+    n1 = int(np.count_nonzero(signs))
+    n2 = signs.size - n1
+    if signs.size < 10 or n1 == 0 or n2 == 0:
+        return 1.0
+    runs = 1 + int(np.count_nonzero(signs[1:] != signs[:-1]))
+    return float(runs / (2.0 * n1 * n2 / signs.size + 1.0))
