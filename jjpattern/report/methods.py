@@ -143,11 +143,16 @@ def _model_choice_text(result, cited) -> str:
             f"of the data and k the number of fitted parameters; the model with the lowest "
             f"BIC was reported unless a simpler one lay within {first['margin']:g} of it "
             "[kass], in which case the simplest within that margin was reported.")
+    from ..fit.choice import DESCRIBES_REDCHI, RUNS_RATIO, RUNS_Z
+    from ..fit.outcome import POOR_FIT_REDCHI
+
     text += (" A model other than the uniform rectangle was reported only where it described "
-             "the data: the signs of its residuals in field order passed the runs test "
-             "[runs] (z above -4) and, for a model with a free shape parameter, its reduced "
-             "chi-square was at most 2; where the model so chosen missed the data (reduced "
-             "chi-square above 4) the rectangle was reported.")
+             "the data: the signs of its residuals in field order showed no significant and "
+             f"material lack of runs [runs] (z below -{RUNS_Z:g} with fewer than "
+             f"{RUNS_RATIO:g} of the expected runs) and, for a model with a free shape "
+             f"parameter, its reduced chi-square was at most {DESCRIBES_REDCHI:g}; where the "
+             f"model so chosen missed the data (reduced chi-square above {POOR_FIT_REDCHI:g}) "
+             "the rectangle was reported.")
     cited.append("runs")
     if first.get("branches"):
         n = first["branches"]
