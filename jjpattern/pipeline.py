@@ -225,7 +225,10 @@ def fit_method(settings: Settings) -> dict:
         "model": (f"every registered model fitted, the one with the lowest {choice.CRITERION} "
                   "(chi-square over the model-free noise plus k ln n) reported when no "
                   f"simpler model is within {choice.MARGIN:g} of it, else the simplest within "
-                  "that margin" if model == "auto" else f"{model}, chosen by the user"),
+                  "that margin; a model other than the rectangle only where it describes the "
+                  "data (residual runs test; reduced chi-square at most "
+                  f"{choice.DESCRIBES_REDCHI:g} for a shape parameter), the rectangle where "
+                  "none does" if model == "auto" else f"{model}, chosen by the user"),
         "thresholds": {
             "modulation_chisq_drop": engine.MODULATION_DCHI2,
             "min_nodes": engine.MIN_NODES,
@@ -234,6 +237,9 @@ def fit_method(settings: Settings) -> dict:
             "poor_fit_reduced_chisq": engine.POOR_FIT_REDCHI,
             "robust_scale_over_noise": engine.ROBUST_SCALE,
             "model_choice_margin": choice.MARGIN,
+            "model_describes_reduced_chisq": choice.DESCRIBES_REDCHI,
+            "model_runs_z": choice.RUNS_Z,
+            "model_runs_ratio": choice.RUNS_RATIO,
         },
     }
 

@@ -84,8 +84,9 @@ def fit_pattern(
         dropped and equal fields averaged.
     geometry : str
         ``"auto"`` (default) fits every registered model and reports the one the
-        Bayesian information criterion prefers by a margin (the evidence is in
-        ``model_choice``); or the name of one model from
+        Bayesian information criterion prefers by a margin, a model other than the
+        rectangle only where it describes the data and the rectangle where none does
+        (the evidence is in ``model_choice``); or the name of one model from
         :func:`jjpattern.physics.models.model_names` (``rectangular``, ``circular``,
         ``two-channel``, ``zero-pi``, ``long-inline``, ``long-overlap``, ...), whose
         extra parameters are fitted too.

@@ -12,7 +12,7 @@ MAX_LOBE_WALK = 40
 
 
 def extras_of(spec, params) -> dict:
-    """The model's extra parameters from an lmfit Parameters or a plain dict."""
+    """The model's extra parameters from a dict of values or of parameters with ``value``."""
     out = {}
     for p in spec.extra:
         value = params[p.name]
