@@ -29,10 +29,11 @@ from .cli_options import (
     reading_parent,
     settings_from_args,
 )
+from .cli_parser import Parser
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = Parser(
         prog="jjpattern",
         description="Fit and diagnose critical current versus magnetic field of Josephson "
                     "junctions.",
