@@ -177,3 +177,20 @@ def test_export_import_and_refusals(tmp_path, capsys):
     assert main(["compare", "nothing-here", "#1"]) == 2
     assert "no such file or folder" in capsys.readouterr().err
     assert not (tmp_path / "xdg").exists()  # nothing went to the default location
+
+
+def test_history_of_an_unrecorded_junction_names_the_catalog_and_what_it_holds(tmp_path,
+                                                                                capsys):
+    # The README's order: a result recorded in lab.sqlite, then a default catalog made.
+    cat = str(tmp_path / "lab.sqlite")
+    record_result(cat, result(junction="KT14-J05"))
+    assert main(["catalog", "init"]) == 0
+    capsys.readouterr()
+    assert main(["history", "KT14-J03"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "holds 0 records, none of junction 'KT14-J03'" in err
+    assert "`jjpattern catalog list junctions`" in err and "--catalog PATH" in err
+    assert main(["history", "KT14-J03", "--catalog", cat]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"jjpattern: {cat} holds 1 record, none of junction 'KT14-J03'; "
+                          "similar names: KT14-J05;")
