@@ -243,8 +243,9 @@ def run_batch(args) -> int:
 
         path, entries = starter_manifest(args.path)
         print(f"wrote a starter manifest listing {len(entries)} inputs: {path}")
-        print("fill in the sizes (length and width across the field, in um) and, if you have "
-              f"them, chip, cooldown and positions; then run: jjpattern batch {path} --out DIR")
+        print("fill in the sizes (length and width across the field, in um), the positions if "
+              "you have them, and any chip or cooldown the files' metadata did not give; then "
+              f"run: jjpattern batch {path} --out DIR")
         return EXIT_OK
     if not args.out:
         raise InputError(f"{args.path}: give the output folder with --out DIR")
