@@ -240,9 +240,10 @@ def run_batch(args) -> int:
 
     if os.path.isdir(args.path):
         from .batch.sniff import starter_manifest
+        from .fmt import plural
 
         path, entries = starter_manifest(args.path)
-        print(f"wrote a starter manifest listing {len(entries)} inputs: {path}")
+        print(f"wrote a starter manifest listing {plural(len(entries), 'input')}: {path}")
         print("fill in the sizes (length and width across the field, in um), the positions if "
               "you have them, and any chip or cooldown the files' metadata did not give; then "
               f"run: jjpattern batch {path} --out DIR")

@@ -120,7 +120,7 @@ def test_default_catalog_after_init_only(tmp_path, capsys):
     assert main(["catalog", "list", "records", "--json"]) == 0
     assert [r["id"] for r in json.loads(capsys.readouterr().out)] == [1]
     assert main(["catalog", "where"]) == 0
-    assert "1 records" in capsys.readouterr().out
+    assert "1 record," in capsys.readouterr().out
 
 
 def test_names_verbatim_and_helpful_errors(tmp_path, capsys):

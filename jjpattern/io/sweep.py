@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
+from ..fmt import plural
 from ..sampling import tidy
 from ..settings import ReadSettings
 from .layout import MIN_POINTS, field_window, run_labels, signed_split, sweep_runs
@@ -285,8 +286,9 @@ def build_sweep(
     merged = sum(b.duplicates_merged for b in ordered)
     if merged:
         notes["duplicates_averaged"] = (
-            f"{merged} points at a field already measured in the same branch and sweep "
-            "direction were averaged with it: the file gives no other way to tell them apart")
+            f"{plural(merged, 'point')} at a field already measured in the same branch and sweep "
+            f"direction {'was' if merged == 1 else 'were'} averaged with it: the file gives no "
+            "other way to tell them apart")
     return Sweep(
         path=source, sha256=sha256, branches=ordered, metadata=dict(metadata or {}),
         field_column=fcol, rows_read=int(field_raw.size), layout=notes,
