@@ -33,7 +33,11 @@ SI_CURRENT_LIMIT_A = 0.05
 
 def python_advice(message: str) -> str:
     """A reading message with its command-line options replaced by Python keywords."""
-    text = _OPTION.sub(lambda m: _KEYWORDS[m.group(0)], message)
+    # "--field-unit 'xyz'" reads "field_unit='xyz'" (a keyword with its value).
+    text = re.sub(rf"({_OPTION.pattern}) ('[^']*')",
+                  lambda m: _KEYWORDS[m.group(1)].removesuffix("...") + m.group(2)
+                  if _KEYWORDS[m.group(1)].endswith("=...") else m.group(0), message)
+    text = _OPTION.sub(lambda m: _KEYWORDS[m.group(0)], text)
     return text.replace(" pass ", " give ")
 
 

@@ -29,10 +29,11 @@ from .cli_options import (
     reading_parent,
     settings_from_args,
 )
+from .cli_parser import Parser
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = Parser(
         prog="jjpattern",
         description="Fit and diagnose critical current versus magnetic field of Josephson "
                     "junctions.",
@@ -239,11 +240,13 @@ def run_batch(args) -> int:
 
     if os.path.isdir(args.path):
         from .batch.sniff import starter_manifest
+        from .fmt import plural
 
         path, entries = starter_manifest(args.path)
-        print(f"wrote a starter manifest listing {len(entries)} inputs: {path}")
-        print("fill in the sizes (length and width across the field, in um) and, if you have "
-              f"them, chip, cooldown and positions; then run: jjpattern batch {path} --out DIR")
+        print(f"wrote a starter manifest listing {plural(len(entries), 'input')}: {path}")
+        print("fill in the sizes (length and width across the field, in um), the positions if "
+              "you have them, and any chip or cooldown the files' metadata did not give; then "
+              f"run: jjpattern batch {path} --out DIR")
         return EXIT_OK
     if not args.out:
         raise InputError(f"{args.path}: give the output folder with --out DIR")

@@ -218,6 +218,7 @@ def record_after_run(args, result, *, source_path=None, echo=print) -> None:
 def run_history(args) -> int:
     from .catalog.history import flat_rows, junction_history, rows_csv
     from .catalog.text import history_text
+    from .fmt import plural
     from .report.files import write_text
 
     if args.plot:
@@ -230,7 +231,7 @@ def run_history(args) -> int:
         print(_dump(history))
     elif args.csv:
         write_text(args.csv, rows_csv(flat_rows(history["records"])))
-        print(f"{len(history['records'])} records written to {args.csv}")
+        print(f"{plural(len(history['records']), 'record')} written to {args.csv}")
     else:
         print(history_text(history))
     if args.plot:
@@ -301,6 +302,7 @@ def _compare_csv(comparison) -> str:
 def run_init(args) -> int:
     from .catalog import open_catalog
     from .catalog.paths import configured_catalog
+    from .fmt import plural
 
     path, why = (os.path.expanduser(args.path), "given") if args.path else configured_catalog()
     if not args.path:
@@ -309,7 +311,8 @@ def run_init(args) -> int:
     with open_catalog(path) as catalog:
         info = catalog.info()
     state = "exists already" if existed else "made"
-    print(f"catalog {state}: {path} ({info['records']} records, layout {info['layout']})")
+    print(f"catalog {state}: {path} ({plural(info['records'], 'record')}, layout "
+          f"{info['layout']})")
     if args.path:
         print(f"record into it with --catalog {path}, or set JJPATTERN_CATALOG={path}")
     else:
@@ -320,6 +323,7 @@ def run_init(args) -> int:
 
 def run_where(args) -> int:
     from .catalog.paths import configured_catalog
+    from .fmt import plural
 
     path, why = configured_catalog()
     if os.path.isfile(path):
@@ -327,7 +331,7 @@ def run_where(args) -> int:
 
         with open_catalog(path, create=False) as catalog:
             info = catalog.info()
-        print(f"{path} ({why}; {info['records']} records, layout {info['layout']})")
+        print(f"{path} ({why}; {plural(info['records'], 'record')}, layout {info['layout']})")
     else:
         print(f"{path} ({why}; not made: `jjpattern catalog init` makes it, and until then "
               "results are recorded only with --catalog PATH)")
@@ -374,17 +378,19 @@ def run_show(args) -> int:
 
 def run_export(args) -> int:
     from .catalog.transfer import export_catalog
+    from .fmt import plural
 
     with _open(args) as catalog:
         n = export_catalog(catalog, args.out, tol=tolerances(args), chip=args.chip,
                            junction=args.junction, cooldown=args.cooldown)
-    print(f"{n} records written to {args.out}")
+    print(f"{plural(n, 'record')} written to {args.out}")
     return EXIT_OK
 
 
 def run_import(args) -> int:
     from .catalog import catalog_for_reading, open_catalog
     from .catalog.transfer import import_sources
+    from .fmt import plural
 
     labels = parse_labels(args.catalog_label)
     path = os.path.expanduser(args.catalog) if args.catalog else catalog_for_reading(None)
@@ -393,7 +399,7 @@ def run_import(args) -> int:
     for source, c in report.items():
         skipped = f", {c['skipped']} JSON files that are not results skipped" \
             if c["skipped"] else ""
-        print(f"{source}: {c['added']} records added, {c['present']} already present"
+        print(f"{source}: {plural(c['added'], 'record')} added, {c['present']} already present"
               f"{skipped}")
     print(f"catalog {path}")
     return EXIT_OK

@@ -93,6 +93,25 @@ class FitSettings:
         if not isinstance(self.model, str) or not self.model.strip():
             raise InputError(f"settings fit.model: {self.model!r} is not a model name; use "
                              "auto or a model such as rectangular")
+        from .physics.models import model_names
+
+        if self.model != "auto" and self.model not in model_names():
+            raise InputError(f"unknown model {self.model!r}: "
+                             + unknown_model_message(self.model).split("; ", 1)[1])
+
+
+def unknown_model_message(name) -> str:
+    """``"'fraunhofer' is not a model; use auto or one of rectangular, ... (rectangular is
+    the uniform junction's Fraunhofer pattern)"``, with the nearest name when one is close."""
+    import difflib
+
+    from .physics.models import model_names
+
+    names = model_names()
+    close = difflib.get_close_matches(str(name), names, n=1, cutoff=0.7)
+    hint = (f"did you mean {close[0]}?" if close
+            else "rectangular is the uniform junction's Fraunhofer pattern")
+    return f"{name!r} is not a model; use auto or one of {', '.join(names)} ({hint})"
 
 
 @dataclass(frozen=True)

@@ -92,7 +92,10 @@ def test_analyze_records_and_history_shows_the_change(tmp_path, capsys):
     assert ic0["significance_sigma"] > 20
     assert main(["compare", str(saved), "KT14-J03@CD-08", "--catalog", cat]) == 0
     text = capsys.readouterr().out
-    assert "ic0_A" in text and "DRIFT ic0-changed" in text
+    assert "DRIFT ic0-changed" in text
+    # Rows in words with their unit, read by the columns A, B and B - A alike.
+    ic0_row = next(line.split() for line in text.splitlines() if "Ic0 (µA)" in line)
+    assert ic0_row[2:5] == ["47.22", "±", "0.19"] and "ic0_A" not in text
 
 
 def _args(**kw):
@@ -117,7 +120,7 @@ def test_default_catalog_after_init_only(tmp_path, capsys):
     assert main(["catalog", "list", "records", "--json"]) == 0
     assert [r["id"] for r in json.loads(capsys.readouterr().out)] == [1]
     assert main(["catalog", "where"]) == 0
-    assert "1 records" in capsys.readouterr().out
+    assert "1 record," in capsys.readouterr().out
 
 
 def test_names_verbatim_and_helpful_errors(tmp_path, capsys):
@@ -177,3 +180,41 @@ def test_export_import_and_refusals(tmp_path, capsys):
     assert main(["compare", "nothing-here", "#1"]) == 2
     assert "no such file or folder" in capsys.readouterr().err
     assert not (tmp_path / "xdg").exists()  # nothing went to the default location
+
+
+def test_history_of_an_unrecorded_junction_names_the_catalog_and_what_it_holds(tmp_path,
+                                                                                capsys):
+    # The README's order: a result recorded in lab.sqlite, then a default catalog made.
+    cat = str(tmp_path / "lab.sqlite")
+    record_result(cat, result(junction="KT14-J05"))
+    assert main(["catalog", "init"]) == 0
+    capsys.readouterr()
+    assert main(["history", "KT14-J03"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "holds 0 records, none of junction 'KT14-J03'" in err
+    assert "`jjpattern catalog list junctions`" in err and "--catalog PATH" in err
+    assert main(["history", "KT14-J03", "--catalog", cat]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"jjpattern: {cat} holds 1 record, none of junction 'KT14-J03'; "
+                          "similar names: KT14-J05;")
+
+
+def test_compare_text_says_withheld_in_words():
+    from jjpattern.catalog.compare import compare_sides
+    from jjpattern.catalog.text import compare_text
+
+    def doc(**numbers):
+        fits = [{"branch": "positive", "model": "rectangular", **numbers}]
+        return {"J1": {"fits": fits}}
+
+    withheld = doc(ic0_A=None, period_T=None)
+    measured = doc(ic0_A=47e-6, ic0_stderr_A=0.2e-6, period_T=0.731e-3,
+                   period_stderr_T=1e-6)
+    text = compare_text(compare_sides(withheld, withheld))
+    assert "positive branch (rectangular): numbers withheld in both" in text
+    assert "relative" not in text  # no empty table
+    rows = compare_text(compare_sides(measured, withheld)).splitlines()
+    assert rows[-2].split() == ["Ic0", "(µA)", "47.00", "±", "0.20", "withheld", "-", "-",
+                                "-"]
+    assert rows[-1].split() == ["period", "(mT)", "0.7310", "±", "0.0010", "withheld", "-",
+                                "-", "-"]

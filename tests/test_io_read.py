@@ -118,7 +118,7 @@ def test_load_and_load_map_force_the_kind(tmp_path):
     sweep = load(tmp_path / "s.csv", ic_cols=["Ic"])
     assert sweep.branches[0].field_T[-1] == pytest.approx(b[-1] * 1e-3)
     _map_h5(tmp_path / "m.h5", np.arange(3.0), np.arange(4.0), np.zeros((3, 4)))
-    assert load_map(tmp_path / "m.h5", ReadSettings(signal_unit="mV")).signal.shape == (3, 4)
+    assert load_map(tmp_path / "m.h5", ReadSettings(signal_unit="uV")).signal.shape == (3, 4)
     with pytest.raises(InputError, match="is a folder, not a sweep file"):
         load(tmp_path)
 

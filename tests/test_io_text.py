@@ -46,7 +46,8 @@ def reference(text, source="f"):
         if delim is not None and len(cells) == len(names) + 1 and cells[-1] == "":
             cells.pop()
         if len(cells) != len(names):
-            return (f"{source}: line {k + 1} has {len(cells)} fields but the header has "
+            word = "field" if len(cells) == 1 else "fields"
+            return (f"{source}: line {k + 1} has {len(cells)} {word} but the header has "
                     f"{len(names)}; fix or delete that row")
         rows.append((k + 1, cells))
     if not rows:
@@ -131,7 +132,7 @@ def test_non_number_named_by_file_line_and_column(tmp_path):
 
 
 @pytest.mark.parametrize(("body", "message"), [
-    ("1,2\n3\n", "line 3 has 1 fields but the header has 2"),
+    ("1,2\n3\n", "line 3 has 1 field but the header has 2"),
     ("1,2\n3,4,5\n", "line 3 has 3 fields but the header has 2"),
     ("1,2,3\n3,4\n", "line 2 has 3 fields but the header has 2"),
     ("\n\n", "no data rows"),

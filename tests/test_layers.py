@@ -16,7 +16,7 @@ TIERS = {
     "fit": 1, "extract": 1, "diagnose": 1,
     "pipeline": 2, "report": 2, "batch": 2, "catalog": 2,
     "api": 2,
-    "cli": 3, "cli_catalog": 3, "cli_exit": 3, "cli_options": 3, "demo": 3,
+    "cli": 3, "cli_catalog": 3, "cli_exit": 3, "cli_options": 3, "cli_parser": 3, "demo": 3,
 }
 
 

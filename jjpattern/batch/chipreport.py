@@ -3,7 +3,7 @@
 The page is self-contained like the junction report (figures embedded as PNG,
 no scripts, fonts or network; every user string escaped). Its junction tables
 are sorted without scripts: one table lists the junctions that need a look
-first (failed, then outliers by their deviation, then flagged), the other every
+first (failed or withheld, then outliers by their deviation, then flagged), the other every
 junction in natural order of its id.
 """
 
@@ -161,7 +161,7 @@ def _junction_rows(part, trends, out_dir: str, reports: bool) -> list[dict]:
                                      _value(r["field_offset_stderr_T"]), FIELD_UNITS)
             if _value(r["field_offset_T"]) is not None else "",
             "outlier": bool(t["outlier_ic0"] or t["outlier_period"]),
-            "notes": r["error"] if r["status"] != "ok" else "; ".join(r["flags"]),
+            "notes": r["error"] if r["status"] == "failed" else "; ".join(r["flags"]),
             "flagged": bool(r["flags"]),
         })
     return out

@@ -1,10 +1,10 @@
 """Chip-level numbers from per-junction results: magnetic thickness, Jc, linewidth offset, outliers.
 
 Input: a table (``pandas.DataFrame`` or anything it accepts) with one row per
-junction: ``junction``, ``chip``, ``status`` (``"ok"`` when analysed), ``ic0_A``,
-``ic0_stderr_A``, ``period_T``, ``period_stderr_T``, ``length_m`` (across the
-field), ``width_m``, ``area_m2``, optional ``x``, ``y``, ``field_offset_T`` and
-``flags`` (codes). Missing columns count as empty. Output: JSON-ready dicts,
+junction: ``junction``, ``chip``, ``status`` (``"ok"``; ``"withheld"``: analysed, numbers
+null; ``"failed"``), ``ic0_A``, ``ic0_stderr_A``, ``period_T``, ``period_stderr_T``,
+``length_m`` (across the field), ``width_m``, ``area_m2``, optional ``x``, ``y``,
+``field_offset_T`` and ``flags`` (codes). Missing columns count as empty. Output: JSON-ready dicts,
 every key with its unit, ``None`` with a reason where the data do not fix a number.
 """
 
@@ -314,10 +314,13 @@ def chip_summary(table, *, outlier_sigma: float = OUTLIER_SIGMA) -> dict:
     """
     c = _columns(table)
     ok = c["ok"]
+    # Withheld junctions were analysed (their numbers are null); only "failed" ones were not.
+    failed = np.array([s.lower() == "failed" for s in c["status"]], dtype=bool)
     has_ic = ok & (c["ic0_A"] > 0) & (_areas(c, None) > 0)
     out: dict = {"chip": c["chip"][0] if c["chip"] else "",
-                 "junctions_total": int(ok.size), "junctions_analysed": int(ok.sum()),
-                 "junctions_failed": int((~ok).sum()),
+                 "junctions_total": int(ok.size),
+                 "junctions_analysed": int(ok.size - failed.sum()),
+                 "junctions_failed": int(failed.sum()),
                  "status_counts": dict(sorted(Counter(c["status"]).items())),
                  "junctions_with_ic0": int(has_ic.sum()),
                  "junctions_with_period": int((ok & (c["period_T"] > 0)).sum())}

@@ -19,6 +19,7 @@ import time
 from dataclasses import dataclass, field
 
 from ..errors import InputError
+from ..fmt import plural
 from . import worker
 
 RESULTS, REPORTS, CHIPS = "results", "reports", "chips"
@@ -48,9 +49,9 @@ class BatchOutcome:
     errors: dict = field(default_factory=dict)
 
     def last_line(self) -> str:
-        return (f"{self.total} junctions: {self.analysed} analysed ({self.skipped} already "
-                f"done), {self.flagged} flagged, {self.failed} failed; wall time "
-                f"{self.seconds:.1f} s")
+        return (f"{plural(self.total, 'junction')}: {self.analysed} analysed "
+                f"({self.skipped} already done), {self.flagged} flagged, {self.failed} failed; "
+                f"wall time {self.seconds:.1f} s")
 
 
 def result_stem(chip, junction, cooldown) -> str:

@@ -18,13 +18,40 @@ def _natural(text: str):
     return [int(p) if p.isdigit() else p.lower() for p in re.split(r"(\d+)", text)]
 
 
+def file_labels(path: str) -> dict:
+    """``junction``, ``chip`` and ``cooldown`` as the file's own metadata gives them
+    (``# chip: KT-14`` lines of a text file, root attributes of an HDF5 file); ``{}``
+    for other files, folders, or a file that cannot be read."""
+    labels = {}
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(1 << 16)
+        if head.startswith(b"\x89HDF\r\n\x1a\n"):
+            import h5py
+
+            from ..io.hdf5 import _metadata
+
+            with h5py.File(path, "r") as handle:
+                labels = _metadata(handle.attrs)
+        elif b"\x00" not in head:
+            from ..io.text import _head
+
+            text = head.decode("utf-8-sig", errors="replace").replace("\r\n", "\n")
+            labels = _head(text, path)[0]
+    except (OSError, InputError, ValueError):
+        return {}  # the manifest then leaves the cells for the user to fill in
+    return {k: str(labels[k]).strip() for k in ("junction", "chip", "cooldown")
+            if str(labels.get(k) or "").strip()}
+
+
 def write_starter_manifest(folder, out_path, can_read) -> list[str]:
     """Write a manifest listing every readable file or folder under ``folder``.
 
     A folder that ``can_read`` accepts (a folder of I-V files) is listed as one
     entry; other folders are searched. Paths are relative to the manifest, in
-    natural order (``j2`` before ``j10``); ``junction`` is guessed from the
-    name, and the size and position columns are left empty to fill in.
+    natural order (``j2`` before ``j10``); ``junction``, ``chip`` and
+    ``cooldown`` come from the file's metadata (the junction guessed from the name
+    without it), and the size and position columns are left empty to fill in.
 
     Parameters
     ----------
@@ -77,6 +104,13 @@ def write_starter_manifest(folder, out_path, can_read) -> list[str]:
     with atomic_file(out_path) as handle:
         writer = csv.writer(handle)
         writer.writerow(HEADER)
-        for rel, stem in zip(relative, stems, strict=True):
-            writer.writerow([rel, stem] + [""] * (len(HEADER) - 2))
+        labels = [file_labels(p) if os.path.isfile(p) else {} for p in found]
+        names = [lab.get("junction", stem) for lab, stem in zip(labels, stems, strict=True)]
+        keys = [(lab.get("chip"), name, lab.get("cooldown"))
+                for lab, name in zip(labels, names, strict=True)]
+        if len(set(keys)) < len(keys):  # one junction measured twice: the manifest needs
+            names = stems                # one row per junction, so keep the file names
+        for rel, name, lab in zip(relative, names, labels, strict=True):
+            writer.writerow([rel, name, lab.get("chip", ""), lab.get("cooldown", "")]
+                            + [""] * (len(HEADER) - 4))
     return relative

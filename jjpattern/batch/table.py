@@ -51,10 +51,17 @@ def result_rows(result, cells: dict) -> list[dict]:
     geometry = result.geometry or {}
     geo_numbers = {k: v for k, v in geometry.items() if k not in ("inputs", "branch")}
     icrn = {k: (result.icrn or {}).get(k) for k in ICRN_KEYS} if result.icrn else {}
+    metadata = result.input.get("metadata") or {}
+    # The file's own chip and cooldown lines fill what the manifest leaves blank.
+    cells = {**cells, **{k: str(metadata[k]) for k in ("chip", "cooldown")
+                         if not cells.get(k) and metadata.get(k)}}
     rows = []
     for fit in result.fits:
-        codes = sorted({f.code for f in result.flags if f.branch in (None, fit.branch)})
-        row = {**cells, "branch": fit.branch, "status": "ok", "error": "",
+        mine = [f for f in result.flags if f.branch in (None, fit.branch)]
+        codes = sorted({f.code for f in mine})
+        # An error flag means the analysis withheld the branch's headline numbers: not "ok".
+        status = "withheld" if any(f.severity == "error" for f in mine) else "ok"
+        row = {**cells, "branch": fit.branch, "status": status, "error": "",
                "flags": ";".join(codes), **fit.numbers(), **icrn}
         if geometry.get("branch") == fit.branch:
             row.update(geo_numbers)

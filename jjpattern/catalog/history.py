@@ -8,6 +8,7 @@ import io
 from dataclasses import asdict
 
 from ..errors import InputError
+from ..fmt import plural
 from .drift import DEFAULT_TOLERANCES, Tolerances, chip_drift, junction_drift
 from .store import in_order
 
@@ -28,7 +29,10 @@ def choose_chip(catalog, junction: str, chip: str | None) -> str:
     if not chips:
         close = difflib.get_close_matches(junction, catalog.names("junction"), n=4)
         hint = f"; similar names: {', '.join(close)}" if close else ""
-        raise InputError(f"{catalog.path}: no records of junction {junction!r}{hint}")
+        held = plural(catalog.info()["records"], "record")
+        raise InputError(f"{catalog.path} holds {held}, none of junction {junction!r}{hint}; "
+                         "`jjpattern catalog list junctions` shows the recorded names, and "
+                         "--catalog PATH reads another catalog")
     if chip is None:
         if len(chips) > 1:
             shown = ", ".join(repr(c) if c else "(no chip)" for c in chips)

@@ -2,9 +2,20 @@
 
 from __future__ import annotations
 
+from ..fmt import key_unit
 from ..report.display import AREA_UNITS, CURRENT_UNITS, FIELD_UNITS, format_measure, pick_unit
 
 _UNITS = {"A": CURRENT_UNITS, "T": FIELD_UNITS, "m2": AREA_UNITS}
+
+
+#: Words for the numbers compared; the unit follows in brackets ("Ic0 (µA)").
+_WORDS = {"ic0_A": "Ic0", "period_T": "period", "field_offset_T": "field offset",
+          "effective_area_m2": "effective area", "node_floor_A": "node floor"}
+
+
+def _label(quantity: str, unit: str) -> str:
+    words = _WORDS.get(quantity) or key_unit(quantity)[0]
+    return f"{words} ({unit})" if unit else words
 
 
 def _cell(value, err, unit) -> str:
@@ -108,20 +119,24 @@ def compare_text(comparison: dict) -> str:
             models = (b["model_a"] if b["model_a"] == b["model_b"]
                       else f"models differ: {b['model_a']} / {b['model_b']}, not compared")
             lines.append(f"  {b['branch']} branch ({models})")
+            numbers = [n for n in b["numbers"] if n["a"] is not None or n["b"] is not None]
+            if not numbers:
+                lines[-1] += ": numbers withheld in both"
+                continue
+            withheld = {side: all(n[side] is None for n in numbers) for side in ("a", "b")}
             rows = []
-            for n in b["numbers"]:
-                if n["a"] is None and n["b"] is None:
-                    continue
+            for n in numbers:
                 units = _UNITS.get(n["quantity"].rsplit("_", 1)[-1])
                 unit = (pick_unit(abs(n["a"] or n["b"]), units) if units else ("", 1.0))
                 rel = n.get("relative_change")
-                rows.append([n["quantity"], _cell(n["a"], n["a_stderr"], unit),
-                             _cell(n["b"], n["b_stderr"], unit),
-                             _cell(n["difference"], n["difference_stderr"], unit) + (
-                                 f" {unit[0]}" if n["difference"] is not None else ""),
-                             "-" if rel is None else f"{100 * rel:+.2f} %",
-                             "-" if n["significance_sigma"] is None
-                             else f"{n['significance_sigma']:.1f}"])
+                rows.append([_label(n["quantity"], unit[0])]
+                            + ["withheld" if withheld[side]
+                               else _cell(n[side], n[f"{side}_stderr"], unit)
+                               for side in ("a", "b")]
+                            + [_cell(n["difference"], n["difference_stderr"], unit),
+                               "-" if rel is None else f"{100 * rel:+.2f} %",
+                               "-" if n["significance_sigma"] is None
+                               else f"{n['significance_sigma']:.1f}"])
             lines += ["    " + s for s in _table(["number", "A", "B", "B - A", "relative",
                                                    "sigma"], rows)]
         for f in j["drift"]:

@@ -21,7 +21,13 @@ from ..errors import InputError
 from ..settings import ReadSettings
 from .limits import check_current, check_field, check_signal, clip, names_list, real, scaled
 from .sweep import field_values_T, is_field_name, numeric, role_key
-from .units import current_factor, resistance_factor, split_header, voltage_factor
+from .units import (
+    current_factor,
+    given_unit,
+    resistance_factor,
+    split_header,
+    voltage_factor,
+)
 
 _BIAS_NAMES = {"i", "bias", "i_bias", "ibias", "current", "i_dc", "idc", "i_set", "iset"}
 _VOLTAGE_NAMES = {"v", "voltage", "vdc", "v_dc", "u", "v_meas"}
@@ -116,8 +122,8 @@ def choose_kind(kind: str, settings: ReadSettings, looks_like_a_map: bool) -> st
     return "map" if looks_like_a_map else "sweep"
 
 
-def _units(unit_of, name, given, source, what, option):
-    unit = given or unit_of(name)
+def _units(unit_of, name, given, source, what, option, coil=False):
+    unit = given_unit(given, unit_of(name), f"{source}: {what} {clip(name)}", option, coil)
     if not unit:
         raise InputError(f"{source}: {what} {clip(name)} has no unit; add one or pass {option}")
     return unit
@@ -140,7 +146,8 @@ def from_long_table(columns: dict, *, source, sha256, metadata,
     bcol = pick_column(names, "bias", settings.bias_col, source, "bias column")
     scol = pick_column(names, "signal", settings.signal_col, source, "voltage or dV/dI column")
     unit_of = lambda n: split_header(n)[1]  # noqa: E731
-    f_unit = _units(unit_of, fcol, settings.field_unit, source, "column", "--field-unit")
+    f_unit = _units(unit_of, fcol, settings.field_unit, source, "column", "--field-unit",
+                    settings.coil_T_per_A is not None)
     b_unit = _units(unit_of, bcol, settings.current_unit, source, "column", "--current-unit")
     s_unit = _units(unit_of, scol, settings.signal_unit, source, "column", "--signal-unit")
     kind = _signal_kind(scol, s_unit)
@@ -239,7 +246,7 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
                          f"{sig.shape}; they must match")
     where = f"{source}: dataset"
     f_unit = _units(units.get, names["field"], settings.field_unit, source, "dataset",
-                    "--field-unit")
+                    "--field-unit", settings.coil_T_per_A is not None)
     b_unit = _units(units.get, names["bias"], settings.current_unit, source, "dataset",
                     "--current-unit")
     s_unit = _units(units.get, names["signal"], settings.signal_unit, source, "dataset",

@@ -16,11 +16,19 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
+from ..fmt import plural
 from ..sampling import tidy
 from ..settings import ReadSettings
 from .layout import MIN_POINTS, field_window, run_labels, signed_split, sweep_runs
 from .limits import check_current, check_field, check_rows, clip, names_list, scaled
-from .units import current_factor, field_factor, split_header
+from .units import (
+    FIELD_UNITS,
+    current_factor,
+    field_factor,
+    given_unit,
+    normalise_unit,
+    split_header,
+)
 
 _FIELD_NAMES = {
     "b", "h", "bz", "hz", "b_z", "h_z", "field", "bfield", "b_field", "hfield", "h_field",
@@ -162,6 +170,9 @@ def field_values_T(raw, unit, where, coil_T_per_A=None) -> np.ndarray:
     path, _, label = where.partition(": ")
     if coil_T_per_A is None:
         return scaled(raw, field_factor(unit, where), path, label)
+    if normalise_unit(unit) in FIELD_UNITS:
+        raise InputError(f"{where} is already a field (in {unit.strip()}); --coil-constant is "
+                         "for a magnet-current axis (e.g. 'I_magnet (A)'), so leave it out")
     return scaled(raw, current_factor(unit, where) * coil_T_per_A, path, label)
 
 
@@ -223,7 +234,9 @@ def build_sweep(
     check_rows(source, shapes[fcol][0] if shapes else 0 if isinstance(first, str)
                else len(first), settings)
     field_raw = numeric(columns, fcol, where)
-    f_unit = settings.field_unit or units.get(fcol) or split_header(fcol)[1]
+    f_unit = given_unit(settings.field_unit, units.get(fcol) or split_header(fcol)[1],
+                        f"{source}: {where} {clip(fcol)}", "--field-unit",
+                        coil=settings.coil_T_per_A is not None)
     if not f_unit:
         raise InputError(
             f"{source}: {where} {clip(fcol)} has no unit; write it as 'B (mT)' or pass --field-unit"
@@ -246,7 +259,8 @@ def build_sweep(
     aside_total = 0
     for col in icols:
         raw = numeric(columns, col, where)
-        c_unit = settings.current_unit or units.get(col) or split_header(col)[1]
+        c_unit = given_unit(settings.current_unit, units.get(col) or split_header(col)[1],
+                            f"{source}: {where} {clip(col)}", "--current-unit")
         if not c_unit:
             raise InputError(
                 f"{source}: {where} {clip(col)} has no unit; write it as 'Ic (uA)' or pass "
@@ -272,8 +286,9 @@ def build_sweep(
     merged = sum(b.duplicates_merged for b in ordered)
     if merged:
         notes["duplicates_averaged"] = (
-            f"{merged} points at a field already measured in the same branch and sweep "
-            "direction were averaged with it: the file gives no other way to tell them apart")
+            f"{plural(merged, 'point')} at a field already measured in the same branch and sweep "
+            f"direction {'was' if merged == 1 else 'were'} averaged with it: the file gives no "
+            "other way to tell them apart")
     return Sweep(
         path=source, sha256=sha256, branches=ordered, metadata=dict(metadata or {}),
         field_column=fcol, rows_read=int(field_raw.size), layout=notes,

@@ -19,6 +19,7 @@ import re
 import numpy as np
 
 from ..errors import InputError
+from ..fmt import plural
 from . import regional
 from .limits import check_points, check_rows, clip
 from .maps import choose_kind, from_long_table, looks_like_map
@@ -351,8 +352,9 @@ class _Rows:
                 raise InputError(regional.ambiguous_comma_message(self.source, number,
                                                                   len(cells), n))
             if len(cells) != n:
-                raise InputError(f"{self.source}: line {number} has {len(cells)} fields but "
-                                 f"the header has {n}; fix or delete that row")
+                raise InputError(f"{self.source}: line {number} has "
+                                 f"{plural(len(cells), 'field')} but the header has {n}; "
+                                 "fix or delete that row")
 
     def _numbers(self, cells, name):
         """Floats of a column read as text, or the message about its first non-number."""

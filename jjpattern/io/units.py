@@ -25,6 +25,13 @@ FIELD_UNIT_HELP = "T, mT, uT, nT, G or Oe"
 CURRENT_UNIT_HELP = "A, mA, uA, nA or pA"
 VOLTAGE_UNIT_HELP = "V, mV, uV or nV"
 RESISTANCE_UNIT_HELP = "Ohm, kOhm or mOhm"
+#: What each unit option names: the units it takes, their kind, and the list shown.
+_OPTION_UNITS = {
+    "--field-unit": (FIELD_UNITS, "field", FIELD_UNIT_HELP),
+    "--current-unit": (CURRENT_UNITS, "current", CURRENT_UNIT_HELP),
+    "--signal-unit": ({**VOLTAGE_UNITS, **RESISTANCE_UNITS}, "voltage or dV/dI",
+                      f"{VOLTAGE_UNIT_HELP}, or {RESISTANCE_UNIT_HELP} for dV/dI"),
+}
 
 _MICRO = str.maketrans({"\u00b5": "u", "\u03bc": "u"})
 _BRACKETED = re.compile(r"^(?P<name>.*?)\s*[\(\[](?P<unit>[^\)\]]*)[\)\]]\s*$")
@@ -64,6 +71,31 @@ def factor(unit: str, table: dict, what: str, where: str, help_text: str, option
             f"{where}: unknown {what} unit {clip(unit)}; use {help_text}, or pass {option}"
         )
     return table[key]
+
+
+def given_unit(given, found, where: str, option: str, coil: bool = False):
+    """The unit a column is read in: ``given`` by ``option`` when set, else ``found`` in
+    the file (header, units row or attribute); ``None`` when neither is there.
+
+    A unit given by an option that the file contradicts (``--field-unit G`` on ``B (mT)``)
+    is refused rather than obeyed: a factor of ten in the period is too quiet a mistake.
+    ``coil`` says the field column holds a magnet current (``--coil-constant``).
+    """
+    if not given:
+        return found
+    table, what, help_text = _OPTION_UNITS[option]
+    if coil and option == "--field-unit":
+        table, what, help_text = CURRENT_UNITS, "magnet-current", CURRENT_UNIT_HELP
+    key = normalise_unit(given)
+    if key not in table:
+        raise InputError(f"{option} {clip(given)}: not a {what} unit; use {help_text}")
+    had = normalise_unit(found) if found else None
+    if had in table and table[had] != table[key]:
+        # Both are known units here, short enough to show as they are.
+        raise InputError(f"{where} is in {found.strip()} by the file, but {option} says "
+                         f"{given.strip()}; leave {option} out to read {found.strip()}, or "
+                         f"correct the unit in the file if the values are in {given.strip()}")
+    return given
 
 
 def field_factor(unit: str, where: str) -> float:
