@@ -71,12 +71,13 @@ def layout_lines(info: dict) -> list[str]:
             lo, hi = window["field_range_T"]
             ends = (f"from {_length(lo)}" if lo is not None else "") + (
                 f"{' ' if lo is not None else ''}up to {_length(hi)}" if hi is not None else "")
-            out.append(f"Field range {ends}: {window['points_outside_range']} points outside "
-                       "left out.")
+            out.append(f"Field range {ends}: {plural(window['points_outside_range'], 'row')} "
+                       "outside left out (a row is one field value with every branch on it).")
         for lo, hi in window.get("exclude_T", []):
             out.append(f"Excluded by hand: {_length(lo)} to {_length(hi)}.")
         if window.get("exclude_T"):
-            out.append(f"{window['points_excluded']} points lay in the excluded intervals.")
+            out.append(f"{plural(window['points_excluded'], 'row')} in the excluded intervals "
+                       "left out.")
     if layout.get("duplicates_averaged"):
         out.append(layout["duplicates_averaged"][0].upper() + layout["duplicates_averaged"][1:]
                    + ".")
