@@ -124,8 +124,9 @@ def _choice_words(choice: dict, short: bool = False) -> str:
             f"{len(choice['candidates'])} models"
             + (f", summed over {choice['branches']} branches" if together else "") + ": ")
     margin = choice["margin"]
-    aside = "".join(f"; {a['model']} set aside ({a['reason']})"
-                    for a in choice.get("set_aside") or [])
+    aside = choice.get("set_aside") or []
+    aside = ("; set aside as not describing the data: " + ", ".join(map(_aside_words, aside))
+             if aside else "")
     if choice["decision"] == "none fits":
         what = "the branches together" if together else "the data"
         return (f"{text}no model describes {what}, so the reference {chosen} model is "
@@ -142,6 +143,16 @@ def _choice_words(choice: dict, short: bool = False) -> str:
                 f"{margin:g}, so the simpler {chosen} model is reported{aside}")
     return (f"{text}near tie between {chosen} and {runner} ({diff:+.1f}, margin "
             f"{margin:g}); the simpler {chosen} model is reported{aside}")
+
+
+def _aside_words(entry: dict) -> str:
+    """One set-aside model with its evidence, short (the block's ``reason`` is the long
+    form)."""
+    if "shape parameter" in entry["reason"]:
+        return f"{entry['model']} (reduced chi-square {entry['reduced_chisq']:.3g})"
+    ratio = entry.get("residual_runs_ratio")
+    return (f"{entry['model']} (residual sign runs z = {entry['residual_runs_z']:.1f}"
+            + (f", {ratio:.2f} of those expected" if ratio is not None else "") + ")")
 
 
 #: Names for people of the numbers models derive (others: the key in words).
