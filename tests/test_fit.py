@@ -157,6 +157,13 @@ def test_robust_loss_resists_premature_switching():
                 assert fit.ic0_A is None and fit.period_T is None and "poor-fit" in codes
                 errors[loss].append(abs(fit.best_params["ic0_A"] / case.ic0_A - 1))
                 continue
+            if loss == "soft_l1" and fit.ic0_A is None:
+                # soft_l1 still leans on the glitches (its weight falls as 1/|r|): where the
+                # rest then misses the data by more than the noise allows under that loss,
+                # its numbers are withheld; its trial Ic0 shows the pull.
+                assert "poor-fit" in codes
+                errors[loss].append(abs(fit.best_params["ic0_A"] / case.ic0_A - 1))
+                continue
             errors[loss].append(abs(fit.ic0_A / case.ic0_A - 1))
             assert fit.points_downweighted >= 15
             assert "outliers-downweighted" in codes

@@ -22,69 +22,37 @@ simpler model."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
 from ..physics.models import get_model, model_names
 from .far import far_lobe_start, periodic_candidate
-from .lsq import Units, full_params, robust_weight, solve
-from .outcome import POOR_FIT_REDCHI
+from .lsq import Units, expected_weighted_chisq, full_params, robust_weight, solve
 from .runs import runs_ratio, runs_z
 from .scan import scan_pattern
 from .starts import rival_start, shape_start
+from .verdict import (
+    CRITERION,
+    DESCRIBES_REDCHI,
+    MARGIN,
+    RUNS_RATIO,
+    RUNS_Z,
+    Trial,
+    decide,
+    describes,
+    joint_choice,
+)
 
 __all__ = ["CRITERION", "DESCRIBES_REDCHI", "MARGIN", "RUNS_RATIO", "RUNS_Z", "ModelChoice",
            "Trial", "choose_model", "joint_choice", "quick_fit", "trial_fit"]
 
-#: BIC difference that makes a choice clear (Kass and Raftery 1995: "very strong").
-MARGIN = 10.0
-CRITERION = "BIC"
-#: A model with a free shape parameter (L / lambda_J, a channel asymmetry) is chosen only
-#: where it describes the data: reduced chi-square against the model-free noise at most
-#: this. Such a model can bend towards a pattern it does not describe (a Gaussian current
-#: profile fits a long overlap junction at L / lambda_J = 11 to a reduced chi-square of 3)
-#: and then names physics the junction need not have; the rectangle's departures are read
-#: by the diagnostics instead. Below it, rivals also need no scans of their own.
-DESCRIBES_REDCHI = 2.0
-#: A model other than the reference is chosen only where the signs of its residuals in field
-#: order pass the runs test (``runs.py``) at this one-sided normal score: a model that bends
-#: towards a pattern it does not describe leaves long runs of one sign (a Gaussian current
-#: profile fitted as a long overlap junction at 2.5 % noise: z = -7; the right model: |z| < 2).
-RUNS_Z = 4.0
-#: ... and where it finds materially fewer runs than expected, this fraction (a Gaussian
-#: profile as a long overlap junction: about 0.7; a disc with a tenth of a rectangle mixed
-#: in, on ten thousand points: 0.92, though z = -8).
-RUNS_RATIO = 0.85
 #: Rivals are first fitted on about this many points (every k-th) ...
 _SCREEN_POINTS = 250
 #: ... and left there when that fit (with the floor decided on the subset), evaluated on all
 #: points, stays this far (BIC, noise units) above the reference: twenty margins, where the
 #: subset fit's distance from the least chi-square on all points (a few units) cannot matter.
 SCREEN_BIC = 200.0
-
-
-@dataclass
-class Trial:
-    """One model's quick fit: its parameters, chi-square over the noise and BIC."""
-
-    name: str
-    params: dict
-    chisq_over_noise: float
-    parameters: int
-    floor: bool
-    bic: float = np.inf
-    at_limit: list = field(default_factory=list)
-    points: int = 0
-    shaped: bool = False
-    runs_z: float = 0.0
-    runs_ratio: float = 1.0
-    screened: int = 0
-
-    @property
-    def reduced_chisq(self) -> float:
-        """Chi-square over the noise per degree of freedom."""
-        return self.chisq_over_noise / max(self.points - self.parameters, 1)
 
 
 @dataclass
@@ -305,94 +273,6 @@ def _walk_lobes(spec, x, y, params, chisq, k, floor, loss, f_scale, max_steps=3)
     return best
 
 
-def _simplicity(trial: Trial, order: dict):
-    return trial.parameters, order.get(trial.name, len(order))
-
-
-def _decide(trials, order):
-    """Sort ``trials`` by BIC; the simplest within the margin of the lowest is chosen,
-    unless it is not the reference and does not describe the data (``_unlike``: a shape
-    parameter with a reduced chi-square above ``DESCRIBES_REDCHI``, or residual signs that
-    fail the runs test): then it is set aside and the choice made among the rest.
-
-    Where the model so chosen misses the data (reduced chi-square above
-    ``POOR_FIT_REDCHI``, where its numbers would be withheld), the reference model (first
-    in ``order``) is reported instead and the decision is ``"none fits"``.
-
-    Returns ``(chosen, verdict)``, the verdict being the block's keys from ``chosen`` to
-    ``set_aside``.
-    """
-    trials.sort(key=lambda t: t.bic)
-    set_aside, rest = [], list(trials)
-    while True:
-        lowest = rest[0]
-        within = [t for t in rest if t.bic - lowest.bic < MARGIN]
-        chosen = min(within, key=lambda t: _simplicity(t, order))
-        reason = _unlike(chosen, order)
-        if reason is None or len(rest) == 1:
-            break
-        set_aside.append((chosen, reason))
-        rest.remove(chosen)
-    decision = ("clear" if chosen is lowest and (len(rest) == 1 or sorted(
-        t.bic for t in rest)[1] - chosen.bic >= MARGIN) else "near tie")
-    # Where no model describes the data, none is named: the reference (the simplest, the
-    # uniform junction) is reported, its numbers withheld as a poor fit, and its
-    # departures read by the diagnostics.
-    reference = min(trials, key=lambda t: order.get(t.name, len(order)))
-    if chosen.reduced_chisq > POOR_FIT_REDCHI:
-        chosen, decision = reference, "none fits"
-    aside = [t for t, _ in set_aside]
-    runner = next((t for t in trials if t is not chosen and t not in aside), None)
-    return chosen, {
-        "chosen": chosen.name,
-        "lowest_criterion": rest[0].name,
-        "runner_up": None if runner is None else runner.name,
-        "criterion_difference": None if runner is None else float(runner.bic - chosen.bic),
-        "decision": decision,
-        "candidates": [{"model": t.name, "bic": float(t.bic),
-                        "delta_bic": float(t.bic - trials[0].bic),
-                        "chisq_over_noise": float(t.chisq_over_noise),
-                        "reduced_chisq": float(t.reduced_chisq),
-                        "parameters": t.parameters, "node_floor": t.floor,
-                        "shape_parameter": t.shaped, "residual_runs_z": float(t.runs_z),
-                        "residual_runs_ratio": float(t.runs_ratio),
-                        "screened_every": t.screened or None}
-                       for t in trials],
-        "set_aside": [{"model": t.name, "reduced_chisq": float(t.reduced_chisq),
-                       "residual_runs_z": float(t.runs_z),
-                       "residual_runs_ratio": float(t.runs_ratio), "reason": reason}
-                      for t, reason in set_aside],
-    }
-
-
-def _describes(trial) -> bool:
-    """Whether a trial describes the data: reduced chi-square at most
-    ``DESCRIBES_REDCHI`` and residual signs without material structure."""
-    return trial.reduced_chisq <= DESCRIBES_REDCHI and not _structured(trial)
-
-
-def _structured(trial) -> bool:
-    """Residual signs in field order that are both significantly (runs test z below
-    ``-RUNS_Z``) and materially (fewer than ``RUNS_RATIO`` of the expected runs) too
-    few: a significance alone grows with the square root of the points and would, on
-    ten thousand points, reject a model for a mismatch of a percent."""
-    return trial.runs_z < -RUNS_Z and trial.runs_ratio < RUNS_RATIO
-
-
-def _unlike(trial, order):
-    """Why a model other than the reference does not describe the data, or ``None``."""
-    if order.get(trial.name, len(order)) == 0:
-        return None
-    if trial.shaped and trial.reduced_chisq > DESCRIBES_REDCHI:
-        return (f"its shape parameter lets it bend towards data it does not describe "
-                f"(reduced chi-square {trial.reduced_chisq:.3g} above {DESCRIBES_REDCHI:g})")
-    if _structured(trial):
-        return (f"its residuals run in long stretches of one sign (runs test z = "
-                f"{trial.runs_z:.1f}, below -{RUNS_Z:g}; {trial.runs_ratio:.2f} of the "
-                f"expected runs, below {RUNS_RATIO:g})")
-    return None
-
-
 def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
                  floor_dchi2=10.0, min_nodes=2) -> ModelChoice | None:
     """Quick-fit every model in ``names`` (default: all registered) and pick one by BIC.
@@ -409,6 +289,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     units = Units.of(x, y)
     noise_A, x, y, noise = noise, units.field(x), y / units.scale_A, noise / units.scale_A
     scans = _Scans(x, y)
+    gof_scale = expected_weighted_chisq(loss, 2.0)
 
     def run(name, start=None):
         beat = None if start is None or reference is None else reference.bic
@@ -422,6 +303,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
             return None
         trial.bic = trial.chisq_over_noise + trial.parameters * np.log(x.size)
         trial.shaped = bool(get_model(name).extra)
+        trial.gof_scale = gof_scale
         return trial
 
     reference = None
@@ -440,7 +322,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     starts = f"from the {names[0]} fit (periodic models from their own scan)"
     # Where no model describes the data from those starts (a periodic pattern is not placed
     # by the rectangle's fit, for one), every rival gets its own scan too.
-    if reference is None or not any(_describes(t) for t in found.values()
+    if reference is None or not any(describes(t) for t in found.values()
                                     if t is not None and not t.at_limit):
         starts = "from the reference fit and from each model's own scan"
         for name in names[1:]:
@@ -455,43 +337,8 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
     trials = [t for t in trials if not t.at_limit]
     if not trials:
         return None
-    chosen, verdict = _decide(trials, order)
+    chosen, verdict = decide(trials, order)
     block = {"criterion": CRITERION, "margin": MARGIN, "noise_A": float(noise_A),
-             "points": int(x.size), "rival_starts": starts, **verdict, "excluded": excluded}
+             "points": int(x.size), "chisq_scale": gof_scale, "rival_starts": starts,
+             **verdict, "excluded": excluded}
     return ModelChoice(chosen.name, units.to_si(chosen.params), block)
-
-
-def joint_choice(blocks, names=None) -> dict | None:
-    """One model for all branches of a junction: the per-branch BICs summed per model.
-
-    ``blocks`` are the ``model_choice`` blocks of the branches; only models fitted
-    on every branch compete. Returns the same layout as one branch's block (the
-    candidates carry summed values), or ``None`` with fewer than two blocks.
-    """
-    blocks = [b for b in blocks if b]
-    if len(blocks) < 2:
-        return None
-    names = tuple(names or model_names())
-    order = {name: i for i, name in enumerate(names)}
-    per_model = {}
-    for block in blocks:
-        for c in block["candidates"]:
-            entry = per_model.setdefault(c["model"],
-                                         [0.0, 0.0, 0, False, 0, 0, False, 0.0, 0.0])
-            entry[0] += c["bic"]
-            entry[1] += c["chisq_over_noise"]
-            entry[2] += c["parameters"]
-            entry[3] |= c["node_floor"]
-            entry[4] += 1
-            entry[5] += int(block.get("points", 0))
-            entry[6] |= bool(c.get("shape_parameter", False))
-            entry[7] += float(c.get("residual_runs_z", 0.0))
-            entry[8] += float(c.get("residual_runs_ratio", 1.0))
-    # The branches' runs scores combined as independent normal scores (Stouffer).
-    trials = [Trial(m, {}, v[1], v[2], v[3], v[0], points=v[5], shaped=v[6],
-                    runs_z=v[7] / np.sqrt(v[4]), runs_ratio=v[8] / v[4])
-              for m, v in per_model.items() if v[4] == len(blocks)]
-    if not trials:
-        return None
-    _, verdict = _decide(trials, order)
-    return {"criterion": CRITERION, "margin": MARGIN, "branches": len(blocks), **verdict}

@@ -241,7 +241,8 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
     else:
         local, offset_ok, offset_evidence = check_lobe_assignment(
             spec, xn, local, lambda p: refit(p, floor=floor), units)
-    result = final_fit(spec, x, y, local, units, noise)
+    result = final_fit(spec, x, y, local, units, noise, loss=loss,
+                       scale_over_noise=ROBUST_SCALE)
     fill(out, result, spec, x, offset_ok)
     if not withhold_if_undersampled(out, x) and out.period_T is not None:
         withhold_if_poor(out, spec)

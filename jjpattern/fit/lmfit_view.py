@@ -4,7 +4,10 @@ The analysis never imports lmfit (its import costs about a second); a user who w
 lmfit's ``fit_report``, ``conf_interval`` or uncertainties variables asks for
 :meth:`jjpattern.fit.reported.ReportedFit.to_lmfit`, which runs lmfit's ``leastsq``
 from the reported solution on the same weighted, normalised problem and converts its
-parameters to SI. Its numbers agree with the reported ones (a test holds them to it).
+parameters to SI. Its numbers agree with the reported ones for least squares (a test holds
+them to it); for a robust loss lmfit's errors and reduced chi-square are those of weighted
+least squares at the robust weights, while the reported fit gives the M-estimator's
+sandwich covariance and a goodness of fit scaled for the loss (``reported.final_fit``).
 """
 
 from __future__ import annotations

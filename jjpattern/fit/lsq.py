@@ -101,6 +101,30 @@ def robust_weight(z2, loss):
     return np.ones_like(z2)
 
 
+def robust_slope(z2, loss):
+    """Derivative of the influence ``psi(r) = rho'(z) r`` by ``r`` for a scipy loss,
+    ``rho'(z) + 2 z rho''(z)`` with ``z = (r / f_scale)^2`` (1 for least squares)."""
+    z2 = np.asarray(z2, dtype=float)
+    if loss == "soft_l1":
+        return (1.0 + z2) ** -1.5
+    if loss == "huber":
+        return np.where(z2 <= 1.0, 1.0, 0.0)
+    if loss == "cauchy":
+        return (1.0 - z2) / (1.0 + z2) ** 2
+    return np.ones_like(z2)
+
+
+def expected_weighted_chisq(loss, scale_over_noise) -> float:
+    """Mean of ``w(z) r^2 / sigma^2`` for Gaussian residuals of standard deviation sigma,
+    ``f_scale = scale_over_noise * sigma``: what one point adds to the weighted chi-square
+    of a model that describes the data (1 for least squares; Gauss-Hermite quadrature)."""
+    if loss == "linear":
+        return 1.0
+    t, w = np.polynomial.hermite_e.hermegauss(80)
+    w = w / np.sqrt(2.0 * np.pi)
+    return float(np.sum(w * robust_weight((t / scale_over_noise) ** 2, loss) * t * t))
+
+
 def free_names(spec, floor: bool) -> tuple:
     """The fitted parameters: Ic0, period, offset, the floor when asked, the extras."""
     names = ("ic0_A", "period_T", "field_offset_T") + (("floor_A",) if floor else ())

@@ -60,11 +60,10 @@ def fill(out, result, spec, x, offset_ok):
             setattr(out, p.name, value)
             setattr(out, f"{p.name}_stderr", out.extra_stderr[p.name])
     out.fit_result = result
-    nfree = max(result.nfree, 1)
     out.residual_rms_A = float(np.sqrt(np.mean((out.ic_A - result.best_fit) ** 2)))
     # Residuals in noise units, weighted: for a robust fit the down-weighted points count
-    # less; the reported fit's own reduced chi-square is this number.
-    out.reduced_chisq = float(np.sum(result.residual**2) / nfree)
+    # less, and the sum is scaled by what the right model gives under that loss.
+    out.reduced_chisq = float(result.redchi)
 
     extras = extras_of(spec, result.params)
     out.nodes_observed = nodes_in_window(spec, x, period, offset, extras)

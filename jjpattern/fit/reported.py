@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..physics.constants import PHI0_WB
-from .lsq import Local, Units, full_params
+from .lsq import Local, Units, expected_weighted_chisq, full_params, robust_slope, robust_weight
 
 __all__ = ["Param", "ReportedFit", "final_fit", "weighted_fit"]
 
@@ -57,6 +57,7 @@ class ReportedFit:
     field_T: np.ndarray = field(repr=False, default=None)
     ic_A: np.ndarray = field(repr=False, default=None)
     noise_A: float = 0.0
+    gof_scale: float = 1.0
 
     @property
     def chisqr(self) -> float:
@@ -64,7 +65,10 @@ class ReportedFit:
 
     @property
     def redchi(self) -> float:
-        return self.chisqr / max(self.nfree, 1)
+        """Weighted chi-square per degree of freedom over what a model that describes the
+        data gives (``gof_scale``, 1 for least squares), so about 1 for the right model
+        under any loss."""
+        return self.chisqr / max(self.nfree, 1) / self.gof_scale
 
     def __repr__(self) -> str:
         fitted = ", ".join(f"{n}={self.params[n].value:.6g}" for n in self.var_names)
@@ -151,15 +155,53 @@ def weighted_fit(spec, x, y, start: dict, names, weight):
     return params, covar, r
 
 
-def final_fit(spec, x_T, y_A, local: Local, units: Units, noise_A: float) -> ReportedFit:
+def final_fit(spec, x_T, y_A, local: Local, units: Units, noise_A: float, *,
+              loss: str = "linear", scale_over_noise: float = 2.0) -> ReportedFit:
     """The reported fit from the converged ``local`` (normalised units), weighted by the
-    noise and the robust weights, converted to SI."""
+    noise and the robust weights, converted to SI.
+
+    With a robust loss the covariance is the M-estimator's sandwich ``A^-1 B A^-1``,
+    ``A = J^T diag(psi') J``, ``B = J^T diag(psi^2) J`` (Huber, Robust Statistics, 1981;
+    the weighted least-squares covariance at the robust weights is 13-25 % too narrow for
+    a Cauchy loss), and the goodness of fit is scaled by what a model that describes the
+    data gives under that loss (``lsq.expected_weighted_chisq``).
+    """
     x_T = np.asarray(x_T, dtype=float)
     xn, yn = units.field(x_T), np.asarray(y_A, dtype=float) / units.scale_A
-    weight = np.sqrt(local.weights) / (noise_A / units.scale_A)
+    sigma = noise_A / units.scale_A
+    weight = np.sqrt(local.weights) / sigma
     start = full_params(spec, local.params, "floor_A" in local.free)
     fitted, covar, r = weighted_fit(spec, xn, yn, start, local.free, weight)
-    return _in_si(spec, fitted, local, covar, r, units, x_T, y_A, noise_A)
+    gof = 1.0
+    if loss != "linear":
+        gof = expected_weighted_chisq(loss, scale_over_noise)
+        sandwich = _sandwich(spec, xn, yn, fitted, local.free, sigma,
+                             loss, scale_over_noise * sigma)
+        covar = sandwich if sandwich is not None else covar
+    out = _in_si(spec, fitted, local, covar, r, units, x_T, y_A, noise_A)
+    out.gof_scale = gof
+    return out
+
+
+def _sandwich(spec, x, y, params, names, sigma, loss, f_scale):
+    """The M-estimator covariance of a robust fit (normalised units), or ``None`` where
+    the sensitivity matrix is not positive definite (a redescending loss with many points
+    far out)."""
+    names = tuple(names)
+    fixed = {k: v for k, v in params.items() if k not in names}
+    u = spec.formula(x, **params) - y
+    z2 = (u / f_scale) ** 2
+    psi = robust_weight(z2, loss) * u / sigma
+    j = _weighted_jacobian(spec, x, names, fixed, [params[n] for n in names], 1.0 / sigma)
+    a = j.T @ (robust_slope(z2, loss)[:, None] * j)
+    b = j.T @ ((psi * psi)[:, None] * j)
+    try:
+        np.linalg.cholesky(a)
+        a_inv = np.linalg.inv(a)
+    except np.linalg.LinAlgError:
+        return None
+    covar = a_inv @ b @ a_inv * (u.size / max(u.size - len(names), 1))
+    return covar if np.all(np.isfinite(covar)) else None
 
 
 def _in_si(spec, fitted, local, covar, r, units, x_T, y_A, noise_A) -> ReportedFit:
