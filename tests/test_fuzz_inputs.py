@@ -143,3 +143,22 @@ def test_unmutated_bases_read(folder, name):
     points = (sum(b.points_used for b in data.branches) if hasattr(data, "branches")
               else data.field_T.size)
     assert points == (31 if name == "map.h5" else 61)
+
+
+def test_a_damaged_class_attribute_is_not_read_from_the_global_heap(tmp_path):
+    # This mutation of the v7.3 base leaves MATLAB_class a variable-length string in a
+    # damaged global heap: reading it sent the HDF5 library into an endless loop (found
+    # when the fuzz test drew it). Read in a child process, so a relapse fails, not hangs.
+    import subprocess
+    import sys
+
+    path = tmp_path / "sweep73.mat"
+    path.write_bytes(mutate(BASES["sweep73.mat"], [
+        ("overwrite", 186586, b"\x15I"), ("flip", 157, b"\xd1\x1b|\x91\xe2\xa8"),
+        ("flip", 31472, b"W\xf0"), ("repeat", 19333, b"k\x03")]))
+    code = ("import sys\nfrom jjpattern.errors import InputError\nfrom jjpattern.io import read\n"
+            "try:\n    read(sys.argv[1])\nexcept InputError as exc:\n    print(exc)\n")
+    done = subprocess.run([sys.executable, "-c", code, str(path)], capture_output=True,
+                          text=True, timeout=120, check=False)
+    assert done.returncode == 0, done.stderr
+    assert "MATLAB v7.3 file" in done.stdout

@@ -115,7 +115,19 @@ def _v73(source, settings):
 
 
 def _class(obj) -> str:
-    value = obj.attrs.get("MATLAB_class", b"")
+    """MATLAB's class name of a v7.3 variable ('' when there is none). MATLAB writes it as
+    a fixed-length ASCII string; an attribute of any other type is not read, because a
+    variable-length one is read from the file's global heap, where a damaged file can
+    send the HDF5 library into an endless loop."""
+    import h5py
+
+    if "MATLAB_class" not in obj.attrs:
+        return ""
+    dtype = obj.attrs.get_id("MATLAB_class").dtype
+    if dtype.kind != "S" or h5py.check_string_dtype(dtype) is None or (
+            h5py.check_string_dtype(dtype).length is None):
+        return ""
+    value = obj.attrs["MATLAB_class"]
     return value.decode("ascii", "replace") if isinstance(value, bytes) else str(value)
 
 
