@@ -306,7 +306,7 @@ def choose_model(x, y, noise, *, node_floor="auto", loss="linear", names=None,
         trial.gof_scale = gof_scale
         return trial
 
-    reference = None
+    reference = None  # read by run(): the reference itself has no criterion to beat
     reference = run(names[0])
     found = {names[0]: reference}
     for name in names[1:]:
