@@ -22,33 +22,27 @@ def formula(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0):
     return np.hypot(ic0_A * shape, floor_A)
 
 
-def _shape(u):
+def _shape_slope(u):
+    """``2 J1(x)/x`` with x = pi u and its derivative by u, ``-2 pi J2(x)/x`` (Abramowitz
+    and Stegun 9.1.30), with ``J2(x) = 2 J1(x)/x - J0(x)`` (A&S 9.1.27; j0 and j1 are much
+    faster than jv, and J1 is computed once for both)."""
     import numpy as np
     from scipy import special
 
     x = np.pi * u
     small = np.abs(x) < 1e-8
     safe = np.where(small, 1.0, x)
-    return np.where(small, 1.0, 2.0 * special.j1(safe) / safe)
-
-
-def _slope(u):
-    """d/du of 2 J1(x)/x with x = pi u: -2 pi J2(x)/x (Abramowitz and Stegun 9.1.30), with
-    J2(x) = 2 J1(x)/x - J0(x) (A&S 9.1.27; j0 and j1 are much faster than jv)."""
-    import numpy as np
-    from scipy import special
-
-    x = np.pi * u
-    small = np.abs(x) < 1e-8
-    safe = np.where(small, 1.0, x)
-    j2 = 2.0 * special.j1(safe) / safe - special.j0(safe)
-    return np.where(small, 0.0, -2.0 * np.pi * j2 / safe)
+    s = 2.0 * special.j1(safe) / safe
+    ds = (s - special.j0(safe)) * (-2.0 * np.pi) / safe
+    if small.any():
+        s, ds = np.where(small, 1.0, s), np.where(small, 0.0, ds)
+    return s, ds
 
 
 def gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0):
     """Partial derivatives of :func:`formula` by each parameter (the fit's Jacobian)."""
     return quadrature_gradient(field_T, ic0_A, period_T, field_offset_T, floor_A,
-                               _shape, _slope)
+                               _shape_slope)
 
 
 def node_flux(count):

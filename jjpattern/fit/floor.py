@@ -1,0 +1,77 @@
+"""A quick estimate of what a node floor gains, to spare the floor refit where it cannot
+pass its threshold.
+
+The floor enters in quadrature, ``sqrt(m^2 + F)`` with ``F = floor^2``. With the other
+parameters held at the fit without a floor, the sum of squares is convex in ``F`` for
+non-negative data (its second derivative is ``sum y / (2 (m^2 + F)^1.5)``), so its minimum
+is one root; one Gauss-Newton step in every parameter from there adds what freeing the
+others gains. The estimate only decides whether the full refit is worth running: a gain
+estimated at less than ``SKIP_FRACTION`` of the threshold is not refitted.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Estimated gains below this fraction of the floor's threshold skip the refit.
+SKIP_FRACTION = 0.5
+#: Only a fit without the floor whose reduced chi-square (over the model-free noise) is at
+#: most this is near enough to the floored one for the estimate to speak for the refit.
+SKIP_REDCHI = 2.0
+
+
+def _best_floor_squared(m2, y):
+    """``F >= 0`` minimising ``sum (sqrt(m2 + F) - y)^2``: zero where the derivative
+    ``sum (1 - y / sqrt(m2 + F))`` is already non-negative at zero, else its root by
+    Newton steps kept inside a shrinking bracket."""
+    hi = float(np.max(y)) ** 2
+    if hi <= 0.0:
+        return 0.0
+    if np.all(m2 > 0) and float(np.sum(1.0 - y / np.sqrt(m2))) >= 0.0:
+        return 0.0
+    lo, f = 0.0, 0.0025 * hi
+    for _ in range(60):
+        root = np.sqrt(m2 + f)
+        d1 = float(np.sum(1.0 - y / root))
+        if d1 > 0.0:
+            hi = f
+        else:
+            lo = f
+        d2 = float(np.sum(y / (2.0 * root**3)))
+        step = f - d1 / d2 if d2 > 0.0 else -1.0
+        f_new = step if lo < step < hi else 0.5 * (lo + hi)
+        if abs(f_new - f) <= 1e-10 * hi:
+            return f_new
+        f = f_new
+    return f
+
+
+def estimated_floor_gain(spec, x, y, local):
+    """Estimated drop in chi-square (data units squared) from adding a floor to ``local``
+    (a least-squares fit without one, normalised units) and the parameters the estimate
+    ends at (a start for the refit); ``(None, None)`` where it cannot be estimated (no
+    analytic gradient, a singular step)."""
+    if spec.gradient is None:
+        return None, None
+    model = y + local.residual
+    m2 = model * model
+    f2 = _best_floor_squared(m2, y)
+    if f2 <= 0.0:
+        return 0.0, None
+    params = dict(local.params, floor_A=float(np.sqrt(f2)))
+    names = tuple(local.free) + ("floor_A",)
+    r = np.sqrt(m2 + f2) - y
+    grads = spec.gradient(x, **params)
+    j = np.column_stack([grads[n] for n in names])
+    g = j.T @ r
+    try:
+        step = np.linalg.solve(j.T @ j, g)
+    except np.linalg.LinAlgError:
+        return None, None
+    step_gain = float(g @ step)
+    if not np.isfinite(step_gain):
+        return None, None
+    start = dict(params)
+    for name, delta in zip(names, step, strict=True):
+        start[name] = params[name] - float(delta)
+    return max(local.chisq - float(r @ r) + max(step_gain, 0.0), 0.0), start
