@@ -24,10 +24,17 @@ def tidy(x, y) -> Tidy:
     if x.shape != y.shape:
         raise ValueError(f"field and current have different lengths ({x.size} and {y.size})")
     finite = np.isfinite(x) & np.isfinite(y)
-    xs, ys = x[finite], y[finite]
+    dropped = int(x.size - np.count_nonzero(finite))
+    xs, ys = (x, y) if not dropped else (x[finite], y[finite])
+    step = np.diff(xs)
+    # Most sweeps arrive sorted one way or the other, with no field twice.
+    if np.all(step > 0):
+        return Tidy(xs.copy(), ys.copy(), dropped, 0)
+    if np.all(step < 0):
+        return Tidy(xs[::-1].copy(), ys[::-1].copy(), dropped, 0)
     order = np.argsort(xs, kind="stable")
     xs, ys = xs[order], ys[order]
     uniq, inverse, counts = np.unique(xs, return_inverse=True, return_counts=True)
     if uniq.size < xs.size:
         ys = np.bincount(inverse, weights=ys) / counts
-    return Tidy(uniq, ys, int((~finite).sum()), int(xs.size - uniq.size))
+    return Tidy(uniq, ys, dropped, int(xs.size - uniq.size))

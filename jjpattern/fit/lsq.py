@@ -144,6 +144,20 @@ def full_params(spec, start: dict, floor: bool) -> dict:
     return params
 
 
+def remember_last(fn):
+    """``fn`` of one parameter vector, with its last result kept: scipy's ``leastsq`` calls
+    the residual and the Jacobian at the start once to check their shapes and then again,
+    and the residual at the solution is often the last one MINPACK asked for."""
+    last = [None, None]
+
+    def call(v):
+        key = np.asarray(v, dtype=float).tobytes()
+        if last[0] != key:
+            last[0], last[1] = key, fn(v)
+        return last[1]
+    return call
+
+
 def _jacobian(spec, x, names, fixed):
     if spec.gradient is None:
         return None
@@ -151,7 +165,7 @@ def _jacobian(spec, x, names, fixed):
     def jac(v):
         grads = spec.gradient(x, **fixed, **dict(zip(names, v, strict=True)))
         return np.array([grads[n] for n in names])
-    return jac
+    return remember_last(jac)
 
 
 def solve(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
@@ -171,6 +185,7 @@ def solve(spec, x, y, start: dict, *, floor: bool, loss: str, f_scale: float,
     fixed = {k: v for k, v in params.items() if k not in names}
     v0 = np.array([params[n] for n in names])
 
+    @remember_last
     def residual(v):
         return spec.formula(x, **fixed, **dict(zip(names, v, strict=True))) - y
 

@@ -20,7 +20,15 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..physics.constants import PHI0_WB
-from .lsq import Local, Units, expected_weighted_chisq, full_params, robust_slope, robust_weight
+from .lsq import (
+    Local,
+    Units,
+    expected_weighted_chisq,
+    full_params,
+    remember_last,
+    robust_slope,
+    robust_weight,
+)
 
 __all__ = ["Param", "ReportedFit", "final_fit", "weighted_fit"]
 
@@ -121,9 +129,11 @@ def weighted_fit(spec, x, y, start: dict, names, weight):
     v0 = np.array([params[n] for n in names], dtype=float)
     bounds = {p.name: (p.min, p.max) for p in spec.extra if p.name in names}
 
+    @remember_last
     def residual(v):
         return (spec.formula(x, **fixed, **dict(zip(names, v, strict=True))) - y) * weight
 
+    @remember_last
     def jac(v):
         return _weighted_jacobian(spec, x, names, fixed, v, weight)
 
