@@ -23,12 +23,14 @@ simpler model."""
 from __future__ import annotations
 
 from dataclasses import dataclass
+from types import SimpleNamespace
 
 import numpy as np
 
 from ..physics.models import get_model, model_names
 from .far import far_lobe_start, periodic_candidate
-from .lsq import Units, expected_weighted_chisq, full_params, robust_weight, solve
+from .floor import floor_trial_start
+from .lsq import Units, expected_weighted_chisq, free_names, full_params, robust_weight, solve
 from .runs import runs_ratio, runs_z
 from .scan import scan_pattern
 from .starts import rival_start, shape_start
@@ -175,12 +177,25 @@ def trial_fit(spec, x, y, noise, scans: _Scans | None, *, node_floor, loss, floo
     if node_floor == "auto" and not spec.periodic and (
             beat is None or not _beyond_floor(spec, x, y, params, chisq, k, noise, beat,
                                               loss, f_scale)):
-        fp, fchisq, fk = quick_fit(spec, x, y, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
-                                   floor=True, loss=loss, f_scale=f_scale)
-        gain = (chisq - fchisq) / max(fchisq / max(x.size - fk, 1), 1e-300)
-        if gain > floor_dchi2:
-            params, chisq, k, floored = fp, fchisq, fk, True
+        fstart = _floor_start(spec, x, y, params, chisq, noise, loss, floor_dchi2)
+        if fstart is not None:
+            fp, fchisq, fk = quick_fit(spec, x, y, fstart, floor=True, loss=loss,
+                                       f_scale=f_scale)
+            gain = (chisq - fchisq) / max(fchisq / max(x.size - fk, 1), 1e-300)
+            if gain > floor_dchi2:
+                params, chisq, k, floored = fp, fchisq, fk, True
     return _trial(spec, x, y, params, chisq, k, noise, floored, gain if floored else None)
+
+
+def _floor_start(spec, x, y, params, chisq, noise, loss, threshold):
+    """Start of a trial's floor refit (5 % of Ic0, or where a quick estimate ends), or
+    ``None`` where the estimate spares it (``fit.floor``)."""
+    usual = dict(params, floor_A=0.05 * abs(params["ic0_A"]))
+    values = full_params(spec, params, False)
+    local = SimpleNamespace(params=values, free=free_names(spec, False), chisq=chisq,
+                            residual=spec.formula(x, **values) - y)
+    return floor_trial_start(spec, x, y, local, usual, sigma=noise, loss=loss,
+                             threshold=threshold)
 
 
 def _rival_trial(spec, x, y, noise, start, beat, *, node_floor, loss, floor_dchi2):

@@ -16,7 +16,7 @@ from ..physics.models import get_model, model_names
 from ..sampling import tidy
 from .choice import choose_model
 from .far import far_lobe_start
-from .floor import SKIP_FRACTION, SKIP_REDCHI, estimated_floor_gain
+from .floor import floor_trial_start
 from .lobes import OFFSET_DCHI2, check_lobe_assignment, extras_of, nodes_in_window
 from .lsq import Units, evaluate, solve
 from .noise import difference_noise
@@ -159,26 +159,14 @@ def _scan_start(spec, xn, yn):
     return start, max(best.background_A, 0.0)
 
 
-def _floor_trial(spec, xn, yn, local, node_floor, loss, background, sigma):
-    """Where the floor refit starts, or ``None`` where it is not worth running.
-
-    Under least squares with the floor decided automatically, and a fit without the floor
-    that already describes the data (reduced chi-square at most ``SKIP_REDCHI`` in units of
-    the model-free noise), a quick estimate of the floor's gain (``fit.floor``) below a
-    fraction of the threshold spares the refit, and the estimate's end point is its start.
-    Otherwise the floor starts at the scan's background or 5 % of Ic0: from a fit that
-    misses the data the refit can reach another minimum, which no local estimate sees.
-    """
+def _floor_start(spec, xn, yn, local, node_floor, loss, background, sigma):
+    """Start of the floor refit (the scan's background or 5 % of Ic0, or where a quick
+    estimate ends), ``None`` where the estimate spares it (``fit.floor``)."""
     usual = dict(local.params, floor_A=max(background, 0.05 * abs(local.params["ic0_A"])))
-    if (node_floor != "auto" or loss != "linear"
-            or local.chisq / local.nfree > SKIP_REDCHI * sigma**2):
+    if node_floor != "auto":
         return usual
-    estimate, start = estimated_floor_gain(spec, xn, yn, local)
-    if estimate is None:
-        return usual
-    if estimate / max(local.chisq / local.nfree, 1e-300) < SKIP_FRACTION * FLOOR_DCHI2:
-        return None
-    return start if start is not None and start["floor_A"] > 0 else usual
+    return floor_trial_start(spec, xn, yn, local, usual, sigma=sigma, loss=loss,
+                             threshold=FLOOR_DCHI2)
 
 
 def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> PatternFit:
@@ -234,8 +222,8 @@ def _fit_model(spec, x, y, noise, node_floor, loss, branch, start=None) -> Patte
     if chosen_floor:
         gain = choice_gain
     elif not decided and node_floor != "off" and not spec.periodic and (
-            trial_start := _floor_trial(spec, xn, yn, local, node_floor, loss,
-                                        background, sigma)) is not None:
+            trial_start := _floor_start(spec, xn, yn, local, node_floor, loss, background,
+                                        sigma)) is not None:
         floored = refit(trial_start, floor=True)
         trial = (local.chisq - floored.chisq) / max(floored.chisq / floored.nfree, 1e-300)
         if node_floor == "on" or trial > FLOOR_DCHI2:

@@ -48,9 +48,10 @@ def _best_floor_squared(m2, y):
 
 def estimated_floor_gain(spec, x, y, local):
     """Estimated drop in chi-square (data units squared) from adding a floor to ``local``
-    (a least-squares fit without one, normalised units) and the parameters the estimate
-    ends at (a start for the refit); ``(None, None)`` where it cannot be estimated (no
-    analytic gradient, a singular step)."""
+    (a least-squares fit without one, normalised units: anything with ``params``,
+    ``free``, ``residual`` and ``chisq``) and the parameters the estimate ends at (a start
+    for the refit); ``(None, None)`` where it cannot be estimated (no analytic gradient, a
+    singular step)."""
     if spec.gradient is None:
         return None, None
     model = y + local.residual
@@ -75,3 +76,25 @@ def estimated_floor_gain(spec, x, y, local):
     for name, delta in zip(names, step, strict=True):
         start[name] = params[name] - float(delta)
     return max(local.chisq - float(r @ r) + max(step_gain, 0.0), 0.0), start
+
+
+def floor_trial_start(spec, x, y, local, usual: dict, *, sigma: float, loss: str,
+                      threshold: float) -> dict | None:
+    """Where the floor refit of ``local`` starts, or ``None`` where it is not worth running.
+
+    Under least squares, with a fit without the floor that already describes the data
+    (reduced chi-square at most ``SKIP_REDCHI`` in units of the model-free noise
+    ``sigma``), an estimated gain below ``SKIP_FRACTION`` of ``threshold`` (noise units)
+    spares the refit, and the estimate's end point is its start. Otherwise the refit starts
+    at ``usual``: from a fit that misses the data it can reach another minimum, which no
+    local estimate sees.
+    """
+    nfree = max(local.residual.size - len(local.free), 1)
+    if loss != "linear" or local.chisq / nfree > SKIP_REDCHI * sigma**2:
+        return usual
+    estimate, start = estimated_floor_gain(spec, x, y, local)
+    if estimate is None:
+        return usual
+    if estimate / max(local.chisq / nfree, 1e-300) < SKIP_FRACTION * threshold:
+        return None
+    return start if start is not None and start["floor_A"] > 0 else usual
