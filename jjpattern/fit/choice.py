@@ -211,9 +211,12 @@ def _rival_trial(spec, x, y, noise, start, beat, *, node_floor, loss, floor_dchi
     floored = node_floor == "on" and not spec.periodic
     params, sub_chisq, k = quick_fit(spec, xs, ys, start, floor=floored, loss=loss,
                                      f_scale=f_scale)
+    fstart = None
     if node_floor == "auto" and not spec.periodic:
-        fsub = solve(spec, xs, ys, dict(params, floor_A=0.05 * abs(params["ic0_A"])),
-                     floor=True, loss=loss, f_scale=f_scale)
+        fstart = _floor_start(spec, xs, ys, params, sub_chisq, noise, loss,
+                              floor_dchi2 / stride)
+    if fstart is not None:
+        fsub = solve(spec, xs, ys, fstart, floor=True, loss=loss, f_scale=f_scale)
         gain = stride * (sub_chisq - fsub.chisq) / max(fsub.chisq / fsub.nfree, 1e-300)
         if gain > floor_dchi2:
             params, k, floored = dict(fsub.params), len(fsub.free), True
