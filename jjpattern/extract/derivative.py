@@ -2,12 +2,14 @@
 
 The derivative is the Savitzky-Golay one of :func:`.criteria.differential` (a
 quadratic over ``window`` points, NaN within half a window of a turn or an end
-of the sweep), with the same numbers to the last bit: each value is the same
-convolution of the same ``window`` voltages, divided by the same convolution
-of the bias. A search over a block of rows asks for the columns it reads, so
-the convolution, the division and the comparison run over a block that stays
-in the processor's cache, and no map-sized array is written; a threshold
-search that stops at the transition never differentiates the resistive branch.
+of the sweep): a block is the same scipy.ndimage convolution of the same
+voltages, divided by the same convolution of the bias, so the same numbers to
+the last bit; single points are summed here, equal to round-off (ndimage's own
+order of summation differs between scipy versions). A search over a block of
+rows asks for the columns it reads, so the convolution, the division and the
+comparison run over a block that stays in the processor's cache, and no
+map-sized array is written; a threshold search that stops at the transition
+never differentiates the resistive branch.
 """
 
 from __future__ import annotations
@@ -81,12 +83,9 @@ class Derivative:
         return self._finish(dv, np.asarray(span), in_place=False)
 
     def _points(self, rows, cols):
-        """Values at broadcast ``rows`` and absolute ``cols``, each from its window.
-
-        The sum runs in the order of scipy.ndimage's correlation loop for a filter
-        that is neither symmetric nor antisymmetric (the last tap first, then the
-        others from the first), so each value equals the convolved map's.
-        """
+        """Values at broadcast ``rows`` and absolute ``cols``, each from its window: the
+        convolved map's to round-off (a search's first look; its answer comes from
+        blocks, see ``search._first_in_order``)."""
         n, h = self.signal.shape[1], self.half
         weights = self.coeffs[::-1]  # the correlation's taps, offsets -h .. h
 

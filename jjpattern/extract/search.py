@@ -39,8 +39,10 @@ def _first_in_order(search, n, forward):
     ``search(cols)`` gives ``first_true`` of the block's mask over the column
     slice ``cols``. Every ``COARSE``-th column is looked at first; the first True is
     at or before the first one seen there, so only the columns up to it are read
-    (all of them for rows with none). The answer is exactly that of one full pass;
-    from the end it counts from the last column.
+    (all of them for rows with none). The answer is exactly that of one full pass,
+    even where the first look's values differ from the blocks' by round-off (a row
+    seen there but not found before ``stop`` is searched on); from the end it counts
+    from the last column.
     """
     def cols(start, stop, step=1):
         if forward:
@@ -53,9 +55,9 @@ def _first_in_order(search, n, forward):
         return search(cols(0, n))
     stop = int(seen_k[seen].max()) * COARSE + 1
     k, found = search(cols(0, stop))
-    rest = ~found & ~seen
+    rest = ~found
     if rest.any() and stop < n:
-        # Rows with no hit in the first look: the remaining columns.
+        # Rows with no hit yet: the remaining columns.
         k_rest, f_rest = search(cols(stop, n))
         k = np.where(rest & f_rest, k_rest + stop, k)
         found = found | (rest & f_rest)
