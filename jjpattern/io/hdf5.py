@@ -1,4 +1,4 @@
-"""HDF5 through h5py, from the bytes already read (the file is not opened again).
+"""HDF5 through h5py's own file driver: only the datasets used are read, each once.
 
 Sweep layout: 1-D datasets at the root named like the columns of a text file
 (``field``, ``ic``, ``ic_pos``, ``ic_neg`` ...), each with a ``units``
@@ -32,7 +32,7 @@ SUFFIXES = (".h5", ".hdf5", ".hdf")
 
 def sniff(source) -> bool:
     """The HDF5 signature at the start, or an HDF5 suffix."""
-    return not source.is_folder and (source.raw.startswith(SIGNATURE)
+    return not source.is_folder and (source.head.startswith(SIGNATURE)
                                      or source.suffix in SUFFIXES)
 
 
@@ -43,17 +43,18 @@ DAMAGE = (OSError, RuntimeError, KeyError, ValueError, TypeError, OverflowError)
 def read(source, settings, kind: str = "auto"):
     """A Sweep from 1-D datasets, or an IVMap when the root holds a 2-D dataset.
 
-    Data kept in other files (external links, external storage, virtual datasets)
-    are refused unless the read setting ``allow_external`` is set; then the file is
-    opened by its path, so that those files are found beside it, and they are hashed.
+    The file is opened by its path (its bytes are never all in memory); its hash, taken
+    when a record needs it, is refused if the file changed since it was opened
+    (:class:`jjpattern.io.digest.Digest`). Data kept in other files (external links,
+    external storage, virtual datasets) are refused unless the read setting
+    ``allow_external`` is set; then those files are found beside it, and they are hashed.
     """
     import h5py
 
     outside = Outside(source, settings)
     try:
-        # The stream reads the very bytes that were hashed: what is read is what was hashed.
-        handle = (h5py.File(source.path, "r") if outside.allowed
-                  else h5py.File(source.stream(), "r"))
+        # No lock: the file is only read, and a lock fails on some network file systems.
+        handle = h5py.File(source.path, "r", locking=False)
     except DAMAGE as exc:
         raise InputError(f"{source.path}: not a readable HDF5 file "
                          f"({exc.__class__.__name__})") from None
@@ -93,7 +94,7 @@ def _read_open(handle, source, settings, kind, outside):
     if choose_kind(kind, settings, has_map) == "map":
         return _map(handle, root, source, settings, metadata, outside)
     columns, units = _columns(handle, root, source.path, settings, outside)
-    return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
+    return build_sweep(columns, source=source.path, sha256=source.digest, settings=settings,
                        units=units, metadata=metadata, where="dataset", layout=layout)
 
 
@@ -170,12 +171,11 @@ def _dataset(handle, name, path, outside):
     return found
 
 
-def _floats(ds, path, settings, outside, raw=None) -> np.ndarray:
-    """The dataset as float64, converted by HDF5 while reading (no second copy).
+def _floats(ds, path, settings, outside) -> np.ndarray:
+    """The dataset as one new float64 array, converted by HDF5 while reading (no copy).
 
     Its size is checked from its declared shape and where its values live (another
-    file?) before anything is read. Given the file's bytes ``raw``, a map stored there
-    as it is comes back as a view of them (:func:`_stored`), not as a copy.
+    file?) before anything is read.
     """
     if ds.dtype.kind == "c" or (ds.dtype.names and set(ds.dtype.names) == {"r", "i"}):
         real(np.zeros(0, complex), path, f"dataset {clip(ds.name)}")
@@ -184,42 +184,11 @@ def _floats(ds, path, settings, outside, raw=None) -> np.ndarray:
     check_points(path, f"dataset {ds.name}", ds.shape, settings)
     ds = outside.dataset(ds)
     try:
-        stored = None if raw is None else _stored(ds, raw)
-        if stored is not None:
-            return stored
         if ds.dtype == np.float64:
             return np.asarray(ds[()])
         return np.asarray(ds.astype(np.float64)[()])
     except DAMAGE as exc:
         raise damaged(path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
-
-
-def _stored(ds, raw):
-    """A 2-D float64 dataset as a writable view of the file's bytes, or ``None``.
-
-    Only when HDF5 keeps it there as it is (one contiguous, unfiltered block of native
-    float64 inside this file, aligned) and it is at least half the file: the map then
-    costs no memory beside the file's bytes, which a view keeps alive. The first and last
-    values HDF5 reads must be the view's.
-    """
-    import h5py
-
-    if ds.ndim != 2 or ds.size == 0 or ds.dtype != np.dtype(float) or ds.is_virtual:
-        return None
-    plist = ds.id.get_create_plist()
-    if (plist.get_layout() != h5py.h5d.CONTIGUOUS or plist.get_nfilters()
-            or plist.get_external_count()):
-        return None
-    offset, nbytes = ds.id.get_offset(), ds.size * 8
-    if (offset is None or offset % 8 or offset + nbytes > len(raw) or 2 * nbytes < len(raw)
-            or ds.id.get_storage_size() != nbytes):
-        return None
-    values = np.frombuffer(raw, np.float64, ds.size, offset).reshape(ds.shape)
-    count = min(ds.shape[1], 64)
-    for row, cols in ((0, slice(0, count)), (-1, slice(-count, None))):
-        if ds[row, cols].tobytes() != values[row, cols].tobytes():
-            return None
-    return values
 
 
 def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
@@ -277,13 +246,10 @@ def _map(handle, root, source, settings, metadata, outside):
         else:
             names[role] = pick_column(list(root), role, None, path, f"{role} dataset")
             found[role] = root[names[role]]
-    # The signal last, from the file's bytes when it can be: from_arrays converts it in
-    # place once h5py has read everything else (it is not read from the file again).
-    raw = None if outside.allowed else source.raw
-    arrays = {role: _floats(ds, path, settings, outside, raw if role == "signal" else None)
-              for role, ds in found.items()}
+    # The signal last: from_arrays converts it in place (it belongs to no one else).
+    arrays = {role: _floats(ds, path, settings, outside) for role, ds in found.items()}
     units = {names[role]: unit for role, ds in found.items()
              if (unit := _unit(ds)) is not None}
     return from_arrays(arrays["field"], arrays["bias"], arrays["signal"], units, names,
-                       source=path, sha256=source.sha256, metadata=metadata,
+                       source=path, sha256=source.digest, metadata=metadata,
                        settings=settings, owned=True)

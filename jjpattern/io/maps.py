@@ -19,6 +19,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..settings import ReadSettings
+from .digest import DigestField
 from .limits import check_current, check_field, check_signal, clip, names_list, real, scaled
 from .sweep import field_values_T, is_field_name, numeric, role_key
 from .units import (
@@ -43,7 +44,7 @@ class IVMap:
     """
 
     path: str
-    sha256: str | None
+    sha256: str | None = DigestField()  # may hold a Digest, hashed on first use
     field_T: np.ndarray
     bias_A: np.ndarray
     signal: np.ndarray
