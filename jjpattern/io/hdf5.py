@@ -19,7 +19,7 @@ import numpy as np
 
 from ..errors import InputError
 from .containers import find_group, listing, role_of
-from .limits import LazyColumns, check_points, clip, damaged, real
+from .limits import LazyColumns, check_points, clip, damaged, real, screen, within
 from .maps import choose_kind, from_arrays, pick_column
 from .netcdf import INTERNAL_ATTRS, xarray_module
 from .outside import Outside
@@ -172,23 +172,71 @@ def _dataset(handle, name, path, outside):
 
 
 def _floats(ds, path, settings, outside) -> np.ndarray:
-    """The dataset as one new float64 array, converted by HDF5 while reading (no copy).
+    """The dataset as one new float64 array, converted by HDF5 while reading (no copy)."""
+    return _numbers(ds, path, settings, outside).whole()
 
-    Its size is checked from its declared shape and where its values live (another
-    file?) before anything is read.
-    """
+
+def _numbers(ds, path, settings, outside) -> StoredMap:
+    """A numeric dataset, to be read: its size is checked from its declared shape and where
+    its values live (another file?) before anything is read."""
     if ds.dtype.kind == "c" or (ds.dtype.names and set(ds.dtype.names) == {"r", "i"}):
         real(np.zeros(0, complex), path, f"dataset {clip(ds.name)}")
     if ds.dtype.kind not in "iuf":
         raise InputError(f"{path}: dataset {clip(ds.name)} holds {ds.dtype}, not numbers")
     check_points(path, f"dataset {ds.name}", ds.shape, settings)
-    ds = outside.dataset(ds)
-    try:
-        if ds.dtype == np.float64:
-            return np.asarray(ds[()])
-        return np.asarray(ds.astype(np.float64)[()])
-    except DAMAGE as exc:
-        raise damaged(path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+    return StoredMap(outside.dataset(ds), path)
+
+
+#: Bytes read at a time into a map, then scaled and screened while still in cache.
+READ_BLOCK = 1 << 21
+
+
+class StoredMap:
+    """A numeric dataset not yet read: ``whole()`` reads it, ``scaled(factor, limit)`` reads
+    a map row block by row block, each scaled to SI and screened while still in cache."""
+
+    def __init__(self, ds, path: str):
+        self.ds, self.path = ds, path
+        self.shape, self.ndim = ds.shape, ds.ndim
+
+    def whole(self) -> np.ndarray:
+        ds = self.ds
+        try:
+            if ds.dtype == np.float64:
+                return np.asarray(ds[()])
+            return np.asarray(ds.astype(np.float64)[()])
+        except DAMAGE as exc:
+            raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+
+    def scaled(self, factor: float, limit: float) -> tuple[np.ndarray, bool]:
+        """``(values times factor, whether none is beyond limit)`` (see :func:`screen`)."""
+        import h5py
+
+        ds = self.ds
+        try:
+            plist = ds.id.get_create_plist()
+            blocks = not (ds.ndim != 2 or ds.size == 0 or ds.is_virtual or plist.get_nfilters()
+                          or plist.get_layout() != h5py.h5d.CONTIGUOUS
+                          or plist.get_external_count())
+        except DAMAGE as exc:
+            raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+        if not blocks:  # chunks, filters, other files: HDF5 reads it whole
+            values = self.whole()
+            return values, within(values, limit, factor)
+        n_rows, n_cols = ds.shape
+        step = max(1, READ_BLOCK // (8 * n_cols))
+        values = np.empty(ds.shape, np.float64)
+        inside = True
+        try:
+            space = ds.id.get_space()
+            for start in range(0, n_rows, step):
+                block = values[start:start + step]
+                space.select_hyperslab((start, 0), block.shape)
+                ds.id.read(h5py.h5s.create_simple(block.shape), space, block)
+                inside = screen(block, limit, factor) and inside
+        except DAMAGE as exc:
+            raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+        return values, inside
 
 
 def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
@@ -246,8 +294,11 @@ def _map(handle, root, source, settings, metadata, outside):
         else:
             names[role] = pick_column(list(root), role, None, path, f"{role} dataset")
             found[role] = root[names[role]]
-    # The signal last: from_arrays converts it in place (it belongs to no one else).
-    arrays = {role: _floats(ds, path, settings, outside) for role, ds in found.items()}
+    # The signal is read last, by from_arrays once its unit is known, into an array of its
+    # own converted in place.
+    arrays = {role: _floats(ds, path, settings, outside) for role, ds in found.items()
+              if role != "signal"}
+    arrays["signal"] = _numbers(found["signal"], path, settings, outside)
     units = {names[role]: unit for role, ds in found.items()
              if (unit := _unit(ds)) is not None}
     return from_arrays(arrays["field"], arrays["bias"], arrays["signal"], units, names,
