@@ -125,3 +125,25 @@ def test_blank_files_are_refused_at_open_however_long(tmp_path):
     (tmp_path / "empty.h5").write_bytes(b"")
     with pytest.raises(InputError, match="empty.h5: the file is empty"):
         read(tmp_path / "empty.h5")
+
+
+def test_a_file_hdf5_will_not_open_by_its_path_is_read_from_its_bytes(tmp_path, monkeypatch):
+    # HDF5 refuses to open a path that this process holds open without file locking, or on
+    # a file system without locks: the reader falls back to the bytes (and hashes those).
+    path = tmp_path / "s.h5"
+    _sweep_h5(path)
+    by_path = read(path)
+    real = h5py.File
+
+    def no_paths(name, *args, **kwargs):
+        if isinstance(name, str):
+            raise OSError("Unable to synchronously open file (file locking flag values "
+                          "don't match)")
+        return real(name, *args, **kwargs)
+
+    monkeypatch.setattr(h5py, "File", no_paths)
+    sweep = read(path)
+    assert held(sweep).computed and sweep.sha256 == _hashlib(path)
+    for got, expected in zip(sweep.branches, by_path.branches, strict=True):
+        assert np.array_equal(got.field_T, expected.field_T)
+        assert np.array_equal(got.ic_A, expected.ic_A)

@@ -54,9 +54,12 @@ def read(source, settings, kind: str = "auto"):
     outside = Outside(source, settings)
     try:
         handle = h5py.File(source.path, "r")
-    except DAMAGE as exc:
-        raise InputError(f"{source.path}: not a readable HDF5 file "
-                         f"({exc.__class__.__name__})") from None
+    except DAMAGE:
+        try:  # a lock or a file system HDF5 cannot open it through: from the bytes
+            handle = h5py.File(source.stream(), "r")
+        except DAMAGE as exc:
+            raise InputError(f"{source.path}: not a readable HDF5 file "
+                             f"({exc.__class__.__name__})") from None
     try:
         with handle:
             attrs = handle.attrs  # h5py builds an object per access (~50 us)
