@@ -194,3 +194,22 @@ def test_arrays_not_owned_are_left_as_given():
     assert all(np.array_equal(a, b) for a, b in zip((field, bias, signal), given, strict=True))
     assert np.array_equal(got.signal, signal[::-1] * 1e-6)
     assert np.array_equal(got.bias_A, bias[::-1] * 1e-6)
+
+
+def test_scalar_attributes_read_as_h5py_reads_them(tmp_path):
+    from jjpattern.io.hdf5 import _scalar
+
+    path = tmp_path / "a.h5"
+    values = {"vlen": "uV", "utf8": "\u00b5V", "fixed": np.bytes_(b"mT"), "int": 3,
+              "float": 2.5, "array": np.array([1.0, 2.0]), "empty": h5py.Empty("f8"),
+              "vlen bytes": b"\xffuV"}
+    with h5py.File(path, "w") as f:
+        ds = f.create_dataset("x", data=np.zeros(3))
+        for key, value in values.items():
+            ds.attrs[key] = value
+    with h5py.File(path, "r") as f:
+        attrs = f["x"].attrs
+        for key in values:
+            got, expected = _scalar(attrs, key), attrs[key]  # reference: h5py's own read
+            assert type(got) is type(expected), key
+            assert np.array_equal(got, expected) if key != "empty" else got == expected, key

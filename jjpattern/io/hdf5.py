@@ -162,8 +162,26 @@ def _unit(ds) -> str | None:
     attrs = ds.attrs
     for key in ("units", "unit"):
         if key in attrs:
-            return _text(attrs[key])
+            return _text(_scalar(attrs, key))
     return None
+
+
+def _scalar(attrs, key):
+    """``attrs[key]``; a scalar read as h5py reads it, without its general path (half the
+    time, which counts on every dataset of a map)."""
+    import h5py
+
+    aid = attrs.get_id(key)
+    dtype = aid.dtype
+    if aid.shape != () or dtype.subdtype is not None:
+        return attrs[key]
+    value = np.zeros((), dtype)
+    aid.read(value, mtype=h5py.h5t.py_create(dtype))
+    value = value[()]
+    info = h5py.check_string_dtype(dtype)
+    if info is not None and info.length is None and isinstance(value, bytes):
+        return value.decode("utf-8", "surrogateescape")  # as h5py gives a variable-length one
+    return value
 
 
 def _dataset(handle, name, path, outside):

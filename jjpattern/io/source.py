@@ -45,11 +45,9 @@ class Source:
 
     @property
     def raw(self) -> bytearray | None:
-        """The whole file, read on first use (``None`` for a folder).
-
-        A reader may convert an array inside it in place once it has parsed everything
-        else, so a Source is given to one reader only. The hash is then of these bytes.
-        """
+        """The whole file, read once, on first use (``None`` for a folder); the hash is
+        then taken from these very bytes. Readers that parse bytes use it; the HDF5
+        reader does not (h5py reads the datasets it needs from the file)."""
         if self._raw is None and self.digest is not None:
             self._raw = _read_file(self.path, self._settings)
             if not self.digest.computed:
