@@ -63,7 +63,7 @@ def read(source, settings, kind: str = "auto"):
     try:
         with handle:
             attrs = handle.attrs  # h5py builds an object per access (~50 us)
-            if ("_NCProperties" not in attrs or xarray_module() is None
+            if (not len(attrs) or "_NCProperties" not in attrs or xarray_module() is None
                     or outside.scan(handle)):  # other files: only this reader checks them
                 return outside.sealed(_read_open(handle, attrs, source, settings, kind,
                                                  outside))

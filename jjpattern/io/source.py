@@ -6,6 +6,7 @@ from __future__ import annotations
 import hashlib
 import io
 import os
+import stat as stat_module
 
 from ..errors import InputError
 from .digest import Digest, signature
@@ -130,9 +131,11 @@ def open_source(path, settings=None) -> Source:
     from .limits import check_file_size
 
     path = os.fspath(path)
-    if not os.path.exists(path):
-        raise InputError(f"{path}: file not found; check the path")
-    if os.path.isdir(path):
+    try:
+        is_dir = stat_module.S_ISDIR(os.stat(path).st_mode)
+    except (OSError, ValueError):  # as os.path.exists says no
+        raise InputError(f"{path}: file not found; check the path") from None
+    if is_dir:
         return Source(path, b"", None)
     try:
         with open(path, "rb", buffering=0) as handle:
