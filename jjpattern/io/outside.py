@@ -68,6 +68,11 @@ class Outside:
 
     def dataset(self, ds):
         """The dataset once its other files are refused or noted and hashed."""
+        import h5py
+
+        plist = ds.id.get_create_plist()  # one look, not one per property (~50 us each)
+        if not plist.get_external_count() and plist.get_layout() != h5py.h5d.VIRTUAL:
+            return ds
         names = [_text(entry[0]) for entry in (ds.external or ())]
         if ds.is_virtual:
             names += [_text(vs.file_name) for vs in ds.virtual_sources()
