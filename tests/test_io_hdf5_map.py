@@ -213,3 +213,34 @@ def test_scalar_attributes_read_as_h5py_reads_them(tmp_path):
             got, expected = _scalar(attrs, key), attrs[key]  # reference: h5py's own read
             assert type(got) is type(expected), key
             assert np.array_equal(got, expected) if key != "empty" else got == expected, key
+
+
+@pytest.mark.parametrize("storage", [{}, {"chunks": (8, 64)}], ids=["contiguous", "chunked"])
+@pytest.mark.parametrize("arrangement", ["ascending", "descending", "shuffled"])
+def test_rows_read_in_blocks_land_in_field_order(tmp_path, monkeypatch, storage, arrangement):
+    from jjpattern.io import hdf5
+
+    monkeypatch.setattr(hdf5, "READ_BLOCK", 3 * 8 * BIAS_UA.size)  # blocks of 3 rows, 41 rows
+    rng = np.random.default_rng(9)
+    stored_order = {"ascending": np.arange(FIELD_MT.size),
+                    "descending": np.arange(FIELD_MT.size)[::-1],
+                    "shuffled": rng.permutation(FIELD_MT.size)}[arrangement]
+    path = tmp_path / "m.h5"
+    _write(path, _voltage_uV(rng), field_mT=FIELD_MT[stored_order], **storage)
+    back = np.argsort(FIELD_MT[stored_order], kind="stable")  # stored row of each field row
+    expected = _h5py_values(path)[back] * 1e-6  # reference: h5py, reordered by numpy
+    got = _read_with_source(path)
+    assert np.array_equal(got.field_T, FIELD_MT * 1e-3)
+    assert np.array_equal(got.signal, expected)
+
+
+def test_a_bad_value_in_a_later_block_is_named_in_field_order(tmp_path, monkeypatch):
+    from jjpattern.io import hdf5
+
+    monkeypatch.setattr(hdf5, "READ_BLOCK", 3 * 8 * BIAS_UA.size)
+    v = _voltage_uV(np.random.default_rng(10))
+    v[2, 100] = 2e9  # stored row 2 of a descending file: field row 38 once sorted
+    _write(tmp_path / "big.h5", v, field_mT=FIELD_MT[::-1].copy())
+    value = 38 * BIAS_UA.size + 101
+    with pytest.raises(InputError, match=rf"holds a voltage of 2000 V \(value {value}\)"):
+        read(tmp_path / "big.h5")

@@ -20,7 +20,7 @@ import numpy as np
 from ..errors import InputError
 from .containers import find_group, listing, role_of
 from .limits import LazyColumns, check_points, clip, damaged, real, screen, within
-from .maps import choose_kind, from_arrays, pick_column
+from .maps import choose_kind, from_arrays, permute_rows, pick_column
 from .netcdf import INTERNAL_ATTRS, xarray_module
 from .outside import Outside
 from .sweep import build_sweep
@@ -232,8 +232,9 @@ class StoredMap:
         except DAMAGE as exc:
             raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
 
-    def scaled(self, factor: float, limit: float) -> tuple[np.ndarray, bool]:
-        """``(values times factor, whether none is beyond limit)`` (see :func:`screen`)."""
+    def scaled(self, factor: float, limit: float, order=None) -> tuple[np.ndarray, bool]:
+        """``(values times factor, whether none is beyond limit)`` (see :func:`screen`),
+        the rows in ``order`` (stored row of each row given) when it is not ``None``."""
         import h5py
 
         ds = self.ds
@@ -246,18 +247,28 @@ class StoredMap:
             raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
         if not blocks:  # chunks, filters, other files: HDF5 reads it whole
             values = self.whole()
-            return values, within(values, limit, factor)
+            inside = within(values, limit, factor)
+            if order is not None:
+                permute_rows(values, order)
+            return values, inside
         n_rows, n_cols = ds.shape
         step = max(1, READ_BLOCK // (8 * n_cols))
         values = np.empty(ds.shape, np.float64)
+        if order is not None:  # each block put in place from a buffer, not rows swapped after
+            to = np.empty_like(order)
+            to[order] = np.arange(order.size)
+            buffer = np.empty((min(step, n_rows), n_cols), np.float64)
         inside = True
         try:
             space = ds.id.get_space()
             for start in range(0, n_rows, step):
-                block = values[start:start + step]
+                block = (values[start:start + step] if order is None
+                         else buffer[:min(step, n_rows - start)])
                 space.select_hyperslab((start, 0), block.shape)
                 ds.id.read(h5py.h5s.create_simple(block.shape), space, block)
                 inside = screen(block, limit, factor) and inside
+                if order is not None:
+                    values[to[start:start + step]] = block
         except DAMAGE as exc:
             raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
         return values, inside

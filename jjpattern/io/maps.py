@@ -187,7 +187,7 @@ def from_long_table(columns: dict, *, source, sha256, metadata,
     return IVMap(source, sha256, steps, share_bias(b2), s2, kind, dict(metadata), "long table")
 
 
-def _permute_rows(values, order) -> None:
+def permute_rows(values, order) -> None:
     """``values[:] = values[order]`` through one row buffer instead of a second map."""
     done = np.zeros(order.size, dtype=bool)
     for start in np.flatnonzero(order != np.arange(order.size)):
@@ -206,7 +206,7 @@ def _rows(values, order, owned):
         values, owned = np.ascontiguousarray(values), True
     if order is not None:
         if owned and values.flags.writeable:
-            _permute_rows(values, order)
+            permute_rows(values, order)
         else:
             values, owned = values[order], True
     return values, owned and values.flags.writeable
@@ -230,7 +230,7 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     A 1-D bias (or a 2-D one with equal rows) stays one row broadcast over the
     map. With ``owned`` the float64 arrays belong to the caller no longer and
     are scaled in place instead of copied. ``signal_raw`` may be a read not yet
-    done (``shape``, ``ndim``, ``whole()`` and ``scaled(factor, limit)``, see
+    done (``shape``, ``ndim``, ``whole()`` and ``scaled(factor, limit, order)``, see
     :class:`jjpattern.io.hdf5.StoredMap`): it is read once its unit is known, into
     an array of its own scaled and screened block by block as it arrives.
     """
@@ -283,8 +283,7 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     # by the checks below.
     with np.errstate(invalid="ignore", over="ignore"):
         if deferred:  # scaled and screened as read; the sentence only if something is amiss
-            signal, inside = sig.scaled(s_factor, MAX_SIGNAL[kind])
-            signal, _ = _rows(signal, order, True)
+            signal, inside = sig.scaled(s_factor, MAX_SIGNAL[kind], order)
             if not inside:
                 check_signal(source, clip(names["signal"]), signal, kind)
         else:
