@@ -126,27 +126,33 @@ def _map_file(tmp):
 
 
 def row_read(args):
-    import hashlib
-
     from bench_read import h5py_raw
 
     from jjpattern.io import read
+    from jjpattern.io.source import open_source
+
+    def read_and_digest():
+        return read(path).sha256  # what writing a record asks for
+
+    def digest():
+        return open_source(path).sha256
 
     with tempfile.TemporaryDirectory() as tmp:
         path, _, _, v = _map_file(tmp)
         ours, ref = clock(args.repeats, lambda: read(path)), clock(args.repeats,
                                                                     lambda: h5py_raw(path))
+        sha, both = clock(args.repeats, digest), clock(args.repeats, read_and_digest)
         p_ours, p_ref = peak(lambda: read(path)), peak(lambda: h5py_raw(path))
-        raw = Path(path).read_bytes()
-    # The provenance hash is kept whole: the rest is what reading costs beside it.
-    sha = clock(args.repeats, lambda: hashlib.sha256(raw).hexdigest())
-    rest = (ours[0] - sha[0], ours[1] - sha[1])
+        p_both = peak(read_and_digest)
+    # The input's hash is taken when a record is written, not while reading.
     print(f"reading a 1001 x 2001 HDF5 map ({v.nbytes / 2**20:.1f} MiB):")
-    show("jjpattern.io.read", ours, ref, "h5py, 3 datasets", "1.5x")
-    show(f"  of which SHA-256 (cpu {1e3 * sha[1]:5.1f}); rest", rest, ref, "h5py, 3 datasets",
-         "1.5x")
-    print(f"  peak memory {p_ours / v.nbytes:4.2f} x the map | h5py {p_ref / v.nbytes:4.2f} x "
-          f"| ratio {p_ours / p_ref:4.2f} (target 1.5)")
+    show("jjpattern read (no digest)", ours, ref, "h5py, 3 datasets", "1.5x")
+    print(f"  SHA-256 when a record is written: {1e3 * sha[0]:.1f} ms (cpu {1e3 * sha[1]:.1f}) "
+          f"= {sha[1] / max(ref[1], 1e-9):.2f} x h5py (cpu)")
+    show("jjpattern read + digest", both, ref, "h5py, 3 datasets", "-")
+    print(f"  peak memory {p_ours / v.nbytes:4.2f} x the map (read + digest "
+          f"{p_both / v.nbytes:4.2f}) | h5py {p_ref / v.nbytes:4.2f} x | ratio "
+          f"{p_ours / p_ref:4.2f} (target 1.5)")
 
 
 def row_loaded(args):

@@ -1,4 +1,4 @@
-"""HDF5 maps read from the hashed bytes: a view of them when stored as they are, else a copy.
+"""HDF5 maps read by h5py from the file's path into one array, converted in place.
 
 The reference for every value is h5py reading the same dataset (times the unit factor);
 the reference for every hash is hashlib over the file.
@@ -30,19 +30,23 @@ def _write(path, v_uV, field_mT=FIELD_MT, **options):
     userblock = options.pop("userblock_size", 0)
     transposed = options.pop("transposed", False)
     extra = options.pop("extra", None)
+    units = options.pop("units", ("mT", "uA", "uV"))
     with h5py.File(path, "w", userblock_size=userblock) as f:
-        f.create_dataset("field", data=field_mT).attrs["units"] = "mT"
-        f.create_dataset("bias", data=BIAS_UA).attrs["units"] = "uA"
+        f.create_dataset("field", data=field_mT).attrs["units"] = units[0]
+        f.create_dataset("bias", data=BIAS_UA).attrs["units"] = units[1]
         f.create_dataset("voltage", data=v_uV.T if transposed else v_uV,
-                         **options).attrs["units"] = "uV"
+                         **options).attrs["units"] = units[2]
         if extra is not None:
             f.create_dataset("log", data=extra)
 
 
 def _read_with_source(path, settings=None):
+    """The map, read without the file's bytes ever being read whole (checked)."""
     source = open_source(path, settings)
-    shares = lambda a: np.shares_memory(a, np.frombuffer(source.raw, np.uint8))  # noqa: E731
-    return reader_for(source).read(source, settings or ReadSettings()), shares
+    got = reader_for(source).read(source, settings or ReadSettings())
+    assert source._raw is None and not source.digest.computed
+    assert got.signal.flags.owndata or got.signal.base.flags.owndata  # one array of its own
+    return got
 
 
 def _h5py_values(path):
@@ -51,27 +55,51 @@ def _h5py_values(path):
 
 
 @pytest.mark.parametrize("userblock", [0, 512])
-def test_map_stored_as_is_is_a_view_of_the_hashed_bytes(tmp_path, userblock):
+def test_map_is_read_by_its_path_into_its_own_array(tmp_path, userblock):
     v = _voltage_uV(np.random.default_rng(1))
     path = tmp_path / "m.h5"
     _write(path, v, userblock_size=userblock)
     expected = _h5py_values(path) * 1e-6
-    got, shares = _read_with_source(path)
-    assert shares(got.signal) and got.signal.flags.c_contiguous
+    got = _read_with_source(path)
+    assert got.signal.flags.c_contiguous and got.signal.flags.writeable
     assert np.array_equal(got.signal, expected)
     assert got.sha256 == hashlib.sha256(path.read_bytes()).hexdigest()  # hashlib
+    assert got.bias_A.strides[0] == 0  # the shared bias row stays shared
     assert np.array_equal(got.bias_A[3], BIAS_UA * 1e-6)
 
 
-def test_descending_field_is_reordered_inside_the_bytes(tmp_path):
+def test_descending_field_is_reordered_in_place(tmp_path):
     v = _voltage_uV(np.random.default_rng(2))
     path = tmp_path / "m.h5"
     _write(path, v, field_mT=FIELD_MT[::-1].copy())
     expected = _h5py_values(path)[::-1] * 1e-6
-    got, shares = _read_with_source(path)
-    assert shares(got.signal)
+    got = _read_with_source(path)
     assert np.array_equal(got.field_T, FIELD_MT * 1e-3)
     assert np.array_equal(got.signal, expected)
+    assert got.bias_A.strides[0] == 0
+
+
+# Unit factors to SI as the SI prefixes define them (milli 1e-3, micro 1e-6, nano 1e-9).
+@pytest.mark.parametrize("units, factors", [
+    (("mT", "uA", "uV"), (1e-3, 1e-6, 1e-6)),
+    (("T", "A", "V"), (1.0, 1.0, 1.0)),
+    (("uT", "nA", "mV"), (1e-6, 1e-9, 1e-3)),
+])
+@pytest.mark.parametrize("descending", [False, True], ids=["ascending", "descending"])
+def test_values_are_h5py_values_times_the_unit_factor_bit_for_bit(tmp_path, units, factors,
+                                                                 descending):
+    v = _voltage_uV(np.random.default_rng(8))
+    field = FIELD_MT[::-1].copy() if descending else FIELD_MT
+    path = tmp_path / "m.h5"
+    _write(path, v, field_mT=field, units=units)
+    with h5py.File(path, "r") as f:
+        stored = {name: np.asarray(f[name][()], dtype=np.float64)
+                  for name in ("field", "bias", "voltage")}
+    order = slice(None, None, -1) if descending else slice(None)
+    got = _read_with_source(path)
+    assert np.array_equal(got.field_T, stored["field"][order] * factors[0])
+    assert np.array_equal(got.bias_A[0], stored["bias"] * factors[1])
+    assert np.array_equal(got.signal, stored["voltage"][order] * factors[2])
 
 
 @pytest.mark.parametrize("options", [
@@ -86,8 +114,7 @@ def test_other_storage_is_read_by_hdf5_with_the_same_values(tmp_path, options):
     with h5py.File(path, "r") as f:
         stored = np.asarray(f["voltage"][()], dtype=np.float64)
     expected = (stored.T if options.get("transposed") else stored) * 1e-6
-    got, shares = _read_with_source(path)
-    assert not shares(got.signal)
+    got = _read_with_source(path)
     assert np.array_equal(got.signal, expected)
 
 
@@ -153,19 +180,6 @@ def test_a_file_that_changes_size_while_read_is_read_to_its_end():
         _read_all(io.BytesIO(b"abcdef"), 4, "f", ReadSettings(max_bytes=5))
 
 
-def test_view_only_where_hdf5_reads_the_same_bytes(tmp_path):
-    from jjpattern.io.hdf5 import _stored
-
-    path = tmp_path / "m.h5"
-    _write(path, _voltage_uV(np.random.default_rng(6)))
-    raw = bytearray(path.read_bytes())
-    with h5py.File(path, "r") as f:
-        ds = f["voltage"]
-        assert np.array_equal(_stored(ds, raw), ds[()])
-        raw[ds.id.get_offset()] ^= 0xFF  # the bytes given are not the file HDF5 reads
-        assert _stored(ds, raw) is None
-
-
 def test_arrays_not_owned_are_left_as_given():
     from jjpattern.io.maps import from_arrays
 
@@ -180,3 +194,53 @@ def test_arrays_not_owned_are_left_as_given():
     assert all(np.array_equal(a, b) for a, b in zip((field, bias, signal), given, strict=True))
     assert np.array_equal(got.signal, signal[::-1] * 1e-6)
     assert np.array_equal(got.bias_A, bias[::-1] * 1e-6)
+
+
+def test_scalar_attributes_read_as_h5py_reads_them(tmp_path):
+    from jjpattern.io.hdf5 import _scalar
+
+    path = tmp_path / "a.h5"
+    values = {"vlen": "uV", "utf8": "\u00b5V", "fixed": np.bytes_(b"mT"), "int": 3,
+              "float": 2.5, "array": np.array([1.0, 2.0]), "empty": h5py.Empty("f8"),
+              "vlen bytes": b"\xffuV"}
+    with h5py.File(path, "w") as f:
+        ds = f.create_dataset("x", data=np.zeros(3))
+        for key, value in values.items():
+            ds.attrs[key] = value
+    with h5py.File(path, "r") as f:
+        attrs = f["x"].attrs
+        for key in values:
+            got, expected = _scalar(attrs, key), attrs[key]  # reference: h5py's own read
+            assert type(got) is type(expected), key
+            assert np.array_equal(got, expected) if key != "empty" else got == expected, key
+
+
+@pytest.mark.parametrize("storage", [{}, {"chunks": (8, 64)}], ids=["contiguous", "chunked"])
+@pytest.mark.parametrize("arrangement", ["ascending", "descending", "shuffled"])
+def test_rows_read_in_blocks_land_in_field_order(tmp_path, monkeypatch, storage, arrangement):
+    from jjpattern.io import hdf5
+
+    monkeypatch.setattr(hdf5, "READ_BLOCK", 3 * 8 * BIAS_UA.size)  # blocks of 3 rows, 41 rows
+    rng = np.random.default_rng(9)
+    stored_order = {"ascending": np.arange(FIELD_MT.size),
+                    "descending": np.arange(FIELD_MT.size)[::-1],
+                    "shuffled": rng.permutation(FIELD_MT.size)}[arrangement]
+    path = tmp_path / "m.h5"
+    _write(path, _voltage_uV(rng), field_mT=FIELD_MT[stored_order], **storage)
+    back = np.argsort(FIELD_MT[stored_order], kind="stable")  # stored row of each field row
+    expected = _h5py_values(path)[back] * 1e-6  # reference: h5py, reordered by numpy
+    got = _read_with_source(path)
+    assert np.array_equal(got.field_T, FIELD_MT * 1e-3)
+    assert np.array_equal(got.signal, expected)
+
+
+def test_a_bad_value_in_a_later_block_is_named_in_field_order(tmp_path, monkeypatch):
+    from jjpattern.io import hdf5
+
+    monkeypatch.setattr(hdf5, "READ_BLOCK", 3 * 8 * BIAS_UA.size)
+    v = _voltage_uV(np.random.default_rng(10))
+    v[2, 100] = 2e9  # stored row 2 of a descending file: field row 38 once sorted
+    _write(tmp_path / "big.h5", v, field_mT=FIELD_MT[::-1].copy())
+    value = 38 * BIAS_UA.size + 101
+    with pytest.raises(InputError, match=rf"holds a voltage of 2000 V \(value {value}\)"):
+        read(tmp_path / "big.h5")

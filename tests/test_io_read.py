@@ -1,6 +1,7 @@
 """The read() entry point: one opening and one hash per input, the reader registry, raw maps."""
 
 import hashlib
+import os
 
 import h5py
 import numpy as np
@@ -61,19 +62,26 @@ def test_sha256_is_of_the_file_bytes(tmp_path):
     assert load(tmp_path / "s.csv").sha256 == expected
 
 
-def test_what_is_read_is_what_was_hashed(tmp_path):
-    # The file changes between opening and reading: the reader parses the hashed bytes.
+def test_a_file_changed_after_opening_is_refused_when_hashed(tmp_path):
+    # The HDF5 reader reads the file by its path; the hash, taken later, must be of the
+    # file as it was opened: a change of size or time since then is refused in one sentence.
     path = tmp_path / "m.h5"
     _map_h5(path, np.array([1.0, 2.0]), np.array([0.0, 1.0]), np.array([[1.0, 2.0],
                                                                        [3.0, 4.0]]))
     source = open_source(path)
     _map_h5(path, np.array([1.0, 2.0]), np.array([0.0, 1.0]), np.zeros((2, 2)))
+    stat = os.stat(path)
+    os.utime(path, ns=(stat.st_atime_ns, stat.st_mtime_ns + 10**9))  # a later clock tick
     ivmap = reader_for(source).read(source, ReadSettings())
-    assert ivmap.sha256 == source.sha256
-    assert np.array_equal(ivmap.signal, np.array([[1.0, 2.0], [3.0, 4.0]]) * 1e-6)
+    assert np.array_equal(ivmap.signal, np.zeros((2, 2)))  # what the file holds now
+    with pytest.raises(InputError, match=r"m\.h5: the file changed while it was being "
+                                         r"analysed; run again once it is complete$"):
+        ivmap.sha256  # noqa: B018
 
 
-def test_hdf5_opened_once_from_the_bytes(tmp_path, monkeypatch):
+def test_hdf5_opened_once_by_its_path_without_its_bytes(tmp_path, monkeypatch):
+    from jjpattern.io import source as source_module
+
     path = tmp_path / "m.h5"
     _map_h5(path, np.arange(5.0), np.arange(7.0), np.ones((5, 7)))
     calls = []
@@ -83,9 +91,16 @@ def test_hdf5_opened_once_from_the_bytes(tmp_path, monkeypatch):
         calls.append(name)
         return real(name, *args, **kwargs)
 
+    def whole_file(*args):
+        raise AssertionError("the whole file was read")
+
     monkeypatch.setattr(h5py, "File", counting)
-    assert isinstance(read(path), IVMap)
-    assert len(calls) == 1 and not isinstance(calls[0], str)
+    monkeypatch.setattr(source_module, "_read_file", whole_file)
+    ivmap = read(path)
+    assert isinstance(ivmap, IVMap)
+    assert calls == [str(path)]
+    # hashlib over the file is the reference; the hash streams the file.
+    assert ivmap.sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
 
 
 def test_kind_decided_from_data_or_forced(tmp_path):

@@ -18,6 +18,7 @@ import numpy as np
 from ..errors import InputError
 from ..flags import make_flag
 from ..fmt import csv_number
+from ..io.digest import held
 from ..io.maps import IVMap
 from ..io.sweep import MIN_POINTS, Branch, Sweep
 from ..sampling import tidy
@@ -114,7 +115,7 @@ class Extraction:
         if not out:
             raise InputError(f"{self.ivmap.path}: fewer than {MIN_POINTS} field rows gave a "
                              "critical current; check the bias window and the criterion")
-        return Sweep(self.ivmap.path, self.ivmap.sha256, tuple(out), dict(self.ivmap.metadata),
+        return Sweep(self.ivmap.path, held(self.ivmap), tuple(out), dict(self.ivmap.metadata),
                      "field", int(self.field_T.size))
 
     def methods_text(self) -> tuple[str, dict]:

@@ -1,8 +1,9 @@
 """Reading inputs: every format ends up as a :class:`Sweep` or an :class:`IVMap` in SI.
 
-:func:`read` is the entry point: it opens the input once (bytes read and
-hashed once, :mod:`jjpattern.io.source`), lets :mod:`jjpattern.io.registry`
-pick the reader, and returns an Ic(B) sweep or a raw V(I, B) map.
+:func:`read` is the entry point: it opens the input once (bytes read once if a reader
+parses them, hashed once, when a record needs it: :mod:`jjpattern.io.source`), lets
+:mod:`jjpattern.io.registry` pick the reader, and returns an Ic(B) sweep or a raw
+V(I, B) map.
 :func:`load` (a sweep) and :func:`load_map` (a raw map) force the kind.
 """
 
@@ -14,6 +15,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..settings import ReadSettings
+from .digest import held
 from .layout import field_window
 from .maps import IVMap
 from .objects import read_object as _read_object
@@ -53,6 +55,7 @@ def read(path, settings: ReadSettings | None = None, *, kind: str = "auto") -> S
     source = open_source(path, settings)
     try:
         data = reader_for(source).read(source, settings, kind)
+        source.settle()
     except MemoryError:
         # The sizes declared are checked before reading; this is what they could not foresee
         # (a compressed array that unpacks to more than memory holds).
@@ -77,8 +80,8 @@ def _windowed(data, settings: ReadSettings):
         return data
     bias = (np.broadcast_to(data.bias_A[0], (int(keep.sum()), data.bias_A.shape[1]))
             if data.bias_A.strides[0] == 0 else data.bias_A[keep])
-    return dataclasses.replace(data, field_T=data.field_T[keep], bias_A=bias,
-                               signal=data.signal[keep])
+    return dataclasses.replace(data, sha256=held(data), field_T=data.field_T[keep],
+                               bias_A=bias, signal=data.signal[keep])
 
 
 def load(path, *, field_col=None, ic_cols=(), field_unit=None, current_unit=None,

@@ -1,4 +1,4 @@
-"""HDF5 through h5py, from the bytes already read (the file is not opened again).
+"""HDF5 through h5py's own file driver: only the datasets used are read, each once.
 
 Sweep layout: 1-D datasets at the root named like the columns of a text file
 (``field``, ``ic``, ``ic_pos``, ``ic_neg`` ...), each with a ``units``
@@ -19,8 +19,8 @@ import numpy as np
 
 from ..errors import InputError
 from .containers import find_group, listing, role_of
-from .limits import LazyColumns, check_points, clip, damaged, real
-from .maps import choose_kind, from_arrays, pick_column
+from .limits import LazyColumns, check_points, clip, damaged, real, screen, within
+from .maps import choose_kind, from_arrays, permute_rows, pick_column
 from .netcdf import INTERNAL_ATTRS, xarray_module
 from .outside import Outside
 from .sweep import build_sweep
@@ -32,7 +32,7 @@ SUFFIXES = (".h5", ".hdf5", ".hdf")
 
 def sniff(source) -> bool:
     """The HDF5 signature at the start, or an HDF5 suffix."""
-    return not source.is_folder and (source.raw.startswith(SIGNATURE)
+    return not source.is_folder and (source.head.startswith(SIGNATURE)
                                      or source.suffix in SUFFIXES)
 
 
@@ -43,25 +43,30 @@ DAMAGE = (OSError, RuntimeError, KeyError, ValueError, TypeError, OverflowError)
 def read(source, settings, kind: str = "auto"):
     """A Sweep from 1-D datasets, or an IVMap when the root holds a 2-D dataset.
 
-    Data kept in other files (external links, external storage, virtual datasets)
-    are refused unless the read setting ``allow_external`` is set; then the file is
-    opened by its path, so that those files are found beside it, and they are hashed.
+    The file is opened by its path (its bytes are never all in memory); its hash, taken
+    when a record needs it, is refused if the file changed since it was opened
+    (:class:`jjpattern.io.digest.Digest`). Data kept in other files (external links,
+    external storage, virtual datasets) are refused unless the read setting
+    ``allow_external`` is set; then those files are found beside it, and they are hashed.
     """
     import h5py
 
     outside = Outside(source, settings)
     try:
-        # The stream reads the very bytes that were hashed: what is read is what was hashed.
-        handle = (h5py.File(source.path, "r") if outside.allowed
-                  else h5py.File(source.stream(), "r"))
-    except DAMAGE as exc:
-        raise InputError(f"{source.path}: not a readable HDF5 file "
-                         f"({exc.__class__.__name__})") from None
+        handle = h5py.File(source.path, "r")
+    except DAMAGE:
+        try:  # a lock or a file system HDF5 cannot open it through: from the bytes
+            handle = h5py.File(source.stream(), "r")
+        except DAMAGE as exc:
+            raise InputError(f"{source.path}: not a readable HDF5 file "
+                             f"({exc.__class__.__name__})") from None
     try:
         with handle:
-            if ("_NCProperties" not in handle.attrs or xarray_module() is None
+            attrs = handle.attrs  # h5py builds an object per access (~50 us)
+            if (not len(attrs) or "_NCProperties" not in attrs or xarray_module() is None
                     or outside.scan(handle)):  # other files: only this reader checks them
-                return outside.sealed(_read_open(handle, source, settings, kind, outside))
+                return outside.sealed(_read_open(handle, attrs, source, settings, kind,
+                                                 outside))
     except InputError:
         raise
     except DAMAGE as exc:
@@ -71,13 +76,13 @@ def read(source, settings, kind: str = "auto"):
     return netcdf.read(source, settings, kind)
 
 
-def _read_open(handle, source, settings, kind, outside):
+def _read_open(handle, attrs, source, settings, kind, outside):
     import h5py
 
-    metadata = _metadata(handle.attrs)
-    # h5py builds an object per lookup (slow, ~0.5 ms): look each dataset up once.
+    metadata = _metadata(attrs) if len(attrs) else {}
+    # h5py builds an object per lookup (slow, ~0.1 ms): look each dataset up once.
     root = {}
-    for key in handle.keys():
+    for key in handle:
         outside.link(handle, key)
         value = outside.get(handle, key)
         if isinstance(value, h5py.Dataset) and not _dimension_only(value):
@@ -89,11 +94,11 @@ def _read_open(handle, source, settings, kind, outside):
             group, kind, root = found
             metadata.update(_metadata(handle[group].attrs))
             layout["group"] = "/" + group
-    has_map = any(v.ndim == 2 for v in root.values())
+    has_map = any(len(v.shape) == 2 for v in root.values())  # shape is cached, ndim is not
     if choose_kind(kind, settings, has_map) == "map":
         return _map(handle, root, source, settings, metadata, outside)
     columns, units = _columns(handle, root, source.path, settings, outside)
-    return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
+    return build_sweep(columns, source=source.path, sha256=source.digest, settings=settings,
                        units=units, metadata=metadata, where="dataset", layout=layout)
 
 
@@ -103,7 +108,8 @@ def _metadata(attrs) -> dict:
 
 def _dimension_only(ds) -> bool:
     """A netCDF dimension without a variable: a placeholder, not data."""
-    name = ds.attrs.get("NAME", b"")
+    attrs = ds.attrs
+    name = attrs["NAME"] if "NAME" in attrs else b""  # a miss through get() raises inside
     return isinstance(name, bytes) and name.startswith(b"This is a netCDF dimension but not")
 
 
@@ -114,7 +120,7 @@ def _names_given(settings) -> bool:
 
 def _recognised(root, settings, kind) -> bool:
     """The root holds a map, or a field and a current named as the readers know them."""
-    if kind != "sweep" and any(v.ndim == 2 for v in root.values()):
+    if kind != "sweep" and any(len(v.shape) == 2 for v in root.values()):
         return True
     roles = {role_of(name, settings.coil_T_per_A is not None) for name in root}
     return "field" in roles and ("ic" in roles or kind == "map")
@@ -156,8 +162,26 @@ def _unit(ds) -> str | None:
     attrs = ds.attrs
     for key in ("units", "unit"):
         if key in attrs:
-            return _text(attrs[key])
+            return _text(_scalar(attrs, key))
     return None
+
+
+def _scalar(attrs, key):
+    """``attrs[key]``; a scalar read as h5py reads it, without its general path (half the
+    time, which counts on every dataset of a map)."""
+    import h5py
+
+    aid = attrs.get_id(key)
+    dtype = aid.dtype
+    if aid.shape != () or dtype.subdtype is not None:
+        return attrs[key]
+    value = np.zeros((), dtype)
+    aid.read(value, mtype=h5py.h5t.py_create(dtype))
+    value = value[()]
+    info = h5py.check_string_dtype(dtype)
+    if info is not None and info.length is None and isinstance(value, bytes):
+        return value.decode("utf-8", "surrogateescape")  # as h5py gives a variable-length one
+    return value
 
 
 def _dataset(handle, name, path, outside):
@@ -170,56 +194,84 @@ def _dataset(handle, name, path, outside):
     return found
 
 
-def _floats(ds, path, settings, outside, raw=None) -> np.ndarray:
-    """The dataset as float64, converted by HDF5 while reading (no second copy).
+def _floats(ds, path, settings, outside) -> np.ndarray:
+    """The dataset as one new float64 array, converted by HDF5 while reading (no copy)."""
+    return _numbers(ds, path, settings, outside).whole()
 
-    Its size is checked from its declared shape and where its values live (another
-    file?) before anything is read. Given the file's bytes ``raw``, a map stored there
-    as it is comes back as a view of them (:func:`_stored`), not as a copy.
-    """
+
+def _numbers(ds, path, settings, outside) -> StoredMap:
+    """A numeric dataset, to be read: its size is checked from its declared shape and where
+    its values live (another file?) before anything is read."""
     if ds.dtype.kind == "c" or (ds.dtype.names and set(ds.dtype.names) == {"r", "i"}):
         real(np.zeros(0, complex), path, f"dataset {clip(ds.name)}")
     if ds.dtype.kind not in "iuf":
         raise InputError(f"{path}: dataset {clip(ds.name)} holds {ds.dtype}, not numbers")
     check_points(path, f"dataset {ds.name}", ds.shape, settings)
-    ds = outside.dataset(ds)
-    try:
-        stored = None if raw is None else _stored(ds, raw)
-        if stored is not None:
-            return stored
-        if ds.dtype == np.float64:
-            return np.asarray(ds[()])
-        return np.asarray(ds.astype(np.float64)[()])
-    except DAMAGE as exc:
-        raise damaged(path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+    return StoredMap(outside.dataset(ds), path)
 
 
-def _stored(ds, raw):
-    """A 2-D float64 dataset as a writable view of the file's bytes, or ``None``.
+#: Bytes read at a time into a map, then scaled and screened while still in cache.
+READ_BLOCK = 1 << 21
 
-    Only when HDF5 keeps it there as it is (one contiguous, unfiltered block of native
-    float64 inside this file, aligned) and it is at least half the file: the map then
-    costs no memory beside the file's bytes, which a view keeps alive. The first and last
-    values HDF5 reads must be the view's.
-    """
-    import h5py
 
-    if ds.ndim != 2 or ds.size == 0 or ds.dtype != np.dtype(float) or ds.is_virtual:
-        return None
-    plist = ds.id.get_create_plist()
-    if (plist.get_layout() != h5py.h5d.CONTIGUOUS or plist.get_nfilters()
-            or plist.get_external_count()):
-        return None
-    offset, nbytes = ds.id.get_offset(), ds.size * 8
-    if (offset is None or offset % 8 or offset + nbytes > len(raw) or 2 * nbytes < len(raw)
-            or ds.id.get_storage_size() != nbytes):
-        return None
-    values = np.frombuffer(raw, np.float64, ds.size, offset).reshape(ds.shape)
-    count = min(ds.shape[1], 64)
-    for row, cols in ((0, slice(0, count)), (-1, slice(-count, None))):
-        if ds[row, cols].tobytes() != values[row, cols].tobytes():
-            return None
-    return values
+class StoredMap:
+    """A numeric dataset not yet read: ``whole()`` reads it, ``scaled(factor, limit)`` reads
+    a map row block by row block, each scaled to SI and screened while still in cache."""
+
+    def __init__(self, ds, path: str):
+        self.ds, self.path = ds, path
+        self.shape = ds.shape
+        self.ndim = len(self.shape)
+
+    def whole(self) -> np.ndarray:
+        ds = self.ds
+        try:
+            if ds.dtype == np.float64:
+                return np.asarray(ds[()])
+            return np.asarray(ds.astype(np.float64)[()])
+        except DAMAGE as exc:
+            raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+
+    def scaled(self, factor: float, limit: float, order=None) -> tuple[np.ndarray, bool]:
+        """``(values times factor, whether none is beyond limit)`` (see :func:`screen`),
+        the rows in ``order`` (stored row of each row given) when it is not ``None``."""
+        import h5py
+
+        ds = self.ds
+        try:
+            plist = ds.id.get_create_plist()
+            blocks = not (self.ndim != 2 or ds.size == 0 or ds.is_virtual or plist.get_nfilters()
+                          or plist.get_layout() != h5py.h5d.CONTIGUOUS
+                          or plist.get_external_count())
+        except DAMAGE as exc:
+            raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+        if not blocks:  # chunks, filters, other files: HDF5 reads it whole
+            values = self.whole()
+            inside = within(values, limit, factor)
+            if order is not None:
+                permute_rows(values, order)
+            return values, inside
+        n_rows, n_cols = ds.shape
+        step = max(1, READ_BLOCK // (8 * n_cols))
+        values = np.empty(ds.shape, np.float64)
+        if order is not None:  # each block put in place from a buffer, not rows swapped after
+            to = np.empty_like(order)
+            to[order] = np.arange(order.size)
+            buffer = np.empty((min(step, n_rows), n_cols), np.float64)
+        inside = True
+        try:
+            space = ds.id.get_space()
+            for start in range(0, n_rows, step):
+                block = (values[start:start + step] if order is None
+                         else buffer[:min(step, n_rows - start)])
+                space.select_hyperslab((start, 0), block.shape)
+                ds.id.read(h5py.h5s.create_simple(block.shape), space, block)
+                inside = screen(block, limit, factor) and inside
+                if order is not None:
+                    values[to[start:start + step]] = block
+        except DAMAGE as exc:
+            raise damaged(self.path, f"HDF5 file (dataset {clip(ds.name)})", exc) from None
+        return values, inside
 
 
 def _columns(handle, root, path, settings, outside) -> tuple[LazyColumns, dict]:
@@ -277,13 +329,13 @@ def _map(handle, root, source, settings, metadata, outside):
         else:
             names[role] = pick_column(list(root), role, None, path, f"{role} dataset")
             found[role] = root[names[role]]
-    # The signal last, from the file's bytes when it can be: from_arrays converts it in
-    # place once h5py has read everything else (it is not read from the file again).
-    raw = None if outside.allowed else source.raw
-    arrays = {role: _floats(ds, path, settings, outside, raw if role == "signal" else None)
-              for role, ds in found.items()}
+    # The signal is read last, by from_arrays once its unit is known, into an array of its
+    # own converted in place.
+    arrays = {role: _floats(ds, path, settings, outside) for role, ds in found.items()
+              if role != "signal"}
+    arrays["signal"] = _numbers(found["signal"], path, settings, outside)
     units = {names[role]: unit for role, ds in found.items()
              if (unit := _unit(ds)) is not None}
     return from_arrays(arrays["field"], arrays["bias"], arrays["signal"], units, names,
-                       source=path, sha256=source.sha256, metadata=metadata,
+                       source=path, sha256=source.digest, metadata=metadata,
                        settings=settings, owned=True)

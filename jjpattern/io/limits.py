@@ -175,20 +175,26 @@ def check_current(path: str, label: str, current_A) -> None:
                          "column and its unit")
 
 
-def _within(values: np.ndarray, limit: float, scale: float = 1.0) -> bool:
+def within(values: np.ndarray, limit: float, scale: float = 1.0) -> bool:
     """True when no value is beyond ``limit`` in magnitude (NaN is passed over, infinity is
     beyond), once ``values`` are multiplied by ``scale`` in place, block by block."""
     if scale != 1.0 and not (values.flags.c_contiguous and values.flags.writeable):
         raise ValueError("scaling in place needs a C-contiguous, writable array")
     inside = True
-    with np.errstate(invalid="ignore", over="ignore"):
-        for _, block in _blocks(values):
-            if scale != 1.0:
-                block *= scale
-            # fmax / fmin skip NaN; an all-NaN block gives NaN, which compares False.
-            if inside and (np.fmax.reduce(block) > limit or np.fmin.reduce(block) < -limit):
-                inside = False
+    for _, block in _blocks(values):
+        inside = screen(block, limit, scale) and inside
     return inside
+
+
+def screen(block: np.ndarray, limit: float, scale: float = 1.0) -> bool:
+    """``block`` (1-D or C-contiguous) times ``scale`` in place; True when no value is beyond
+    ``limit`` in magnitude (NaN passed over, infinity beyond)."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        if scale != 1.0:
+            block *= scale
+        flat = block.reshape(-1)
+        # fmax / fmin skip NaN; an all-NaN block gives NaN, which compares False.
+        return not (np.fmax.reduce(flat) > limit or np.fmin.reduce(flat) < -limit)
 
 
 def check_signal(path: str, label: str, signal, kind: str, scale: float = 1.0) -> None:
@@ -199,7 +205,7 @@ def check_signal(path: str, label: str, signal, kind: str, scale: float = 1.0) -
     sentence naming the first bad value comes from a second look, only when one is found.
     """
     signal = np.asarray(signal)
-    if _within(signal, MAX_SIGNAL[kind], scale):
+    if within(signal, MAX_SIGNAL[kind], scale):
         return
     if any(np.isinf(block).any() for _, block in _blocks(signal)):
         raise InputError(f"{path}: {label} holds infinite values; leave missing points "

@@ -19,7 +19,17 @@ import numpy as np
 
 from ..errors import InputError
 from ..settings import ReadSettings
-from .limits import check_current, check_field, check_signal, clip, names_list, real, scaled
+from .digest import DigestField
+from .limits import (
+    MAX_SIGNAL,
+    check_current,
+    check_field,
+    check_signal,
+    clip,
+    names_list,
+    real,
+    scaled,
+)
 from .sweep import field_values_T, is_field_name, numeric, role_key
 from .units import (
     current_factor,
@@ -43,7 +53,7 @@ class IVMap:
     """
 
     path: str
-    sha256: str | None
+    sha256: str | None = DigestField()  # may hold a Digest, hashed on first use
     field_T: np.ndarray
     bias_A: np.ndarray
     signal: np.ndarray
@@ -177,7 +187,7 @@ def from_long_table(columns: dict, *, source, sha256, metadata,
     return IVMap(source, sha256, steps, share_bias(b2), s2, kind, dict(metadata), "long table")
 
 
-def _permute_rows(values, order) -> None:
+def permute_rows(values, order) -> None:
     """``values[:] = values[order]`` through one row buffer instead of a second map."""
     done = np.zeros(order.size, dtype=bool)
     for start in np.flatnonzero(order != np.arange(order.size)):
@@ -196,7 +206,7 @@ def _rows(values, order, owned):
         values, owned = np.ascontiguousarray(values), True
     if order is not None:
         if owned and values.flags.writeable:
-            _permute_rows(values, order)
+            permute_rows(values, order)
         else:
             values, owned = values[order], True
     return values, owned and values.flags.writeable
@@ -219,18 +229,25 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
 
     A 1-D bias (or a 2-D one with equal rows) stays one row broadcast over the
     map. With ``owned`` the float64 arrays belong to the caller no longer and
-    are scaled in place instead of copied.
+    are scaled in place instead of copied. ``signal_raw`` may be a read not yet
+    done (``shape``, ``ndim``, ``whole()`` and ``scaled(factor, limit, order)``, see
+    :class:`jjpattern.io.hdf5.StoredMap`): it is read once its unit is known, into
+    an array of its own scaled and screened block by block as it arrives.
     """
+    deferred = hasattr(signal_raw, "scaled")
     for role, values in (("field", field_raw), ("bias", bias_raw), ("signal", signal_raw)):
-        real(values, source, f"{clip(names[role])}")
+        if not (deferred and role == "signal"):  # a deferred read gives float64
+            real(values, source, f"{clip(names[role])}")
     field_raw = np.asarray(field_raw, dtype=float).ravel()
     bias_raw = np.asarray(bias_raw, dtype=float)
-    sig = np.asarray(signal_raw, dtype=float)
+    sig = signal_raw if deferred else np.asarray(signal_raw, dtype=float)
     n_f = field_raw.size
     if sig.ndim != 2:
         raise InputError(f"{source}: {clip(names['signal'])} must be 2-D, found shape {sig.shape}")
     layout = "field x bias"
     if settings.transpose or (sig.shape[0] != n_f and sig.shape[1] == n_f):
+        if deferred:
+            sig, deferred, owned = sig.whole(), False, True
         sig = sig.T
         bias_raw = bias_raw.T if bias_raw.ndim == 2 else bias_raw
         layout = "bias x field (transposed on reading)"
@@ -265,11 +282,16 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     # Signalling NaNs of a damaged file stay NaN quietly; an overflow to infinity is refused
     # by the checks below.
     with np.errstate(invalid="ignore", over="ignore"):
-        signal, in_place = _rows(sig, order, owned)
-        if not in_place and s_factor != 1.0:
-            signal, s_factor = signal * s_factor, 1.0
-        # An owned signal is scaled in place by the check, in the same pass over the map.
-        check_signal(source, clip(names["signal"]), signal, kind, scale=s_factor)
+        if deferred:  # scaled and screened as read; the sentence only if something is amiss
+            signal, inside = sig.scaled(s_factor, MAX_SIGNAL[kind], order)
+            if not inside:
+                check_signal(source, clip(names["signal"]), signal, kind)
+        else:
+            signal, in_place = _rows(sig, order, owned)
+            if not in_place and s_factor != 1.0:
+                signal, s_factor = signal * s_factor, 1.0
+            # An owned signal is scaled in place by the check, in the same pass over the map.
+            check_signal(source, clip(names["signal"]), signal, kind, scale=s_factor)
         if bias_raw.ndim == 1:
             bias = np.broadcast_to(bias_raw * b_factor, signal.shape)
         else:

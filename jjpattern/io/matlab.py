@@ -24,21 +24,21 @@ _MAX_DEPTH = 4  # struct nesting followed
 
 def sniff(source) -> bool:
     """The text header every .mat file starts with, or the suffix."""
-    return not source.is_folder and (source.raw.startswith(HEADER)
+    return not source.is_folder and (source.head.startswith(HEADER)
                                      or source.suffix in SUFFIXES)
 
 
 def read(source, settings, kind: str = "auto"):
     """A Sweep or an IVMap from the variables of a .mat file."""
-    head = source.raw[:128]
+    head = source.head[:128]
     hdf5 = b"\x89HDF\r\n\x1a\n"
-    if b"MATLAB 7.3" in head or hdf5 in (source.raw[:8], source.raw[512:520]):
+    if b"MATLAB 7.3" in head or hdf5 in (source.head[:8], source.head[512:520]):
         arrays, metadata = _v73(source, settings)
         version = "7.3"
     else:
         arrays, metadata = _v5(source, settings)
         version = "5"
-    return from_named_arrays(arrays, source=source.path, sha256=source.sha256,
+    return from_named_arrays(arrays, source=source.path, sha256=source.digest,
                              settings=settings, kind=kind, sep=".",
                              what=f"the MATLAB v{version} file", metadata=metadata,
                              option_names=("variable", "name (struct fields as scan.B_mT)"),

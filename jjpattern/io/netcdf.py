@@ -38,7 +38,7 @@ _POLARITY = {"+": "pos", "pos": "pos", "positive": "pos", "1": "pos", "+1": "pos
 
 def sniff(source) -> bool:
     """The classic netCDF signature, or a netCDF suffix."""
-    return not source.is_folder and (source.raw[:4] in CLASSIC or source.suffix in SUFFIXES)
+    return not source.is_folder and (source.head[:4] in CLASSIC or source.suffix in SUFFIXES)
 
 
 def xarray_module():
@@ -52,7 +52,7 @@ def xarray_module():
 
 def read(source, settings, kind: str = "auto"):
     """A Sweep or an IVMap from a netCDF file (classic or netCDF-4)."""
-    is_hdf5 = source.raw.startswith(HDF5_SIGNATURE)
+    is_hdf5 = source.head.startswith(HDF5_SIGNATURE)
     xr = xarray_module()
     if xr is None:
         if is_hdf5:
@@ -65,7 +65,7 @@ def read(source, settings, kind: str = "auto"):
     dataset = _open(xr, source, engine)
     try:
         with dataset:
-            return read_dataset(dataset, source=source.path, sha256=source.sha256,
+            return read_dataset(dataset, source=source.path, sha256=source.digest,
                                 settings=settings, kind=kind, what="the netCDF file")
     except InputError:
         raise

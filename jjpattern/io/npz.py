@@ -24,7 +24,7 @@ NAME = "npz"
 
 def sniff(source) -> bool:
     """The zip signature at the start, or the ``.npz`` suffix."""
-    return not source.is_folder and (source.raw.startswith(b"PK") or source.suffix == ".npz")
+    return not source.is_folder and (source.head.startswith(b"PK") or source.suffix == ".npz")
 
 
 def read(source, settings, kind: str = "auto"):
@@ -33,7 +33,7 @@ def read(source, settings, kind: str = "auto"):
         raise InputError(f"{source.path}: an .npz file holds an Ic(B) sweep, not a raw map; "
                          "save the map as HDF5 or as a long text table")
     columns, metadata = read_columns(source.raw, source.path, settings)
-    return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
+    return build_sweep(columns, source=source.path, sha256=source.digest, settings=settings,
                        metadata=metadata, where="array")
 
 

@@ -37,7 +37,7 @@ class Outside:
 
     def __init__(self, source, settings):
         self.path = source.path
-        self.sha256 = source.sha256
+        self.digest = source.digest
         self.allowed = bool(getattr(settings, "allow_external", False))
         self.folder = os.path.dirname(os.path.abspath(source.path))
         self.files: dict[str, str] = {}
@@ -68,6 +68,11 @@ class Outside:
 
     def dataset(self, ds):
         """The dataset once its other files are refused or noted and hashed."""
+        import h5py
+
+        plist = ds.id.get_create_plist()  # one look, not one per property (~50 us each)
+        if not plist.get_external_count() and plist.get_layout() != h5py.h5d.VIRTUAL:
+            return ds
         names = [_text(entry[0]) for entry in (ds.external or ())]
         if ds.is_virtual:
             names += [_text(vs.file_name) for vs in ds.virtual_sources()
@@ -120,11 +125,12 @@ class Outside:
             return data
         from .source import combine_digests
 
+        own = self.digest.compute()  # the other files are hashed as they are met: this one too
         listed = [{"path": p, "sha256": h} for p, h in sorted(self.files.items())]
-        combined = combine_digests([(os.path.basename(self.path), self.sha256)]
+        combined = combine_digests([(os.path.basename(self.path), own)]
                                    + [(p, h) for p, h in self.files.items()])
         if hasattr(data, "branches"):
-            layout = {**data.layout, "external_files": listed, "file_sha256": self.sha256}
+            layout = {**data.layout, "external_files": listed, "file_sha256": own}
             return dataclasses.replace(data, sha256=combined, layout=layout)
         metadata = {**data.metadata, "external_files": ", ".join(
             f"{item['path']} (sha256 {item['sha256']})" for item in listed)}

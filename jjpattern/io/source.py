@@ -1,41 +1,71 @@
-"""What a reader is given: the input's path, its bytes (read once) and their SHA-256."""
+"""What a reader is given: the input's path, its first bytes, its bytes (read once, when a
+reader needs them) and their SHA-256 (computed when a record needs it)."""
 
 from __future__ import annotations
 
 import hashlib
 import io
 import os
-from dataclasses import dataclass
+import stat as stat_module
 
 from ..errors import InputError
+from .digest import Digest, signature
+
+#: How much of a file is read at open to recognise its format.
+HEAD_BYTES = 4096
 
 
-@dataclass(frozen=True)
 class Source:
-    """One input, opened once.
+    """One input, opened once: its path, its first bytes, its bytes on demand, its hash.
 
-    Attributes
+    Parameters
     ----------
     path : str
         As given by the user (used in messages and recorded in results).
-    raw : bytearray or None
-        The whole file; ``None`` for a folder, whose reader reads each file once. A
-        reader may convert an array inside it in place once it has parsed everything
-        else (the HDF5 map reader does), so a Source is given to one reader only.
-    sha256 : str or None
-        Hex SHA-256 of ``raw``; ``None`` for a folder (see :func:`folder_sha256`).
-    suffix : str
-        Lower-case file extension with its dot (``".h5"``), ``""`` for a folder.
+    head : bytes
+        The first bytes of the file (at most :data:`HEAD_BYTES`), for recognising the
+        format; ``b""`` for a folder.
+    digest : Digest or None
+        The file's SHA-256, computed on first use; ``None`` for a folder, whose reader
+        hashes each file it reads (see :func:`folder_sha256`).
+    settings : ReadSettings, optional
+        Whose ``max_bytes`` bounds :attr:`raw`.
     """
 
-    path: str
-    raw: bytearray | None
-    sha256: str | None
-    suffix: str
+    def __init__(self, path: str, head: bytes, digest: Digest | None, settings=None):
+        self.path = path
+        self.head = head
+        self.digest = digest
+        self.suffix = "" if digest is None else os.path.splitext(path)[1].lower()
+        self._settings = settings
+        self._raw: bytearray | None = None
 
     @property
     def is_folder(self) -> bool:
-        return self.raw is None
+        return self.digest is None
+
+    @property
+    def raw(self) -> bytearray | None:
+        """The whole file, read once, on first use (``None`` for a folder); the hash is
+        then taken from these very bytes. Readers that parse bytes use it; the HDF5
+        reader does not (h5py reads the datasets it needs from the file)."""
+        if self._raw is None and self.digest is not None:
+            self._raw = _read_file(self.path, self._settings)
+            if not self.digest.computed:
+                self.digest.raw = self._raw
+        return self._raw
+
+    @property
+    def sha256(self) -> str | None:
+        """Hex SHA-256 of the file (computed now if it was not yet); ``None`` for a folder."""
+        return None if self.digest is None else self.digest.compute()
+
+    def settle(self) -> None:
+        """Once read: a reader that parsed the bytes has its hash taken from them now, so
+        that what it returns does not keep the whole file in memory."""
+        if self._raw is not None:
+            self.digest.compute()
+            self._raw = None
 
     def stream(self) -> BufferStream:
         """The bytes as a read-only binary file, without a copy (``io.BytesIO`` copies a
@@ -92,17 +122,45 @@ class BufferStream(io.RawIOBase):
 
 
 def open_source(path, settings=None) -> Source:
-    """Read a file's bytes and hash them, or note a folder; user mistakes raise InputError.
+    """Note a file's size, signature and first bytes, or note a folder; user mistakes
+    raise InputError.
 
-    The size is checked against the read setting ``max_bytes`` before reading.
+    The size is checked against the read setting ``max_bytes`` and an empty (or blank)
+    file is refused here; the bytes are read, and hashed, only when used.
     """
     from .limits import check_file_size
 
     path = os.fspath(path)
-    if not os.path.exists(path):
-        raise InputError(f"{path}: file not found; check the path")
-    if os.path.isdir(path):
-        return Source(path, None, None, "")
+    try:
+        is_dir = stat_module.S_ISDIR(os.stat(path).st_mode)
+    except (OSError, ValueError):  # as os.path.exists says no
+        raise InputError(f"{path}: file not found; check the path") from None
+    if is_dir:
+        return Source(path, b"", None)
+    try:
+        with open(path, "rb", buffering=0) as handle:
+            stat = os.fstat(handle.fileno())
+            check_file_size(path, stat.st_size, settings)
+            head = handle.read(HEAD_BYTES)
+            blank = not head or (head.isspace() and _blank(handle))
+    except OSError as exc:
+        raise InputError(f"{path}: cannot be read ({exc.strerror})") from None
+    if blank:
+        raise InputError(f"{path}: the file is empty")
+    return Source(path, head, Digest(path, signature(stat)), settings)
+
+
+def _blank(handle) -> bool:
+    """Whether the rest of the file is white space too (read only while it is)."""
+    while chunk := handle.read(1 << 16):
+        if not chunk.isspace():
+            return False
+    return True
+
+
+def _read_file(path: str, settings) -> bytearray:
+    from .limits import check_file_size
+
     try:
         with open(path, "rb", buffering=0) as handle:
             size = os.fstat(handle.fileno()).st_size
@@ -113,7 +171,7 @@ def open_source(path, settings=None) -> Source:
     # isspace() stops at the first other byte; strip() could copy a large binary file.
     if not raw or raw.isspace():
         raise InputError(f"{path}: the file is empty")
-    return Source(path, raw, hashlib.sha256(raw).hexdigest(), os.path.splitext(path)[1].lower())
+    return raw
 
 
 def _read_all(handle, size: int, path: str, settings) -> bytearray:

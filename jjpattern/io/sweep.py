@@ -19,6 +19,7 @@ from ..errors import InputError
 from ..fmt import plural
 from ..sampling import tidy
 from ..settings import ReadSettings
+from .digest import DigestField
 from .layout import MIN_POINTS, field_window, run_labels, signed_split, sweep_runs
 from .limits import check_current, check_field, check_rows, clip, names_list, scaled
 from .units import (
@@ -81,7 +82,7 @@ class Sweep:
     """A measured Ic(B) sweep: one or two branches plus metadata from the file."""
 
     path: str | None
-    sha256: str | None
+    sha256: str | None = DigestField()  # may hold a Digest, hashed on first use
     branches: tuple[Branch, ...]
     metadata: dict = field(default_factory=dict)
     field_column: str = ""

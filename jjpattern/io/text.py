@@ -58,9 +58,9 @@ def read(source, settings, kind: str = "auto"):
     metadata, columns, layout = read_table(decode(source.raw, source.path), source.path,
                                            settings.decimal, bound)
     if choose_kind(kind, settings, looks_like_map(columns)) == "map":
-        return from_long_table(columns, source=source.path, sha256=source.sha256,
+        return from_long_table(columns, source=source.path, sha256=source.digest,
                                metadata=metadata, settings=settings)
-    return build_sweep(columns, source=source.path, sha256=source.sha256, settings=settings,
+    return build_sweep(columns, source=source.path, sha256=source.digest, settings=settings,
                        metadata=metadata, layout=layout)
 
 
