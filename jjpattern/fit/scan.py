@@ -70,13 +70,14 @@ def period_grid(span_T: float, p_min_T: float, p_max_T: float, tolerance: float)
     return np.asarray(periods)
 
 
-def _uniform(field_T, ic_A, step_T):
-    """Linear resampling with zero weight inside gaps much wider than the usual step."""
+def _uniform(field_T, ic_A, step_T, median_gap_T=None):
+    """Linear resampling with zero weight inside gaps much wider than the usual step
+    (``median_gap_T``: the median step of the data, when already known)."""
     n = int(np.floor((field_T[-1] - field_T[0]) / step_T)) + 1
     grid = field_T[0] + step_T * np.arange(n)
     values = np.interp(grid, field_T, ic_A)
     gaps = np.diff(field_T)
-    wide = 5.0 * np.median(gaps)
+    wide = 5.0 * (np.median(gaps) if median_gap_T is None else median_gap_T)
     if gaps.max() <= wide:
         return grid, values, np.ones(n)
     k = np.clip(np.searchsorted(field_T, grid, side="right") - 1, 0, gaps.size - 1)
@@ -93,8 +94,8 @@ class _Surface:
     is then real), and the shift to the centre goes once into the data's spectra.
     """
 
-    def __init__(self, x, y, unit_shape, step, extend):
-        self.grid, yg, wg = _uniform(x, y, step)
+    def __init__(self, x, y, unit_shape, step, extend, median_gap=None):
+        self.grid, yg, wg = _uniform(x, y, step, median_gap)
         self.unit = float(np.max(np.abs(yg))) or 1.0
         yg = yg / self.unit
         self.unit_shape = unit_shape
@@ -120,8 +121,8 @@ class _Surface:
         self.n, self.sy, self.syy = np.float32(n), np.float32(sy), np.float32(syy)
         self.step = step
         self._table = None
+        self._lags = np.arange(k + 1, dtype=np.float32)
         self._upper = np.triu(np.ones((_PREFIX_BLOCK, _PREFIX_BLOCK), dtype=np.float32))
-
     def _templates(self, periods):
         """Half templates (lags >= 0) of every period, zero-padded to half the FFT length
         plus one: linear interpolation in one table of the unit shape, one shape
@@ -137,11 +138,13 @@ class _Surface:
             # Value and slope side by side, fetched as one 8-byte item per lag.
             pairs = np.stack([values[:-1], np.diff(values)], axis=1)
             self._table = (float(np.ceil(u_max)), pairs.view(np.int64).ravel())
-        u = np.arange(k + 1, dtype=np.float32)[None, :] * rate.astype(np.float32)[:, None]
-        whole = np.floor(u)
-        pair = np.take(self._table[1], whole.astype(np.int32)).view(np.float32)
-        u -= whole
-        out = np.zeros((periods.size, self.nfft // 2 + 1), dtype=np.float32)
+        u = np.multiply.outer(rate.astype(np.float32), self._lags)
+        # Truncation is the floor here (u >= 0), and far faster than np.floor or np.modf.
+        whole = u.astype(np.int32)
+        pair = np.take(self._table[1], whole).view(np.float32)
+        u -= whole.astype(np.float32)
+        out = np.empty((periods.size, self.nfft // 2 + 1), dtype=np.float32)
+        out[:, k + 1:] = 0.0
         half = out[:, :k + 1]
         np.multiply(u, pair[:, 1::2], out=half)
         half += pair[:, 0::2]
@@ -165,6 +168,8 @@ class _Surface:
         mid = valid // 2
         sums = []
         for part in (h[:rows], h[rows:]):
+            # Separate arrays: one for both would pass the allocator's threshold for
+            # fresh pages (see _BLOCK_BYTES).
             out = np.empty((rows, valid), dtype=np.float32)
             np.subtract(part[:, size:k + 2], part[:, :k + 2 - size], out=out[:, k:])
             straddle = out[:, mid:k]
@@ -176,7 +181,7 @@ class _Surface:
 
     def _correlations(self, periods):
         """Sums over the data window, at every lag, of template * data, template and
-        template squared."""
+        template squared (the first a view into a wider array)."""
         half = self._templates(periods)
         # The spectrum of an even template wrapped around index 0 is real: a type-1 DCT
         # of its half, without the mirrored copy.
@@ -188,92 +193,45 @@ class _Surface:
             t2_f = sfft.dct(np.square(half), type=1, axis=1)
             s_f = sfft.irfft(t_f * self.w_f, self.nfft, axis=1)[:, cut]
             s_ff = sfft.irfft(t2_f * self.w_f, self.nfft, axis=1)[:, cut]
-        t_f = t_f * self.wy_f
-        # Contiguous, as the window sums are: their picks share one flat index.
-        s_yf = np.ascontiguousarray(sfft.irfft(t_f, self.nfft, axis=1)[:, cut])
-        return s_yf, np.ascontiguousarray(s_f), np.ascontiguousarray(s_ff)
+        # Contiguous: the sums below run faster on it than on the strided slice.
+        s_yf = np.ascontiguousarray(sfft.irfft(t_f * self.wy_f, self.nfft, axis=1)[:, cut])
+        return s_yf, s_f, s_ff
 
-    def best_offsets(self, periods):
-        """Per period: best chi-square (grid sums) and its offset, amplitude and background.
-
-        ``periods`` ascending."""
+    def best_lags(self, periods):
+        """Per period: the largest drop in chi-square (grid sums, unit data) over every
+        lag, that lag, and the three sums there."""
+        rows = np.arange(periods.size)
         best = np.empty(periods.size, dtype=np.intp)
+        gain = np.empty(periods.size, dtype=np.float32)
         at_best = np.empty((3, periods.size), dtype=np.float32)
-        floor = np.empty(periods.size, dtype=np.float32)
-        # Lags an eighth of a period apart are enough to find the best lobe of a long
-        # period; the best of those is then refined at every lag around it.
-        factor = 2 ** np.floor(np.log2(np.maximum(periods / (8.0 * self.step), 1.0)))
         # A few periods at a time keep every array small: large ones are fresh pages
         # from the system at each call, and faulting them in took more time than the sums.
         block = max(1, _BLOCK_BYTES // (4 * self.nfft + 4))
         for start in range(0, periods.size, block):
-            stop = min(start + block, periods.size)
-            best[start:stop], at_best[:, start:stop], floor[start:stop] = self._best_lags(
-                self._correlations(periods[start:stop]), factor[start:stop])
-        gain, amp, bkg = self._gain(*at_best, floor)
-        u = self.unit
-        return ((float(self.syy) - gain.astype(float)) * u * u, self.offsets[best],
-                amp.astype(float) * u, bkg.astype(float) * u)
+            part = slice(start, min(start + block, periods.size))
+            sums = self._correlations(periods[part])
+            floor = np.maximum(np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1, keepdims=True),
+                               np.float32(1e-30))
+            score = self._score(*sums, floor)
+            best[part] = lag = np.argmax(score, axis=1)
+            local = rows[:lag.size]
+            gain[part] = score[local, lag]
+            for i, a in enumerate(sums):
+                at_best[i, part] = a[local, lag]
+        return gain, best, at_best
 
-    def _best_lags(self, sums, factor):
-        """Best lag of each row of ``sums``, the sums there, and the overlap floor.
+    def best_offsets(self, periods):
+        """Per period: best chi-square (grid sums) and its offset, amplitude and background."""
+        gain, best, at_best = self.best_lags(periods)
+        return (self.chisq(gain), self.offsets[best], *self.amplitudes(at_best))
 
-        ``factor`` (ascending) is each row's coarse step in lags: the best of every
-        ``factor``-th lag is refined at every lag within a coarse step of it. Rows of all
-        factors above one are searched together, the rows with fewer lags repeating
-        their last one, which cannot change an argmax."""
-        floor = np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1, keepdims=True)
-        best = np.zeros(factor.size, dtype=np.intp)
-        split = int(np.searchsorted(factor, 1.5))
-        if split:
-            best[:split] = np.argmax(self._score(*(a[:split] for a in sums), floor[:split]),
-                                     axis=1)
-        if split < factor.size:
-            wide = slice(split, factor.size)
-            k = factor[wide, None].astype(np.intp)
-            first = np.arange(split, factor.size)[:, None] * self.valid  # flat row starts
-            last = (self.valid - 1) // k * k
-            cols = np.minimum(np.arange(-(-self.valid // k[0, 0]))[None, :] * k, last)
-            at = first + cols
-            coarse = self._score(*(np.take(a, at) for a in sums), floor[wide])
-            best[wide] = cols[np.arange(k.size), np.argmax(coarse, axis=1)]
-            reach = int(k[-1, 0]) - 1
-            step = np.clip(np.arange(-reach, reach + 1)[None, :], 1 - k, k - 1)
-            cols = np.clip(best[wide, None] + step, 0, self.valid - 1)
-            at = first + cols
-            fine = self._score(*(np.take(a, at) for a in sums), floor[wide])
-            best[wide] = cols[np.arange(k.size), np.argmax(fine, axis=1)]
-        at = np.arange(factor.size) * self.valid + best
-        return best, [np.take(a, at) for a in sums], floor[:, 0]
+    def chisq(self, gain):
+        """Chi-square (grid sums) left after a drop ``gain`` from :meth:`best_lags`."""
+        return (float(self.syy) - gain.astype(float)) * self.unit**2
 
-    def _score(self, s_yf, s_f, s_ff, floor):
-        """The gain of :meth:`_gain` alone, with few temporaries: ranks the lags where only
-        the best one is wanted."""
-        mean, inv_n = self.sy / self.n, np.float32(1.0) / self.n
-        # amp_det / n, det / n and the sign of bkg_det of _gain.
-        amp = s_f * mean
-        np.subtract(s_yf, amp, out=amp)
-        det = np.square(s_f)
-        det *= inv_n
-        np.subtract(s_ff, det, out=det)
-        both = np.greater_equal(s_ff * self.sy, s_f * s_yf)
-        both &= amp > 0
-        both &= det > 0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            score = np.maximum(s_yf, np.float32(0.0))
-            score *= score
-            score /= s_ff
-            amp *= amp
-            amp /= det
-            amp += self.sy * mean
-        np.copyto(score, amp, where=both)
-        np.copyto(score, np.float32(0.0), where=s_ff <= floor)
-        return score
-
-    def _gain(self, s_yf, s_f, s_ff, floor):
-        """Least squares of y = amp * template + bkg at every lag, in closed form; where
-        that needs amp <= 0 or bkg < 0, the pure pattern (bkg = 0) instead. Returns the
-        drop in the sum of squares, the amplitude and the background."""
+    def amplitudes(self, at_best):
+        """Amplitude and background (data units) from the sums at a lag."""
+        s_yf, s_f, s_ff = at_best
         n, sy = self.n, self.sy
         det = s_ff * n - s_f * s_f
         amp_det = s_yf * n - s_f * sy
@@ -281,17 +239,52 @@ class _Surface:
         both = (amp_det > 0) & (bkg_det >= 0) & (det > 0)
         safe_det = np.where(both, det, np.float32(1.0))
         safe_ff = np.maximum(s_ff, np.float32(1e-30))
-        gain = np.where(both, (amp_det * s_yf + bkg_det * sy) / safe_det,
-                        np.maximum(s_yf, 0.0) ** 2 / safe_ff)
-        gain = np.where(s_ff > floor, gain, 0.0)
         amp = np.where(both, amp_det / safe_det, s_yf / safe_ff)
-        bkg = np.where(both, bkg_det / safe_det, 0.0)
-        return gain, amp, bkg
+        bkg = np.where(both, bkg_det / safe_det, np.float32(0.0))
+        return amp.astype(float) * self.unit, bkg.astype(float) * self.unit
+
+    def _score(self, s_yf, s_f, s_ff, floor):
+        """Least squares of y = amp * template + bkg at every lag, in closed form; where
+        that needs amp <= 0 or bkg < 0, the pure pattern (bkg = 0) instead; zero where
+        the template's overlap with the window is at most ``floor`` (> 0). Returns the
+        drop in the sum of squares, in few passes and without masked copies."""
+        sy, mean, inv_n = self.sy, self.sy / self.n, np.float32(1.0) / self.n
+        above = s_ff > floor
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            # Pure pattern: max(s_yf, 0)^2 / s_ff, zero at or below the floor.
+            inv_ff = np.maximum(s_ff, floor)
+            np.reciprocal(inv_ff, out=inv_ff)
+            inv_ff *= above
+            score = np.maximum(s_yf, np.float32(0.0))
+            score *= score
+            score *= inv_ff
+            # With background, where it is admissible: amp_det / n, det / n, bkg_det's sign.
+            det = np.square(s_f)
+            det *= inv_n
+            np.subtract(s_ff, det, out=det)
+            both = det > 0
+            both &= above
+            both &= np.greater_equal(s_ff * sy, s_f * s_yf)
+            amp = s_f * mean
+            np.subtract(s_yf, amp, out=amp)
+            both &= amp > 0
+            amp *= amp
+            amp /= det
+            amp += sy * mean
+            amp *= both
+        # Where both are admissible the fit with background gains at least as much as
+        # the pure pattern; elsewhere amp is 0 or NaN (0 * inf), which fmax passes over.
+        return np.fmax(score, amp, out=score)
 
 
 def _local_minima(profile, keep):
-    is_min = np.r_[True, profile[1:] <= profile[:-1]] & np.r_[profile[:-1] < profile[1:], True]
-    picks = np.flatnonzero(is_min)
+    """Indices of the ``keep`` lowest local minima of ``profile`` (ends included)."""
+    below_left = np.empty(profile.size, dtype=bool)
+    below_right = np.empty(profile.size, dtype=bool)
+    below_left[0] = below_right[-1] = True
+    np.less_equal(profile[1:], profile[:-1], out=below_left[1:])
+    np.less(profile[:-1], profile[1:], out=below_right[:-1])
+    picks = np.flatnonzero(below_left & below_right)
     return picks[np.argsort(profile[picks])][:keep]
 
 
@@ -344,31 +337,35 @@ def scan_pattern(
         p_min, p_max = max(p_min, period_range[0]), min(p_max, period_range[1])
         if p_max <= p_min:
             p_min, p_max = min(p_min, p_max), max(p_min, p_max)
-    surface = _Surface(x, y, unit_shape, max(p_min / 4.0, span / (_MAX_GRID - 1)), extend)
+    surface = _Surface(x, y, unit_shape, max(p_min / 4.0, span / (_MAX_GRID - 1)), extend,
+                       median_step)
 
     rough = period_grid(span, p_min, p_max, coarse * tolerance)
-    rough_result = surface.best_offsets(rough)
+    rough_gain, rough_lag, rough_sums = surface.best_lags(rough)
     fine = np.unique(np.concatenate([
         period_grid(span, rough[max(i - 1, 0)], rough[min(i + 1, rough.size - 1)], tolerance)
-        for i in _local_minima(rough_result[0], keep)
+        for i in _local_minima(-rough_gain, keep)
     ]))
     fine = fine[~np.isin(fine, rough)]
-    periods = np.concatenate([rough, fine])
-    order = np.argsort(periods)
-    periods = periods[order]
-    chi, offsets, amps, bkgs = (
-        np.concatenate([a, b])[order] for a, b in zip(rough_result, surface.best_offsets(fine),
-                                                       strict=True)
-    )
+    fine_gain, fine_lag, fine_sums = surface.best_lags(fine)
+    order = np.argsort(np.concatenate([rough, fine]))
+    periods = np.concatenate([rough, fine])[order]
+    gain = np.concatenate([rough_gain, fine_gain])[order]
+    lags = np.concatenate([rough_lag, fine_lag])[order]
+    picks = _local_minima(-gain, keep)
+    # Amplitude and background only where they are reported.
+    amps, bkgs = surface.amplitudes(np.concatenate([rough_sums, fine_sums], axis=1)[
+        :, order[picks]])
     scale = x.size / float(surface.n)  # grid sums to data-point sums
+    chi = surface.chisq(gain) * scale
     candidates = tuple(
         Candidate(
             period_T=float(periods[i]),
-            field_offset_T=float(offsets[i]),
-            amplitude_A=float(amps[i]),
-            background_A=float(bkgs[i]),
-            chisq_A2=float(chi[i] * scale),
+            field_offset_T=float(surface.offsets[lags[i]]),
+            amplitude_A=float(amp),
+            background_A=float(bkg),
+            chisq_A2=float(chi[i]),
         )
-        for i in _local_minima(chi, keep)
+        for i, amp, bkg in zip(picks, amps, bkgs, strict=True)
     )
-    return ScanResult(candidates, float(surface.flat * scale), periods, chi * scale)
+    return ScanResult(candidates, float(surface.flat * scale), periods, chi)
