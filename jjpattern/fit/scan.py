@@ -15,6 +15,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import fft as sfft
 
+#: Offsets searched beyond each end of the window at the rough stage, in windows: the
+#: fine stage searches the full ``extend`` around the rough minima.
+_ROUGH_EXTEND = 0.25
 #: Largest number of grid points the data are resampled onto.
 _MAX_GRID = 4096
 #: Offsets where the template's overlap with the data (sum of its squares over the
@@ -141,13 +144,9 @@ class _Surface:
         self.step = step
         self._table = None
         self._lags = np.arange(k + 1, dtype=np.float32)
-    def _templates(self, periods):
-        """Half templates (lags >= 0) of every period, zero-padded to half the FFT length
-        plus one: linear interpolation in one table of the unit shape, one shape
-        evaluation per call instead of one per period and lag."""
-        k = self.k_half
-        rate = self.step / (_TABLE_STEP * periods)  # table steps per grid step
-        u_max = k * float(rate.max())
+    def table(self, u_max):
+        """Value and slope of the unit shape every ``_TABLE_STEP`` up to ``u_max`` (built
+        on first need, or taken from another surface of the same shape and step)."""
         if self._table is None or self._table[0] < u_max:
             # Evaluated in single precision (the table's u are exact there): several
             # times faster for the numpy shapes, and within 3e-5 of double precision.
@@ -156,10 +155,24 @@ class _Surface:
             # Value and slope side by side, fetched as one 8-byte item per lag.
             pairs = np.stack([values[:-1], np.diff(values)], axis=1)
             self._table = (float(np.ceil(u_max)), pairs.view(np.int64).ravel())
+        return self._table[1]
+
+    def share_table(self, other, shortest_T):
+        """Use ``other``'s table (same shape and step), built long enough for both."""
+        u_max = max(self.k_half, other.k_half) * self.step / (_TABLE_STEP * shortest_T)
+        self._table = (u_max, other.table(u_max))
+
+    def _templates(self, periods):
+        """Half templates (lags >= 0) of every period, zero-padded to half the FFT length
+        plus one: linear interpolation in one table of the unit shape, one shape
+        evaluation per call instead of one per period and lag."""
+        k = self.k_half
+        rate = self.step / (_TABLE_STEP * periods)  # table steps per grid step
+        table = self.table(k * float(rate.max()))
         u = np.multiply.outer(rate.astype(np.float32), self._lags)
         # Truncation is the floor here (u >= 0), and far faster than np.floor or np.modf.
         whole = u.astype(np.int32)
-        pair = np.take(self._table[1], whole).view(np.float32)
+        pair = np.take(table, whole).view(np.float32)
         u -= whole.astype(np.float32)
         out = np.empty((periods.size, self.nfft // 2 + 1), dtype=np.float32)
         out[:, k + 1:] = 0.0
@@ -355,11 +368,17 @@ def scan_pattern(
         p_min, p_max = max(p_min, period_range[0]), min(p_max, period_range[1])
         if p_max <= p_min:
             p_min, p_max = min(p_min, p_max), max(p_min, p_max)
-    surface = _Surface(x, y, unit_shape, max(p_min / 4.0, span / (_MAX_GRID - 1)), extend,
-                       median_step)
-
+    step = max(p_min / 4.0, span / (_MAX_GRID - 1))
+    surface = _Surface(x, y, unit_shape, step, extend, median_step)
     rough = period_grid(span, p_min, p_max, coarse * tolerance)
-    rough_gain, rough_lag, rough_sums = surface.best_lags(rough)
+    near = surface
+    if extend > _ROUGH_EXTEND:
+        # The rough stage slides the templates over offsets near the window only (half
+        # the lags, two thirds of the FFT length); its chi-squares are then upper bounds,
+        # and the fine stage searches every offset around its minima.
+        near = _Surface(x, y, unit_shape, step, _ROUGH_EXTEND, median_step)
+        near.share_table(surface, float(rough[0]))
+    rough_gain, rough_lag, rough_sums = near.best_lags(rough)
     fine = np.unique(np.concatenate([
         period_grid(span, rough[max(i - 1, 0)], rough[min(i + 1, rough.size - 1)], tolerance)
         for i in _local_minima(-rough_gain, keep)
@@ -369,7 +388,7 @@ def scan_pattern(
     order = np.argsort(np.concatenate([rough, fine]))
     periods = np.concatenate([rough, fine])[order]
     gain = np.concatenate([rough_gain, fine_gain])[order]
-    lags = np.concatenate([rough_lag, fine_lag])[order]
+    offsets = np.concatenate([near.offsets[rough_lag], surface.offsets[fine_lag]])[order]
     picks = _local_minima(-gain, keep)
     # Amplitude and background only where they are reported.
     amps, bkgs = surface.amplitudes(np.concatenate([rough_sums, fine_sums], axis=1)[
@@ -379,7 +398,7 @@ def scan_pattern(
     candidates = tuple(
         Candidate(
             period_T=float(periods[i]),
-            field_offset_T=float(surface.offsets[lags[i]]),
+            field_offset_T=float(offsets[i]),
             amplitude_A=float(amp),
             background_A=float(bkg),
             chisq_A2=float(chi[i]),
