@@ -334,9 +334,12 @@ def scan_pattern(
 ) -> ScanResult:
     """Search periods and offsets of ``unit_shape`` over sorted data.
 
-    A coarse period grid (``coarse`` times the tolerance) is searched first;
-    the neighbourhood of each of its ``keep`` best local minima is then
-    searched at the full ``tolerance``.
+    A coarse period grid (``coarse`` times the tolerance) is searched first, over
+    offsets up to ``min(extend, 0.25)`` windows beyond each end; the neighbourhood of
+    each of its ``keep`` best local minima is then searched at the full ``tolerance``
+    and the full ``extend``. The profile's values at the coarse periods are therefore
+    upper bounds where ``extend`` > 0.25 (the best offset may lie farther out); every
+    period's offset is the best of every grid lag searched for it.
 
     Parameters
     ----------
@@ -347,8 +350,9 @@ def scan_pattern(
     max_lobes : int
         Shortest period searched is the window over ``2 * max_lobes``.
     extend : float
-        Offsets are searched up to ``extend`` windows beyond each end, so a main
-        lobe outside the window can still be located from the side lobes.
+        Offsets are searched up to ``extend`` windows beyond each end (around the
+        coarse minima), so a main lobe outside the window can still be located from
+        the side lobes.
     tolerance : float
         Largest misplacement of the farthest node between period grid points,
         in periods.
