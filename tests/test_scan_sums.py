@@ -9,7 +9,7 @@ weighted cross-correlation), on invented data.
 import numpy as np
 import pytest
 
-from jjpattern.fit.scan import _Surface, _uniform, period_grid
+from jjpattern.fit.scan import _median, _Surface, _uniform, period_grid, scan_pattern
 
 
 def _shape(u):
@@ -79,3 +79,32 @@ def test_best_offsets_are_the_best_of_every_lag(true_period):
         # The picked offset, amplitude and background give that chi-square on the grid.
         model = amps[i] * _shape((grid - offsets[i]) / period) + bkgs[i]
         assert np.sum((yg - model) ** 2) == pytest.approx(chisq[i], rel=1e-3)
+
+
+@pytest.mark.parametrize("size", [1, 2, 7, 400, 401])
+def test_median_is_numpys(size):
+    values = np.random.default_rng(size).normal(size=size)
+    assert _median(values) == float(np.median(values))  # reference: numpy.median
+
+
+@pytest.mark.parametrize(("gap", "extend"), [(False, 1.0), (True, 1.0), (False, 0.0)])
+def test_candidates_carry_the_chisq_of_their_own_numbers(gap, extend):
+    # Each candidate's period, offset, amplitude and background, put back into the model
+    # on the scan's uniform grid (step a quarter of the shortest period searched, as
+    # scan_pattern sets it), give its chi-square scaled from grid to data points, within
+    # single precision and the template table (1e-3).
+    _, x, y = _surface(gap, extend=extend)
+    found = scan_pattern(x, y, _shape, extend=extend)
+    assert found.candidates[0].period_T == pytest.approx(0.3, rel=0.03)
+    assert found.candidates[0].field_offset_T == pytest.approx(0.4, abs=0.03)
+    assert found.profile_chisq_A2.size == found.periods_T.size
+    assert np.all(np.diff(found.periods_T) > 0)
+    span = x[-1] - x[0]
+    step = max(span / 60, 4 * np.median(np.diff(x))) / 4
+    grid, yg, wg = _uniform(x, y, step)
+    for c in found.candidates:
+        model = c.amplitude_A * _shape((grid - c.field_offset_T) / c.period_T) + c.background_A
+        direct = float(np.sum(wg * (yg - model) ** 2)) * x.size / wg.sum()
+        assert c.chisq_A2 == pytest.approx(direct, rel=1e-3)
+        i = int(np.flatnonzero(found.periods_T == c.period_T)[0])
+        assert found.profile_chisq_A2[i] == pytest.approx(c.chisq_A2)

@@ -15,6 +15,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import fft as sfft
 
+#: Offsets searched beyond each end of the window at the rough stage, in windows: the
+#: fine stage searches the full ``extend`` around the rough minima.
+_ROUGH_EXTEND = 0.25
 #: Largest number of grid points the data are resampled onto.
 _MAX_GRID = 4096
 #: Offsets where the template's overlap with the data (sum of its squares over the
@@ -30,6 +33,9 @@ _TABLE_STEP = 1.0 / 128.0
 _BLOCK_BYTES = 120 * 1024
 #: Lags per block of the cumulative sums done as matrix products.
 _PREFIX_BLOCK = 16
+#: The matrix of those products (read only).
+_UPPER = np.triu(np.ones((_PREFIX_BLOCK, _PREFIX_BLOCK), dtype=np.float32))
+_UPPER.flags.writeable = False
 
 
 @dataclass(frozen=True)
@@ -61,22 +67,33 @@ def period_grid(span_T: float, p_min_T: float, p_max_T: float, tolerance: float)
     is never above ``0.12 * tolerance`` (3 % at the fine tolerance of 0.25).
     """
     periods = []
-    p = p_min_T
+    # Python floats: numpy scalars would make this loop several times slower.
+    p, p_max, span, tolerance = float(p_min_T), float(p_max_T), float(span_T), float(tolerance)
     cap = 0.12 * tolerance
-    while p < p_max_T:
+    while p < p_max:
         periods.append(p)
-        p *= 1.0 + min(cap, tolerance * p / span_T)
-    periods.append(p_max_T)
+        p *= 1.0 + min(cap, tolerance * p / span)
+    periods.append(p_max)
     return np.asarray(periods)
 
 
-def _uniform(field_T, ic_A, step_T):
-    """Linear resampling with zero weight inside gaps much wider than the usual step."""
+def _median(values):
+    """np.median of a 1-d array without its overhead (a tenth of the scan's setup)."""
+    m = values.size // 2
+    if values.size % 2:
+        return float(np.partition(values, m)[m])
+    part = np.partition(values, (m - 1, m))
+    return float(0.5 * (part[m - 1] + part[m]))
+
+
+def _uniform(field_T, ic_A, step_T, median_gap_T=None):
+    """Linear resampling with zero weight inside gaps much wider than the usual step
+    (``median_gap_T``: the median step of the data, when already known)."""
     n = int(np.floor((field_T[-1] - field_T[0]) / step_T)) + 1
     grid = field_T[0] + step_T * np.arange(n)
     values = np.interp(grid, field_T, ic_A)
     gaps = np.diff(field_T)
-    wide = 5.0 * np.median(gaps)
+    wide = 5.0 * (np.median(gaps) if median_gap_T is None else median_gap_T)
     if gaps.max() <= wide:
         return grid, values, np.ones(n)
     k = np.clip(np.searchsorted(field_T, grid, side="right") - 1, 0, gaps.size - 1)
@@ -93,8 +110,8 @@ class _Surface:
     is then real), and the shift to the centre goes once into the data's spectra.
     """
 
-    def __init__(self, x, y, unit_shape, step, extend):
-        self.grid, yg, wg = _uniform(x, y, step)
+    def __init__(self, x, y, unit_shape, step, extend, median_gap=None):
+        self.grid, yg, wg = _uniform(x, y, step, median_gap)
         self.unit = float(np.max(np.abs(yg))) or 1.0
         yg = yg / self.unit
         self.unit_shape = unit_shape
@@ -106,29 +123,30 @@ class _Surface:
         self.valid = 2 * k + 2 - self.size
         # Offset of correlation lag s: B0 = x0 + (k_half - s) * step.
         self.offsets = self.grid[0] + (self.k_half - np.arange(self.valid)) * step
-        shift = np.exp(-2j * np.pi * k / self.nfft * np.arange(self.nfft // 2 + 1))
+        # The data laid out from index nfft - k (wrapped): their spectra then carry the
+        # shift of the templates' centre from index 0 to k.
+        self.gapless = bool(np.all(wg == 1.0))
+        laid = np.zeros((1 if self.gapless else 2, self.nfft))
+        laid[0, :self.size] = wg * yg
+        if not self.gapless:
+            laid[1, :self.size] = wg
+        laid = np.roll(laid, self.nfft - k, axis=1)
         # Single precision is plenty for ranking candidates and twice as fast;
         # the local fit that follows works in double precision.
-        self.wy_f = (np.conj(sfft.rfft(wg * yg, self.nfft)) * shift).astype(np.complex64)
+        spectra = np.conj(sfft.rfft(laid, axis=1)).astype(np.complex64)
+        self.wy_f = spectra[0]
         # Without gaps every weight is one: the template's window sums are differences of
         # cumulative sums, which saves four of the six FFTs.
-        self.gapless = bool(np.all(wg == 1.0))
-        self.w_f = None if self.gapless else (
-            np.conj(sfft.rfft(wg, self.nfft)) * shift).astype(np.complex64)
+        self.w_f = None if self.gapless else spectra[1]
         n, sy, syy = float(wg.sum()), float(np.dot(wg, yg)), float(np.dot(wg, yg**2))
         self.flat = (syy - sy**2 / n) * self.unit**2
         self.n, self.sy, self.syy = np.float32(n), np.float32(sy), np.float32(syy)
         self.step = step
         self._table = None
-        self._upper = np.triu(np.ones((_PREFIX_BLOCK, _PREFIX_BLOCK), dtype=np.float32))
-
-    def _templates(self, periods):
-        """Half templates (lags >= 0) of every period, zero-padded to half the FFT length
-        plus one: linear interpolation in one table of the unit shape, one shape
-        evaluation per call instead of one per period and lag."""
-        k = self.k_half
-        rate = self.step / (_TABLE_STEP * periods)  # table steps per grid step
-        u_max = k * float(rate.max())
+        self._lags = np.arange(k + 1, dtype=np.float32)
+    def table(self, u_max):
+        """Value and slope of the unit shape every ``_TABLE_STEP`` up to ``u_max`` (built
+        on first need, or taken from another surface of the same shape and step)."""
         if self._table is None or self._table[0] < u_max:
             # Evaluated in single precision (the table's u are exact there): several
             # times faster for the numpy shapes, and within 3e-5 of double precision.
@@ -137,11 +155,27 @@ class _Surface:
             # Value and slope side by side, fetched as one 8-byte item per lag.
             pairs = np.stack([values[:-1], np.diff(values)], axis=1)
             self._table = (float(np.ceil(u_max)), pairs.view(np.int64).ravel())
-        u = np.arange(k + 1, dtype=np.float32)[None, :] * rate.astype(np.float32)[:, None]
-        whole = np.floor(u)
-        pair = np.take(self._table[1], whole.astype(np.int32)).view(np.float32)
-        u -= whole
-        out = np.zeros((periods.size, self.nfft // 2 + 1), dtype=np.float32)
+        return self._table[1]
+
+    def share_table(self, other, shortest_T):
+        """Use ``other``'s table (same shape and step), built long enough for both."""
+        u_max = max(self.k_half, other.k_half) * self.step / (_TABLE_STEP * shortest_T)
+        self._table = (u_max, other.table(u_max))
+
+    def _templates(self, periods):
+        """Half templates (lags >= 0) of every period, zero-padded to half the FFT length
+        plus one: linear interpolation in one table of the unit shape, one shape
+        evaluation per call instead of one per period and lag."""
+        k = self.k_half
+        rate = self.step / (_TABLE_STEP * periods)  # table steps per grid step
+        table = self.table(k * float(rate.max()))
+        u = np.multiply.outer(rate.astype(np.float32), self._lags)
+        # Truncation is the floor here (u >= 0), and far faster than np.floor or np.modf.
+        whole = u.astype(np.int32)
+        pair = np.take(table, whole).view(np.float32)
+        u -= whole.astype(np.float32)
+        out = np.empty((periods.size, self.nfft // 2 + 1), dtype=np.float32)
+        out[:, k + 1:] = 0.0
         half = out[:, :k + 1]
         np.multiply(u, pair[:, 1::2], out=half)
         half += pair[:, 0::2]
@@ -158,13 +192,15 @@ class _Surface:
         # h[:, i]: sum of the first i half-template lags. Cumulative sums as one small
         # matrix product per block of lags plus the running block totals: several times
         # faster than np.cumsum, a serial loop.
-        h = (parts.reshape(-1, width) @ self._upper).reshape(2 * rows, -1)
+        h = (parts.reshape(-1, width) @ _UPPER).reshape(2 * rows, -1)
         h[:, width:] += np.repeat(np.cumsum(h[:, width - 1:-1:width], axis=1), width, axis=1)
         # The window sums are even about the middle lag: the upper half only, where the
         # window lies right of the template centre (lag >= k) or straddles it.
         mid = valid // 2
         sums = []
         for part in (h[:rows], h[rows:]):
+            # Separate arrays: one for both would pass the allocator's threshold for
+            # fresh pages (see _BLOCK_BYTES).
             out = np.empty((rows, valid), dtype=np.float32)
             np.subtract(part[:, size:k + 2], part[:, :k + 2 - size], out=out[:, k:])
             straddle = out[:, mid:k]
@@ -176,7 +212,7 @@ class _Surface:
 
     def _correlations(self, periods):
         """Sums over the data window, at every lag, of template * data, template and
-        template squared."""
+        template squared (the first a view into a wider array)."""
         half = self._templates(periods)
         # The spectrum of an even template wrapped around index 0 is real: a type-1 DCT
         # of its half, without the mirrored copy.
@@ -188,92 +224,45 @@ class _Surface:
             t2_f = sfft.dct(np.square(half), type=1, axis=1)
             s_f = sfft.irfft(t_f * self.w_f, self.nfft, axis=1)[:, cut]
             s_ff = sfft.irfft(t2_f * self.w_f, self.nfft, axis=1)[:, cut]
-        t_f = t_f * self.wy_f
-        # Contiguous, as the window sums are: their picks share one flat index.
-        s_yf = np.ascontiguousarray(sfft.irfft(t_f, self.nfft, axis=1)[:, cut])
-        return s_yf, np.ascontiguousarray(s_f), np.ascontiguousarray(s_ff)
+        # Contiguous: the sums below run faster on it than on the strided slice.
+        s_yf = np.ascontiguousarray(sfft.irfft(t_f * self.wy_f, self.nfft, axis=1)[:, cut])
+        return s_yf, s_f, s_ff
 
-    def best_offsets(self, periods):
-        """Per period: best chi-square (grid sums) and its offset, amplitude and background.
-
-        ``periods`` ascending."""
+    def best_lags(self, periods):
+        """Per period: the largest drop in chi-square (grid sums, unit data) over every
+        lag, that lag, and the three sums there."""
+        rows = np.arange(periods.size)
         best = np.empty(periods.size, dtype=np.intp)
+        gain = np.empty(periods.size, dtype=np.float32)
         at_best = np.empty((3, periods.size), dtype=np.float32)
-        floor = np.empty(periods.size, dtype=np.float32)
-        # Lags an eighth of a period apart are enough to find the best lobe of a long
-        # period; the best of those is then refined at every lag around it.
-        factor = 2 ** np.floor(np.log2(np.maximum(periods / (8.0 * self.step), 1.0)))
         # A few periods at a time keep every array small: large ones are fresh pages
         # from the system at each call, and faulting them in took more time than the sums.
         block = max(1, _BLOCK_BYTES // (4 * self.nfft + 4))
         for start in range(0, periods.size, block):
-            stop = min(start + block, periods.size)
-            best[start:stop], at_best[:, start:stop], floor[start:stop] = self._best_lags(
-                self._correlations(periods[start:stop]), factor[start:stop])
-        gain, amp, bkg = self._gain(*at_best, floor)
-        u = self.unit
-        return ((float(self.syy) - gain.astype(float)) * u * u, self.offsets[best],
-                amp.astype(float) * u, bkg.astype(float) * u)
+            part = slice(start, min(start + block, periods.size))
+            sums = self._correlations(periods[part])
+            floor = np.maximum(np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1, keepdims=True),
+                               np.float32(1e-30))
+            score = self._score(*sums, floor)
+            best[part] = lag = np.argmax(score, axis=1)
+            local = rows[:lag.size]
+            gain[part] = score[local, lag]
+            for i, a in enumerate(sums):
+                at_best[i, part] = a[local, lag]
+        return gain, best, at_best
 
-    def _best_lags(self, sums, factor):
-        """Best lag of each row of ``sums``, the sums there, and the overlap floor.
+    def best_offsets(self, periods):
+        """Per period: best chi-square (grid sums) and its offset, amplitude and background."""
+        gain, best, at_best = self.best_lags(periods)
+        return (self.chisq(gain), self.offsets[best], *self.amplitudes(at_best))
 
-        ``factor`` (ascending) is each row's coarse step in lags: the best of every
-        ``factor``-th lag is refined at every lag within a coarse step of it. Rows of all
-        factors above one are searched together, the rows with fewer lags repeating
-        their last one, which cannot change an argmax."""
-        floor = np.float32(_MIN_OVERLAP) * np.max(sums[2], axis=1, keepdims=True)
-        best = np.zeros(factor.size, dtype=np.intp)
-        split = int(np.searchsorted(factor, 1.5))
-        if split:
-            best[:split] = np.argmax(self._score(*(a[:split] for a in sums), floor[:split]),
-                                     axis=1)
-        if split < factor.size:
-            wide = slice(split, factor.size)
-            k = factor[wide, None].astype(np.intp)
-            first = np.arange(split, factor.size)[:, None] * self.valid  # flat row starts
-            last = (self.valid - 1) // k * k
-            cols = np.minimum(np.arange(-(-self.valid // k[0, 0]))[None, :] * k, last)
-            at = first + cols
-            coarse = self._score(*(np.take(a, at) for a in sums), floor[wide])
-            best[wide] = cols[np.arange(k.size), np.argmax(coarse, axis=1)]
-            reach = int(k[-1, 0]) - 1
-            step = np.clip(np.arange(-reach, reach + 1)[None, :], 1 - k, k - 1)
-            cols = np.clip(best[wide, None] + step, 0, self.valid - 1)
-            at = first + cols
-            fine = self._score(*(np.take(a, at) for a in sums), floor[wide])
-            best[wide] = cols[np.arange(k.size), np.argmax(fine, axis=1)]
-        at = np.arange(factor.size) * self.valid + best
-        return best, [np.take(a, at) for a in sums], floor[:, 0]
+    def chisq(self, gain):
+        """Chi-square (grid sums) left after a drop ``gain`` from :meth:`best_lags`."""
+        return (float(self.syy) - gain.astype(float)) * self.unit**2
 
-    def _score(self, s_yf, s_f, s_ff, floor):
-        """The gain of :meth:`_gain` alone, with few temporaries: ranks the lags where only
-        the best one is wanted."""
-        mean, inv_n = self.sy / self.n, np.float32(1.0) / self.n
-        # amp_det / n, det / n and the sign of bkg_det of _gain.
-        amp = s_f * mean
-        np.subtract(s_yf, amp, out=amp)
-        det = np.square(s_f)
-        det *= inv_n
-        np.subtract(s_ff, det, out=det)
-        both = np.greater_equal(s_ff * self.sy, s_f * s_yf)
-        both &= amp > 0
-        both &= det > 0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            score = np.maximum(s_yf, np.float32(0.0))
-            score *= score
-            score /= s_ff
-            amp *= amp
-            amp /= det
-            amp += self.sy * mean
-        np.copyto(score, amp, where=both)
-        np.copyto(score, np.float32(0.0), where=s_ff <= floor)
-        return score
-
-    def _gain(self, s_yf, s_f, s_ff, floor):
-        """Least squares of y = amp * template + bkg at every lag, in closed form; where
-        that needs amp <= 0 or bkg < 0, the pure pattern (bkg = 0) instead. Returns the
-        drop in the sum of squares, the amplitude and the background."""
+    def amplitudes(self, at_best):
+        """Amplitude and background (data units) from the sums at a lag."""
+        s_yf, s_f, s_ff = at_best
         n, sy = self.n, self.sy
         det = s_ff * n - s_f * s_f
         amp_det = s_yf * n - s_f * sy
@@ -281,17 +270,52 @@ class _Surface:
         both = (amp_det > 0) & (bkg_det >= 0) & (det > 0)
         safe_det = np.where(both, det, np.float32(1.0))
         safe_ff = np.maximum(s_ff, np.float32(1e-30))
-        gain = np.where(both, (amp_det * s_yf + bkg_det * sy) / safe_det,
-                        np.maximum(s_yf, 0.0) ** 2 / safe_ff)
-        gain = np.where(s_ff > floor, gain, 0.0)
         amp = np.where(both, amp_det / safe_det, s_yf / safe_ff)
-        bkg = np.where(both, bkg_det / safe_det, 0.0)
-        return gain, amp, bkg
+        bkg = np.where(both, bkg_det / safe_det, np.float32(0.0))
+        return amp.astype(float) * self.unit, bkg.astype(float) * self.unit
+
+    def _score(self, s_yf, s_f, s_ff, floor):
+        """Least squares of y = amp * template + bkg at every lag, in closed form; where
+        that needs amp <= 0 or bkg < 0, the pure pattern (bkg = 0) instead; zero where
+        the template's overlap with the window is at most ``floor`` (> 0). Returns the
+        drop in the sum of squares, in few passes and without masked copies."""
+        sy, mean, inv_n = self.sy, self.sy / self.n, np.float32(1.0) / self.n
+        above = s_ff > floor
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            # Pure pattern: max(s_yf, 0)^2 / s_ff, zero at or below the floor.
+            inv_ff = np.maximum(s_ff, floor)
+            np.reciprocal(inv_ff, out=inv_ff)
+            inv_ff *= above
+            score = np.maximum(s_yf, np.float32(0.0))
+            score *= score
+            score *= inv_ff
+            # With background, where it is admissible: amp_det / n, det / n, bkg_det's sign.
+            det = np.square(s_f)
+            det *= inv_n
+            np.subtract(s_ff, det, out=det)
+            both = det > 0
+            both &= above
+            both &= np.greater_equal(s_ff * sy, s_f * s_yf)
+            amp = s_f * mean
+            np.subtract(s_yf, amp, out=amp)
+            both &= amp > 0
+            amp *= amp
+            amp /= det
+            amp += sy * mean
+            amp *= both
+        # Where both are admissible the fit with background gains at least as much as
+        # the pure pattern; elsewhere amp is 0 or NaN (0 * inf), which fmax passes over.
+        return np.fmax(score, amp, out=score)
 
 
 def _local_minima(profile, keep):
-    is_min = np.r_[True, profile[1:] <= profile[:-1]] & np.r_[profile[:-1] < profile[1:], True]
-    picks = np.flatnonzero(is_min)
+    """Indices of the ``keep`` lowest local minima of ``profile`` (ends included)."""
+    below_left = np.empty(profile.size, dtype=bool)
+    below_right = np.empty(profile.size, dtype=bool)
+    below_left[0] = below_right[-1] = True
+    np.less_equal(profile[1:], profile[:-1], out=below_left[1:])
+    np.less(profile[:-1], profile[1:], out=below_right[:-1])
+    picks = np.flatnonzero(below_left & below_right)
     return picks[np.argsort(profile[picks])][:keep]
 
 
@@ -310,9 +334,12 @@ def scan_pattern(
 ) -> ScanResult:
     """Search periods and offsets of ``unit_shape`` over sorted data.
 
-    A coarse period grid (``coarse`` times the tolerance) is searched first;
-    the neighbourhood of each of its ``keep`` best local minima is then
-    searched at the full ``tolerance``.
+    A coarse period grid (``coarse`` times the tolerance) is searched first, over
+    offsets up to ``min(extend, 0.25)`` windows beyond each end; the neighbourhood of
+    each of its ``keep`` best local minima is then searched at the full ``tolerance``
+    and the full ``extend``. The profile's values at the coarse periods are therefore
+    upper bounds where ``extend`` > 0.25 (the best offset may lie farther out); every
+    period's offset is the best of every grid lag searched for it.
 
     Parameters
     ----------
@@ -323,8 +350,9 @@ def scan_pattern(
     max_lobes : int
         Shortest period searched is the window over ``2 * max_lobes``.
     extend : float
-        Offsets are searched up to ``extend`` windows beyond each end, so a main
-        lobe outside the window can still be located from the side lobes.
+        Offsets are searched up to ``extend`` windows beyond each end (around the
+        coarse minima), so a main lobe outside the window can still be located from
+        the side lobes.
     tolerance : float
         Largest misplacement of the farthest node between period grid points,
         in periods.
@@ -337,38 +365,48 @@ def scan_pattern(
     x = np.asarray(field_T, dtype=float)
     y = np.asarray(ic_A, dtype=float)
     span = x[-1] - x[0]
-    median_step = float(np.median(np.diff(x)))
+    median_step = _median(np.diff(x))
     p_min = max(span / (2 * max_lobes), min_points_per_period * median_step)
     p_max = 2.0 * span
     if period_range is not None:
         p_min, p_max = max(p_min, period_range[0]), min(p_max, period_range[1])
         if p_max <= p_min:
             p_min, p_max = min(p_min, p_max), max(p_min, p_max)
-    surface = _Surface(x, y, unit_shape, max(p_min / 4.0, span / (_MAX_GRID - 1)), extend)
-
+    step = max(p_min / 4.0, span / (_MAX_GRID - 1))
+    surface = _Surface(x, y, unit_shape, step, extend, median_step)
     rough = period_grid(span, p_min, p_max, coarse * tolerance)
-    rough_result = surface.best_offsets(rough)
+    near = surface
+    if extend > _ROUGH_EXTEND:
+        # The rough stage slides the templates over offsets near the window only (half
+        # the lags, two thirds of the FFT length); its chi-squares are then upper bounds,
+        # and the fine stage searches every offset around its minima.
+        near = _Surface(x, y, unit_shape, step, _ROUGH_EXTEND, median_step)
+        near.share_table(surface, float(rough[0]))
+    rough_gain, rough_lag, rough_sums = near.best_lags(rough)
     fine = np.unique(np.concatenate([
         period_grid(span, rough[max(i - 1, 0)], rough[min(i + 1, rough.size - 1)], tolerance)
-        for i in _local_minima(rough_result[0], keep)
+        for i in _local_minima(-rough_gain, keep)
     ]))
     fine = fine[~np.isin(fine, rough)]
-    periods = np.concatenate([rough, fine])
-    order = np.argsort(periods)
-    periods = periods[order]
-    chi, offsets, amps, bkgs = (
-        np.concatenate([a, b])[order] for a, b in zip(rough_result, surface.best_offsets(fine),
-                                                       strict=True)
-    )
+    fine_gain, fine_lag, fine_sums = surface.best_lags(fine)
+    order = np.argsort(np.concatenate([rough, fine]))
+    periods = np.concatenate([rough, fine])[order]
+    gain = np.concatenate([rough_gain, fine_gain])[order]
+    offsets = np.concatenate([near.offsets[rough_lag], surface.offsets[fine_lag]])[order]
+    picks = _local_minima(-gain, keep)
+    # Amplitude and background only where they are reported.
+    amps, bkgs = surface.amplitudes(np.concatenate([rough_sums, fine_sums], axis=1)[
+        :, order[picks]])
     scale = x.size / float(surface.n)  # grid sums to data-point sums
+    chi = surface.chisq(gain) * scale
     candidates = tuple(
         Candidate(
             period_T=float(periods[i]),
             field_offset_T=float(offsets[i]),
-            amplitude_A=float(amps[i]),
-            background_A=float(bkgs[i]),
-            chisq_A2=float(chi[i] * scale),
+            amplitude_A=float(amp),
+            background_A=float(bkg),
+            chisq_A2=float(chi[i]),
         )
-        for i in _local_minima(chi, keep)
+        for i, amp, bkg in zip(picks, amps, bkgs, strict=True)
     )
-    return ScanResult(candidates, float(surface.flat * scale), periods, chi * scale)
+    return ScanResult(candidates, float(surface.flat * scale), periods, chi)
