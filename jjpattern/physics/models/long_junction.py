@@ -103,41 +103,58 @@ def shape(u, ell, feed):
     return np.abs(np.sinc(u)) + np.interp(np.abs(u), grid_u, row, right=0.0)
 
 
+@functools.lru_cache(maxsize=16)
+def _segments(feed: str, ell: float):
+    """Slopes in the flux of each segment of :func:`_row` (read-only, cached alike)."""
+    import numpy as np
+
+    seg = np.diff(_row(feed, ell)) / np.diff(table(feed)[1])
+    seg.flags.writeable = False
+    return seg
+
+
 def gradient(field_T, ic0_A, period_T, field_offset_T, floor_A, ell, feed):
     """Partial derivatives of :func:`pattern` by each parameter (the fit's Jacobian).
 
-    In the flux the table is piecewise linear, so its slope is the slope of the segment;
-    in ``ell`` (a cubic Hermite) a central difference.
+    In the flux the table is piecewise linear, so its slope is the slope of the segment
+    (each point's segment found once, for the value and both slopes); in ``ell`` the
+    derivative of the cubic Hermite.
     """
     import numpy as np
 
-    grid_u = table(feed)[1]
+    from .rectangular import shape_and_slope
+
+    grid_ell, grid_u, departure, slopes, _, _ = table(feed)
+    top = float(grid_ell[-1])
     u = (np.asarray(field_T, dtype=float) - field_offset_T) / period_T
     a = np.abs(u)
-    sinc = np.sinc(u)
-    safe = np.where(u == 0, 1.0, u)
-    d_sinc = np.where(u == 0, 0.0, (np.cos(np.pi * u) - sinc) / safe)
-    top = float(table(feed)[0][-1])
-    row = _row(feed, min(abs(float(ell)), top))
+    sinc, d_sinc = shape_and_slope(u)
+    q = min(abs(float(ell)), top)
+    row, seg = _row(feed, q), _segments(feed, q)
     i = np.clip(np.searchsorted(grid_u, a, side="right") - 1, 0, grid_u.size - 2)
-    seg = np.diff(row) / np.diff(grid_u)
-    d_table = np.where(a < grid_u[-1], seg[i], 0.0) * np.sign(u)
-    s = np.abs(sinc) + np.interp(a, grid_u, row, right=0.0)
-    d_s = np.sign(sinc) * d_sinc + d_table
+    inside = a < grid_u[-1]
+    along_u = a - grid_u[i]
+    # np.interp's sum (segment slope times the distance, plus the left value), beyond the
+    # table's end zero (where the departure is tapered to zero anyway).
+    s = np.abs(sinc) + np.where(inside, seg[i] * along_u + row[i], 0.0)
+    d_s = np.sign(sinc) * d_sinc + np.where(inside, seg[i], 0.0) * np.sign(u)
     # The sinc part does not depend on ell: the derivative of the table row alone (even in
     # ell, and constant beyond the table's end).
-    grid_ell, _, departure, slopes, _, _ = table(feed)
     if abs(float(ell)) >= top:
         d_ell = np.zeros_like(a)
     else:
         d_row = _hermite(grid_ell, departure, slopes, ell, derivative=True)
-        d_ell = np.sign(float(ell)) * np.interp(a, grid_u, d_row, right=0.0)
-    total = np.hypot(ic0_A * s, floor_A)
-    inv = np.divide(1.0, total, out=np.zeros_like(total), where=total > 0)
-    along = ic0_A * s * inv
+        d_seg = np.diff(d_row) / np.diff(grid_u)
+        d_ell = np.sign(float(ell)) * np.where(inside, d_seg[i] * along_u + d_row[i], 0.0)
+    if floor_A == 0.0:
+        along, d_floor = np.sign(ic0_A * s), np.zeros_like(a)
+    else:
+        total = np.hypot(ic0_A * s, floor_A)
+        inv = np.divide(1.0, total, out=np.zeros_like(total), where=total > 0)
+        along, d_floor = ic0_A * s * inv, floor_A * inv
     d_u = along * ic0_A * d_s
     return {"ic0_A": along * s, "period_T": -d_u * u / period_T,
-            "field_offset_T": -d_u / period_T, "floor_A": floor_A * inv,
+            "field_offset_T": -d_u / period_T, "floor_A": d_floor,
             "length_over_josephson_depth": along * ic0_A * d_ell}
 
 

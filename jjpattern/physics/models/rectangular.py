@@ -25,7 +25,7 @@ def unit_shape(u):
     return np.abs(np.sinc(u))
 
 
-def _shape_slope(u):
+def shape_and_slope(u):
     """``sinc(u)`` and its derivative ``(cos(pi u) - sinc(u)) / u`` (zero at u = 0) from
     one sine and one cosine."""
     import numpy as np
@@ -49,7 +49,7 @@ def _shape_slope(u):
 def gradient(field_T, ic0_A=1.0, period_T=1.0, field_offset_T=0.0, floor_A=0.0):
     """Partial derivatives of :func:`formula` by each parameter (the fit's Jacobian)."""
     return quadrature_gradient(field_T, ic0_A, period_T, field_offset_T, floor_A,
-                               _shape_slope)
+                               shape_and_slope)
 
 
 def node_flux(count):
