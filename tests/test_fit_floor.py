@@ -84,3 +84,31 @@ def test_the_refit_is_skipped_only_where_it_would_have_been_rejected():
     assert agree == floors.size
     assert 3 <= kept <= floors.size - 3  # both decisions are met on the way
     assert 0 < SKIP_FRACTION < 1
+
+
+def _long_junction_case():
+    """A long in-line junction at 100-200 points drawn as a review drew it, whose floor the
+    refit once lost: an undamped step sent L/lambda_J past the table's end."""
+    from jjpattern import synthetic
+
+    rng = np.random.default_rng(3)
+    for i in range(67):
+        geometry = ("long-inline", "long-overlap")[i % 2]
+        n = int(rng.choice([100, 120, 150, 200]))
+        extra = {"length_over_josephson_depth": float(rng.uniform(0.5, 4))}
+        case = synthetic.random_case(rng, geometry="rectangular", n_points=n,
+                                     lobes=int(rng.integers(2, 10)))
+        floor = float(rng.choice([0.0, rng.uniform(0.0, 1.2), rng.uniform(0.0, 0.6)]))
+        ideal = synthetic.ideal(case.field_T, geometry, case.ic0_A, case.period_T,
+                                case.field_offset_T, floor_A=floor * case.noise_A, **extra)
+        y = synthetic.add_noise(rng, ideal, case.noise_A)
+    return geometry, case.field_T, y
+
+
+def test_the_refit_starts_inside_the_model_and_no_worse_than_the_floor_alone():
+    geometry, x, y = _long_junction_case()
+    assert geometry == "long-inline"
+    fit = fit_pattern(x, y, geometry=geometry)
+    # A refit from the usual start (5 % of Ic0) keeps a floor of 1.8 uA here, gain 17.7.
+    assert fit.node_floor_A == pytest.approx(1.8e-6, rel=0.05)
+    assert fit.floor_evidence["chisq_gain_over_noise"] > FLOOR_DCHI2

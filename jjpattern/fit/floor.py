@@ -72,10 +72,19 @@ def estimated_floor_gain(spec, x, y, local):
     step_gain = float(g @ step)
     if not np.isfinite(step_gain):
         return None, None
-    start = dict(params)
+    moved = dict(params)
     for name, delta in zip(names, step, strict=True):
-        start[name] = params[name] - float(delta)
-    return max(local.chisq - float(r @ r) + max(step_gain, 0.0), 0.0), start
+        moved[name] = params[name] - float(delta)
+    # The step is undamped: where a parameter is nearly free (a long junction's L/lambda_J
+    # near zero, where the pattern is even in it) it can leave the model's range or land
+    # worse than it started. The refit then starts at the floor alone instead.
+    inside = all(p.min <= moved[p.name] <= p.max and not p.at_limit(moved[p.name])
+                 for p in spec.extra)
+    if inside:
+        r_moved = spec.formula(x, **moved) - y
+        inside = bool(np.isfinite(r_moved).all()) and float(r_moved @ r_moved) < float(r @ r)
+    estimate = max(local.chisq - float(r @ r) + max(step_gain, 0.0), 0.0)
+    return estimate, moved if inside else params
 
 
 def floor_trial_start(spec, x, y, local, usual: dict, *, sigma: float, loss: str,

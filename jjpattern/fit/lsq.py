@@ -147,14 +147,16 @@ def full_params(spec, start: dict, floor: bool) -> dict:
 def remember_last(fn):
     """``fn`` of one parameter vector, with its last result kept: scipy's ``leastsq`` calls
     the residual and the Jacobian at the start once to check their shapes and then again,
-    and the residual at the solution is often the last one MINPACK asked for."""
+    and the residual at the solution is often the last one MINPACK asked for. Each call
+    returns a copy: some scipy versions rescale what they are given in place (the
+    trust-region solver under a robust loss)."""
     last = [None, None]
 
     def call(v):
         key = np.asarray(v, dtype=float).tobytes()
         if last[0] != key:
             last[0], last[1] = key, fn(v)
-        return last[1]
+        return last[1].copy()
     return call
 
 
