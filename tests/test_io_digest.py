@@ -17,6 +17,7 @@ from jjpattern.io.source import HEAD_BYTES, open_source
 from jjpattern.synthetic import ideal
 
 CHANGED = r"the file changed while it was being analysed; run again once it is complete$"
+MOVED = r"the file was moved or deleted after it was read; keep it in place until the"
 
 
 def _hashlib(path) -> str:
@@ -89,10 +90,20 @@ def test_a_file_changed_before_its_digest_is_refused(tmp_path, change):
         os.replace(tmp_path / "new.h5", path)
     else:
         path.unlink()
-    with pytest.raises(InputError, match=rf"^{path}: {CHANGED}"):
+    said = MOVED if change == "removed" else CHANGED
+    with pytest.raises(InputError, match=rf"^{path}: {said}"):
         sweep.sha256  # noqa: B018
-    with pytest.raises(InputError, match=CHANGED):
+    with pytest.raises(InputError, match=said):
         sweep.summary()
+
+
+def test_a_change_of_directory_before_the_record_is_no_change(tmp_path, monkeypatch):
+    path = tmp_path / "s.h5"
+    _sweep_h5(path)
+    monkeypatch.chdir(tmp_path)
+    sweep = read("s.h5")
+    monkeypatch.chdir(tmp_path.parent)  # a notebook's os.chdir between read and record
+    assert sweep.sha256 == _hashlib(path)
 
 
 def test_the_command_line_says_so_in_one_sentence(tmp_path, monkeypatch, capsys):

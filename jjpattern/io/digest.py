@@ -38,10 +38,12 @@ class Digest:
         :func:`signature` of the file when it was opened.
     """
 
-    __slots__ = ("path", "stat_signature", "raw", "_value")
+    __slots__ = ("path", "stat_signature", "raw", "_value", "_where")
 
     def __init__(self, path: str, stat_signature: tuple):
         self.path = path
+        # Opened by its absolute path: a notebook may change directory before the record.
+        self._where = os.path.abspath(path)
         self.stat_signature = stat_signature
         #: The file's bytes when a reader read them (hashed instead of reading the file).
         self.raw = None
@@ -69,7 +71,7 @@ class Digest:
     def _streamed(self) -> str:
         digest = hashlib.sha256()
         try:
-            with open(self.path, "rb", buffering=0) as handle:
+            with open(self._where, "rb", buffering=0) as handle:
                 self._unchanged(os.fstat(handle.fileno()))
                 buffer = bytearray(_BLOCK)
                 with memoryview(buffer) as view:
@@ -77,7 +79,9 @@ class Digest:
                         digest.update(view[:count])
                 self._unchanged(os.fstat(handle.fileno()))
         except FileNotFoundError:
-            raise InputError(changed_message(self.path)) from None
+            raise InputError(f"{self.path}: the file was moved or deleted after it was read; "
+                             "keep it in place until the result is written (its SHA-256 "
+                             "is taken then)") from None
         except OSError as exc:
             raise InputError(f"{self.path}: cannot be read ({exc.strerror})") from None
         return digest.hexdigest()
@@ -87,10 +91,10 @@ class Digest:
             raise InputError(changed_message(self.path))
 
     def __getstate__(self):
-        return (self.path, self.stat_signature, self.raw, self._value)
+        return (self.path, self._where, self.stat_signature, self.raw, self._value)
 
     def __setstate__(self, state):
-        self.path, self.stat_signature, self.raw, self._value = state
+        self.path, self._where, self.stat_signature, self.raw, self._value = state
 
     def __repr__(self) -> str:
         shown = self._value[:12] + "..." if self._value else "not yet computed"
