@@ -144,15 +144,22 @@ def test_a_file_hdf5_will_not_open_by_its_path_is_read_from_its_bytes(tmp_path, 
     path = tmp_path / "s.h5"
     _sweep_h5(path)
     by_path = read(path)
-    real = h5py.File
+    real, real_open = h5py.File, h5py.h5f.open
+    refusal = OSError("Unable to synchronously open file (file locking flag values don't "
+                      "match)")
 
     def no_paths(name, *args, **kwargs):
         if isinstance(name, str):
-            raise OSError("Unable to synchronously open file (file locking flag values "
-                          "don't match)")
+            raise refusal
         return real(name, *args, **kwargs)
 
+    def no_path_open(name, *args, **kwargs):  # the reader opens through HDF5 on POSIX
+        if name == os.fsencode(path):
+            raise refusal
+        return real_open(name, *args, **kwargs)
+
     monkeypatch.setattr(h5py, "File", no_paths)
+    monkeypatch.setattr(h5py.h5f, "open", no_path_open)
     sweep = read(path)
     assert held(sweep).computed and sweep.sha256 == _hashlib(path)
     for got, expected in zip(sweep.branches, by_path.branches, strict=True):

@@ -218,9 +218,9 @@ def test_scalar_attributes_read_as_h5py_reads_them(tmp_path):
 @pytest.mark.parametrize("storage", [{}, {"chunks": (8, 64)}], ids=["contiguous", "chunked"])
 @pytest.mark.parametrize("arrangement", ["ascending", "descending", "shuffled"])
 def test_rows_read_in_blocks_land_in_field_order(tmp_path, monkeypatch, storage, arrangement):
-    from jjpattern.io import hdf5
+    from jjpattern.io import stored
 
-    monkeypatch.setattr(hdf5, "READ_BLOCK", 3 * 8 * BIAS_UA.size)  # blocks of 3 rows, 41 rows
+    monkeypatch.setattr(stored, "READ_BLOCK", 3 * 8 * BIAS_UA.size)  # blocks of 3 rows, 41 rows
     rng = np.random.default_rng(9)
     stored_order = {"ascending": np.arange(FIELD_MT.size),
                     "descending": np.arange(FIELD_MT.size)[::-1],
@@ -235,9 +235,9 @@ def test_rows_read_in_blocks_land_in_field_order(tmp_path, monkeypatch, storage,
 
 
 def test_a_bad_value_in_a_later_block_is_named_in_field_order(tmp_path, monkeypatch):
-    from jjpattern.io import hdf5
+    from jjpattern.io import stored
 
-    monkeypatch.setattr(hdf5, "READ_BLOCK", 3 * 8 * BIAS_UA.size)
+    monkeypatch.setattr(stored, "READ_BLOCK", 3 * 8 * BIAS_UA.size)
     v = _voltage_uV(np.random.default_rng(10))
     v[2, 100] = 2e9  # stored row 2 of a descending file: field row 38 once sorted
     _write(tmp_path / "big.h5", v, field_mT=FIELD_MT[::-1].copy())

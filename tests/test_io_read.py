@@ -85,16 +85,22 @@ def test_hdf5_opened_once_by_its_path_without_its_bytes(tmp_path, monkeypatch):
     path = tmp_path / "m.h5"
     _map_h5(path, np.arange(5.0), np.arange(7.0), np.ones((5, 7)))
     calls = []
-    real = h5py.File
+    real, real_open = h5py.File, h5py.h5f.open
 
     def counting(name, *args, **kwargs):
-        calls.append(name)
+        if isinstance(name, str):
+            calls.append(name)
         return real(name, *args, **kwargs)
+
+    def counting_open(name, *args, **kwargs):  # the reader opens through HDF5 on POSIX
+        calls.append(os.fsdecode(name))
+        return real_open(name, *args, **kwargs)
 
     def whole_file(*args):
         raise AssertionError("the whole file was read")
 
     monkeypatch.setattr(h5py, "File", counting)
+    monkeypatch.setattr(h5py.h5f, "open", counting_open)
     monkeypatch.setattr(source_module, "_read_file", whole_file)
     ivmap = read(path)
     assert isinstance(ivmap, IVMap)

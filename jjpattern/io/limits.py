@@ -8,6 +8,7 @@ array is read; the numbers of a sweep or a map are checked once converted to SI
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 
 import numpy as np
@@ -80,13 +81,15 @@ def check_file_size(path: str, size: int, settings, what: str = "the file holds"
 
 
 def check_points(path: str, name, shape, settings) -> None:
-    """Refuse an array declared larger than ``max_points`` values, before reading it."""
+    """Refuse an array declared larger than ``max_points`` values, before reading it
+    (``name`` may be a function giving it, called only for the message)."""
     try:
-        count = int(np.prod([int(s) for s in shape], dtype=object))
+        count = math.prod(int(s) for s in shape)
     except (TypeError, ValueError):
         count = 0
     limit = max_points(settings)
     if count > limit:
+        name = name() if callable(name) else name
         raise InputError(f"{path}: {clip(name)} declares {count:,} values, above the limit of "
                          f"{limit:,}; raise --read-limit values=N (read setting "
                          "max_points) if it is meant")

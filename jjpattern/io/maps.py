@@ -231,7 +231,7 @@ def from_arrays(field_raw, bias_raw, signal_raw, units: dict, names: dict, *, so
     map. With ``owned`` the float64 arrays belong to the caller no longer and
     are scaled in place instead of copied. ``signal_raw`` may be a read not yet
     done (``shape``, ``ndim``, ``whole()`` and ``scaled(factor, limit, order)``, see
-    :class:`jjpattern.io.hdf5.StoredMap`): it is read once its unit is known, into
+    :class:`jjpattern.io.stored.StoredMap`): it is read once its unit is known, into
     an array of its own scaled and screened block by block as it arrives.
     """
     deferred = hasattr(signal_raw, "scaled")
