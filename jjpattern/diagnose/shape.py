@@ -150,8 +150,7 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
     exceeds the noise, and the null's, through the noise estimate) and lifts some
     measured point by :data:`FLOOR_VISIBLE` noise units.
     """
-    from scipy import optimize
-
+    from ..fit.floor import _best_floor_squared
     from ..physics.models import get_model
 
     if fit.node_floor_A is None or not fit.node_floor_stderr_A or not fit.best_params:
@@ -163,10 +162,10 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
     # In noise units, so the bounded search is scale-free.
     f, c = curve / sigma, criterion_floor_A / sigma
     target = folded_mean(np.hypot(f, c), 1.0) if folded else np.hypot(f, c)
-    res = optimize.minimize_scalar(lambda k: np.sum((np.hypot(f, k) - target) ** 2),
-                                   bounds=(0.0, 3.0 + 2.0 * c), method="bounded",
-                                   options={"xatol": 1e-5})
-    null = float(res.x) * sigma
+    # Convex in the squared floor (the target is non-negative): Newton steps in a bracket
+    # rather than a bounded scalar search (the same least squares, solved closer).
+    k2 = _best_floor_squared(f * f, target)
+    null = min(float(np.sqrt(k2)), 3.0 + 2.0 * c) * sigma
     # A MAD-based noise from n values has a relative standard error of about 1.17/sqrt(n)
     # (its efficiency against the standard deviation is 37 %; common practice).
     null_err = (null - criterion_floor_A if folded else 0.0) * 1.17 / np.sqrt(max(used, 1))
