@@ -39,7 +39,8 @@ def test_null_floor_is_the_bounded_least_squares_minimum(top):
     ref = optimize.minimize_scalar(lambda k: np.sum((np.hypot(f, k) - target) ** 2),
                                    bounds=(0.0, np.sqrt(top)), method="bounded",
                                    options={"xatol": 1e-12}).x
-    assert np.sqrt(_null_floor_squared(f * f, target, top)) == pytest.approx(ref, rel=1e-8)
+    # Brent stops within its tolerance of a bound, not on it.
+    assert np.sqrt(_null_floor_squared(f * f, target, top)) == pytest.approx(ref, abs=1e-7)
     # True zeros measured as plain values: no floor at all.
     assert _null_floor_squared(f * f, f, top) == 0.0
 
