@@ -95,9 +95,10 @@ def node_signs(u, ic, smooth=0.1):
         for m in minima:
             # A simple zero is V-shaped (|F| doubles from 0.1 to 0.2 away), a double zero
             # U-shaped (|F| quadruples) and keeps its sign: flip only at simple zeros.
-            near = [seq[k] for k in (m - step, m + step) if 0 <= k < seq.size]
-            far = [seq[k] for k in (m - 2 * step, m + 2 * step) if 0 <= k < seq.size]
-            if near and far and np.mean(far) > 3.0 * np.mean(near) + seq[m]:
+            near = [float(seq[k]) for k in (m - step, m + step) if 0 <= k < seq.size]
+            far = [float(seq[k]) for k in (m - 2 * step, m + 2 * step) if 0 <= k < seq.size]
+            # Means of one or two values in plain arithmetic (as np.mean rounds them).
+            if near and far and sum(far) / len(far) > 3.0 * (sum(near) / len(near)) + seq[m]:
                 continue
             flips[m:] += 1
         signs[idx] = np.where(flips % 2 == 1, -1.0, 1.0)
