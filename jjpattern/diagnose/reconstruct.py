@@ -146,32 +146,40 @@ def _grid(u, ic, symmetric):
     return grid, values, step, counts
 
 
-def _cosine_table(u, right):
-    """``cos(2 pi u x)`` for ``u`` = du, 2 du, ... (n,) and ``x`` = ``right`` (n_x,), (n, n_x).
+def _cosine_table(u, right, out, scale=1.0):
+    """``scale cos(2 pi u x)`` for ``u`` = du, 2 du, ... (n,) and ``x`` = ``right`` (n_x,),
+    written into ``out`` (n, n_x).
 
-    By the angle sum from two tables of about sqrt(n) rows each, u = q B du + r du:
-    a product and a difference per entry cost less than a cosine (the entries agree
-    with the direct cosines to round-off, 2e-14 at |2 pi u x| ~ 40).
+    By the angle sum from two tables of about sqrt(n) rows each, u = q B du + r du,
+    a block of B rows at a time: a product and a difference per entry cost less than
+    a cosine (the entries agree with the direct cosines to round-off, 2e-14 at
+    |2 pi u x| ~ 40), and no table-sized temporary is made.
     """
     n = u.size
     du = u[0]
     rows = max(1, int(np.ceil(np.sqrt(n))))
-    blocks = -(-n // rows)
-    coarse = 2.0 * np.pi * np.outer(du * rows * np.arange(blocks), right)
+    coarse = 2.0 * np.pi * np.outer(du * rows * np.arange(-(-n // rows)), right)
     fine = 2.0 * np.pi * np.outer(du * np.arange(1, rows + 1), right)
-    cos_c, sin_c, cos_f, sin_f = np.cos(coarse), np.sin(coarse), np.cos(fine), np.sin(fine)
-    table = cos_c[:, None, :] * cos_f[None, :, :]
-    table -= sin_c[:, None, :] * sin_f[None, :, :]
-    return table.reshape(-1, right.size)[:n]
+    cos_c, sin_c = scale * np.cos(coarse), scale * np.sin(coarse)
+    cos_f, sin_f = np.cos(fine), np.sin(fine)
+    part = np.empty_like(cos_f)
+    for q in range(cos_c.shape[0]):
+        block = out[q * rows:(q + 1) * rows]
+        k = block.shape[0]
+        np.multiply(cos_f[:k], cos_c[q], out=block)
+        block -= np.multiply(sin_f[:k], sin_c[q], out=part[:k])
+    return out
 
 
-def _even_transform(g, u, x, du):
-    """``sum_u G(u) cos(2 pi u x) du`` for a G even in u, from its half ``g`` (m, n) on
-    ``u = 0, du, 2 du, ...``, at ``x >= 0`` (the upper half of a grid symmetric about 0,
-    where the transform is even too), (m, n_x)."""
-    if u.size < 2:
-        return np.repeat(g[:, :1] * du, x.size, axis=1)
-    return (g[:, :1] + 2.0 * (g[:, 1:] @ _cosine_table(u[1:], x))) * du
+def _even_weights(u, x, du):
+    """Weights ``W`` (n, n_x) with ``g @ W = sum_u G(u) cos(2 pi u x) du`` for a G even in
+    u, from its half ``g`` (m, n) on ``u = 0, du, 2 du, ...``, at ``x >= 0`` (the upper
+    half of a grid symmetric about 0, where the transform is even too)."""
+    weights = np.empty((u.size, x.size))
+    weights[0] = du
+    if u.size > 1:
+        _cosine_table(u[1:], x, weights[1:], 2.0 * du)
+    return weights
 
 
 def _unfold(half, n):
@@ -297,17 +305,24 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
         # variance of the two values averaged) is drawn once for both.
         spread = 0.5 * np.hypot(sigma[centre:], sigma[centre::-1])
         spread[0] = sigma[centre]  # u = 0 is its own mirror image
-        # The profile, the uniform reference and the resamples in one product (one
-        # cosine table for all); the resamples are drawn into place (the draws of
-        # rng.normal(0, 1, ...)) and scaled there.
-        rows = np.empty((resamples + 2, spread.size))
-        rows[0] = values[centre:] * taper
-        rows[1] = (flat * flat_signs * window)[centre:]
-        noisy = rng.standard_normal(out=rows[2:])
-        noisy *= spread
-        noisy += values[centre:]
-        noisy *= taper
-        out = _even_transform(rows, grid[centre:], x[n_x // 2:], du)
+        # The profile, the uniform reference and the resamples through one table of
+        # weights; the resamples are drawn into place (the draws of rng.normal(0, 1, ...))
+        # and scaled there.
+        weights = _even_weights(grid[centre:], x[n_x // 2:], du)
+        out = np.empty((resamples + 2, weights.shape[1]))
+        chunk = np.empty((min(max(resamples, 2), 50), spread.size))
+        chunk[0] = values[centre:] * taper
+        chunk[1] = (flat * flat_signs * window)[centre:]
+        np.matmul(chunk[:2], weights, out=out[:2])
+        # A resample is the profile plus the transform of its tapered noise, so the
+        # scaling of the noise goes into the weights once, not into every draw.
+        weights *= (spread * taper)[:, None]
+        # The resamples a few dozen at a time (memory independent of their number); the
+        # draws are those of one rng.standard_normal of all of them, in order.
+        for first in range(0, resamples, chunk.shape[0]):
+            noisy = rng.standard_normal(out=chunk[:min(chunk.shape[0], resamples - first)])
+            np.matmul(noisy, weights, out=out[2 + first:2 + first + noisy.shape[0]])
+        out[2:] += out[0]
         j, j_flat = _unfold(out[0], n_x), _unfold(out[1], n_x)
         # Even profiles: their percentiles at x >= 0 are those at -x too.
         band = _unfold(out[2:], n_x)
