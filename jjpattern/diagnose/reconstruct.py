@@ -397,16 +397,23 @@ def _numbers(x, profiles):
     # Grid points on the edges (x = +-0.4, +-0.5) count on both sides despite rounding,
     # and each part is integrated over its own points (no ramp from zeroed neighbours).
     tol = 1e-9
-    inside = np.abs(x) <= 0.5 + tol
-    p = np.clip(profiles, 0.0, None)
-    xi, pi = x[inside], p[:, inside]
+    inside = _span(np.abs(x) <= 0.5 + tol)
+    # Clipped over the junction only; each part is a slice of it (views, not copies).
+    pi = np.clip(profiles[:, inside], 0.0, None)
+    xi = x[inside]
     total = np.trapezoid(pi, xi, axis=1)
-    outer_left = inside & (x <= -0.4 + tol)
-    outer_right = inside & (x >= 0.4 - tol)
-    left = np.trapezoid(p[:, outer_left], x[outer_left], axis=1)
-    right = np.trapezoid(p[:, outer_right], x[outer_right], axis=1)
+    outer_left = _span(xi <= -0.4 + tol)
+    outer_right = _span(xi >= 0.4 - tol)
+    left = np.trapezoid(pi[:, outer_left], xi[outer_left], axis=1)
+    right = np.trapezoid(pi[:, outer_right], xi[outer_right], axis=1)
     centre = np.trapezoid(pi * xi, xi, axis=1) / total
-    core = p[:, np.abs(x) <= 0.4 + tol]
+    core = pi[:, _span(np.abs(xi) <= 0.4 + tol)]
     spread = np.std(core, axis=1) / np.mean(core, axis=1)
     return np.stack([(left + right) / total, left / total, right / total, centre, spread],
                     axis=1)
+
+
+def _span(mask):
+    """The points of a mask that holds one run of True (on a sorted x), as a slice."""
+    where = np.flatnonzero(mask)
+    return slice(int(where[0]), int(where[-1]) + 1) if where.size else slice(0, 0)
