@@ -345,6 +345,7 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
         band = np.zeros((count, n_x))
         band[:, support] = _retrieve(np.abs(noisy), transform, j[support], iterations // 3)
         low, high = np.percentile(band, [16, 84], axis=0)
+    mean = _junction_mean(x, j)
     reference = {"model": model, **profile_numbers(x, j_flat),
                  "meaning": "a uniform junction of this model at the measured fields, "
                             "through the same window, grid and method"}
@@ -356,9 +357,9 @@ def reconstruct(field_T, ic_A, period_T, field_offset_T, noise_A, rng, *,
                        "indistinguishable (mirror ambiguity)"),
         "x_over_length": x,
         # Dimensionless: J(x) over its mean across the junction (1 for uniform current).
-        "j_over_mean": j / _junction_mean(x, j),
-        "j_low_over_mean": low / _junction_mean(x, j),
-        "j_high_over_mean": high / _junction_mean(x, j),
+        "j_over_mean": j / mean,
+        "j_low_over_mean": low / mean,
+        "j_high_over_mean": high / mean,
         "resolution_over_length": float(1.0 / (2.0 * np.max(np.abs(grid)))),
         "window": f"Tukey, alpha {WINDOW_ALPHA}",
         "resamples": int(band.shape[0]),
