@@ -146,39 +146,27 @@ def _grid(u, ic, symmetric):
     return grid, values, step, counts
 
 
-def _cosine_table(u, right, out, scale=1.0):
-    """``scale cos(2 pi u x)`` for ``u`` = du, 2 du, ... (n,) and ``x`` = ``right`` (n_x,),
-    written into ``out`` (n, n_x).
-
-    By the angle sum from two tables of about sqrt(n) rows each, u = q B du + r du,
-    a block of B rows at a time: a product and a difference per entry cost less than
-    a cosine (the entries agree with the direct cosines to round-off, 2e-14 at
-    |2 pi u x| ~ 40), and no table-sized temporary is made.
-    """
-    n = u.size
-    du = u[0]
-    rows = max(1, int(np.ceil(np.sqrt(n))))
-    coarse = 2.0 * np.pi * np.outer(du * rows * np.arange(-(-n // rows)), right)
-    fine = 2.0 * np.pi * np.outer(du * np.arange(1, rows + 1), right)
-    cos_c, sin_c = scale * np.cos(coarse), scale * np.sin(coarse)
-    cos_f, sin_f = np.cos(fine), np.sin(fine)
-    part = np.empty_like(cos_f)
-    for q in range(cos_c.shape[0]):
-        block = out[q * rows:(q + 1) * rows]
-        k = block.shape[0]
-        np.multiply(cos_f[:k], cos_c[q], out=block)
-        block -= np.multiply(sin_f[:k], sin_c[q], out=part[:k])
-    return out
-
-
 def _even_weights(u, x, du):
     """Weights ``W`` (n, n_x) with ``g @ W = sum_u G(u) cos(2 pi u x) du`` for a G even in
     u, from its half ``g`` (m, n) on ``u = 0, du, 2 du, ...``, at ``x >= 0`` (the upper
-    half of a grid symmetric about 0, where the transform is even too)."""
+    half of a grid symmetric about 0, where the transform is even too).
+
+    The cosines by the angle sum from two tables of about sqrt(n) rows, u = q B du + r du,
+    B rows at a time: a product and a difference cost less than a cosine (they agree to
+    round-off, 2e-14 at |2 pi u x| ~ 40) and no table-sized temporary is made.
+    """
     weights = np.empty((u.size, x.size))
     weights[0] = du
-    if u.size > 1:
-        _cosine_table(u[1:], x, weights[1:], 2.0 * du)
+    rows = max(1, int(np.ceil(np.sqrt(u.size - 1))))
+    coarse = 2.0 * np.pi * np.outer(du * rows * np.arange(-(-(u.size - 1) // rows)), x)
+    fine = 2.0 * np.pi * np.outer(du * np.arange(1, rows + 1), x)
+    cos_c, sin_c = 2.0 * du * np.cos(coarse), 2.0 * du * np.sin(coarse)
+    cos_f, sin_f, part = np.cos(fine), np.sin(fine), np.empty_like(fine)
+    for q in range(cos_c.shape[0]):
+        block = weights[1 + q * rows:1 + (q + 1) * rows]
+        k = block.shape[0]
+        np.multiply(cos_f[:k], cos_c[q], out=block)
+        block -= np.multiply(sin_f[:k], sin_c[q], out=part[:k])
     return weights
 
 
@@ -415,6 +403,6 @@ def _numbers(x, profiles):
 
 
 def _span(mask):
-    """The points of a mask that holds one run of True (on a sorted x), as a slice."""
+    """The one run of True of ``mask`` (a range of a sorted x) as a slice."""
     where = np.flatnonzero(mask)
     return slice(int(where[0]), int(where[-1]) + 1) if where.size else slice(0, 0)
