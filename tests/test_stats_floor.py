@@ -7,9 +7,15 @@ a plain numpy |sinc|.
 
 import numpy as np
 import pytest
-from scipy import stats
+from scipy import optimize, stats
 
-from jjpattern.diagnose.shape import FLOOR_SIGMAS, floor_test, folded_mean, lifted_floor_A
+from jjpattern.diagnose.shape import (
+    FLOOR_SIGMAS,
+    _null_floor_squared,
+    floor_test,
+    folded_mean,
+    lifted_floor_A,
+)
 from jjpattern.fit.engine import fit_pattern
 from jjpattern.synthetic import add_noise, ideal, profile_case
 
@@ -21,6 +27,22 @@ def test_folded_mean_is_scipys_folded_normal():
     expect = [stats.foldnorm(c / sigma, scale=sigma).mean() for c in m]
     assert np.allclose(folded_mean(m, sigma), expect, rtol=1e-12, atol=1e-15)
     assert folded_mean(0.0, 1.0) == pytest.approx(np.sqrt(2 / np.pi), rel=1e-14)
+
+
+@pytest.mark.parametrize("top", [9.0, 0.1])
+def test_null_floor_is_the_bounded_least_squares_minimum(top):
+    # Reference: scipy.optimize.minimize_scalar (bounded Brent, tight tolerance) in the
+    # floor itself, as the node-floor test searched before; ``top`` 0.1 binds the bound.
+    u = np.linspace(-9.0, 9.0, 4000) + 0.013
+    f = 40.0 * np.abs(np.sinc(u))
+    target = folded_mean(f, 1.0)
+    ref = optimize.minimize_scalar(lambda k: np.sum((np.hypot(f, k) - target) ** 2),
+                                   bounds=(0.0, np.sqrt(top)), method="bounded",
+                                   options={"xatol": 1e-12}).x
+    # Brent stops within its tolerance of a bound, not on it.
+    assert np.sqrt(_null_floor_squared(f * f, target, top)) == pytest.approx(ref, abs=1e-7)
+    # True zeros measured as plain values: no floor at all.
+    assert _null_floor_squared(f * f, f, top) == 0.0
 
 
 @pytest.mark.parametrize("noise", [0.005, 0.01, 0.03])

@@ -135,6 +135,33 @@ def _noise_off_nodes(x, y, curve, noise):
     return float(_MAD * np.median(np.abs(z - np.median(z)))), int(z.size)
 
 
+def _null_floor_squared(m2, y, top):
+    """``F`` in ``[0, top]`` minimising ``sum (sqrt(m2 + F) - y)^2`` for ``y >= 0``.
+
+    Convex in ``F``: its derivative ``sum (1 - y / sqrt(m2 + F))`` increases and is
+    concave, so Newton steps started at ``F = 0``, left of its root, climb to the
+    root without overshooting it (a few steps, each one pass over the points).
+    """
+    if not np.all(m2 > 0):
+        from ..fit.floor import _best_floor_squared
+
+        return min(_best_floor_squared(m2, y), top)
+    f = 0.0
+    for _ in range(100):
+        inv = 1.0 / np.sqrt(m2 + f)
+        ratio = y * inv
+        slope = m2.size - float(np.sum(ratio))
+        if slope >= 0.0:
+            break
+        step = -slope / (0.5 * float(np.sum(ratio * inv * inv)))
+        f += step
+        if f >= top:
+            return top
+        if step <= 1e-12 * f:
+            break
+    return f
+
+
 def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
     """The fitted node floor against the floor true zeros would give; ``None`` without a floor.
 
@@ -150,8 +177,6 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
     exceeds the noise, and the null's, through the noise estimate) and lifts some
     measured point by :data:`FLOOR_VISIBLE` noise units.
     """
-    from scipy import optimize
-
     from ..physics.models import get_model
 
     if fit.node_floor_A is None or not fit.node_floor_stderr_A or not fit.best_params:
@@ -163,10 +188,7 @@ def floor_test(fit, criterion_floor_A=0.0) -> dict | None:
     # In noise units, so the bounded search is scale-free.
     f, c = curve / sigma, criterion_floor_A / sigma
     target = folded_mean(np.hypot(f, c), 1.0) if folded else np.hypot(f, c)
-    res = optimize.minimize_scalar(lambda k: np.sum((np.hypot(f, k) - target) ** 2),
-                                   bounds=(0.0, 3.0 + 2.0 * c), method="bounded",
-                                   options={"xatol": 1e-5})
-    null = float(res.x) * sigma
+    null = float(np.sqrt(_null_floor_squared(f * f, target, (3.0 + 2.0 * c) ** 2))) * sigma
     # A MAD-based noise from n values has a relative standard error of about 1.17/sqrt(n)
     # (its efficiency against the standard deviation is 37 %; common practice).
     null_err = (null - criterion_floor_A if folded else 0.0) * 1.17 / np.sqrt(max(used, 1))
