@@ -136,30 +136,11 @@ def _noise_off_nodes(x, y, curve, noise):
 
 
 def _null_floor_squared(m2, y, top):
-    """``F`` in ``[0, top]`` minimising ``sum (sqrt(m2 + F) - y)^2`` for ``y >= 0``.
+    """``F`` in ``[0, top]`` minimising ``sum (sqrt(m2 + F) - y)^2`` (``fit.floor``: a convex
+    problem in ``F``, solved by Newton steps)."""
+    from ..fit.floor import _best_floor_squared
 
-    Convex in ``F``: its derivative ``sum (1 - y / sqrt(m2 + F))`` increases and is
-    concave, so Newton steps started at ``F = 0``, left of its root, climb to the
-    root without overshooting it (a few steps, each one pass over the points).
-    """
-    if not np.all(m2 > 0):
-        from ..fit.floor import _best_floor_squared
-
-        return min(_best_floor_squared(m2, y), top)
-    f = 0.0
-    for _ in range(100):
-        inv = 1.0 / np.sqrt(m2 + f)
-        ratio = y * inv
-        slope = m2.size - float(np.sum(ratio))
-        if slope >= 0.0:
-            break
-        step = -slope / (0.5 * float(np.sum(ratio * inv * inv)))
-        f += step
-        if f >= top:
-            return top
-        if step <= 1e-12 * f:
-            break
-    return f
+    return min(_best_floor_squared(m2, y, top), top)
 
 
 def floor_test(fit, criterion_floor_A=0.0) -> dict | None:

@@ -20,13 +20,33 @@ SKIP_FRACTION = 0.5
 SKIP_REDCHI = 2.0
 
 
-def _best_floor_squared(m2, y):
-    """``F >= 0`` minimising ``sum (sqrt(m2 + F) - y)^2``: zero where the derivative
-    ``sum (1 - y / sqrt(m2 + F))`` is already non-negative at zero, else its root by
-    Newton steps kept inside a shrinking bracket."""
-    hi = float(np.max(y)) ** 2
+def _best_floor_squared(m2, y, top=None):
+    """``F`` in ``[0, top]`` (default ``max(y)^2``) minimising ``sum (sqrt(m2 + F) - y)^2``.
+
+    Its derivative ``sum (1 - y / sqrt(m2 + F))`` increases, and for ``y >= 0`` is concave:
+    with every ``m2 > 0`` (finite at zero) Newton steps started at ``F = 0``, left of the
+    root, climb to it without overshooting (a few passes). Otherwise the root is zero
+    where the derivative is already non-negative at zero, else found by Newton steps kept
+    inside a shrinking bracket.
+    """
+    hi = float(np.max(y)) ** 2 if top is None else float(top)
     if hi <= 0.0:
         return 0.0
+    if np.all(m2 > 0) and np.all(y >= 0):
+        f = 0.0
+        for _ in range(100):
+            inv = 1.0 / np.sqrt(m2 + f)
+            ratio = y * inv
+            slope = m2.size - float(np.sum(ratio))
+            if slope >= 0.0:
+                break
+            step = -slope / (0.5 * float(np.sum(ratio * inv * inv)))
+            f += step
+            if f >= hi:
+                return hi
+            if step <= 1e-12 * f:
+                break
+        return f
     if np.all(m2 > 0) and float(np.sum(1.0 - y / np.sqrt(m2))) >= 0.0:
         return 0.0
     lo, f = 0.0, 0.0025 * hi
