@@ -9,7 +9,7 @@ import pytest
 from scipy import optimize
 
 from jjpattern.fit.engine import FLOOR_DCHI2, fit_pattern
-from jjpattern.fit.floor import SKIP_FRACTION, _best_floor_squared, estimated_floor_gain
+from jjpattern.fit.floor import SKIP_FRACTION, best_floor_squared, estimated_floor_gain
 from jjpattern.fit.lsq import solve
 from jjpattern.physics.models import get_model
 
@@ -27,7 +27,7 @@ def test_the_best_floor_is_the_minimum_a_reference_minimiser_finds(seed):
     rng = np.random.default_rng(seed)
     m = np.abs(rng.normal(0.0, 1.0, 500)) * rng.uniform(0.0, 1.0, 500)
     y = np.abs(np.hypot(m, rng.uniform(0.0, 0.3)) + rng.normal(0.0, 0.05, 500))
-    f2 = _best_floor_squared(m * m, y)
+    f2 = best_floor_squared(m * m, y)
 
     def cost(f):
         return float(np.sum((np.sqrt(m * m + f) - y) ** 2))
@@ -40,7 +40,7 @@ def test_the_best_floor_is_the_minimum_a_reference_minimiser_finds(seed):
 
 def test_no_floor_where_the_data_sit_above_the_pattern_nowhere():
     m = np.linspace(0.5, 1.0, 50)
-    assert _best_floor_squared(m * m, m - 0.01) == 0.0
+    assert best_floor_squared(m * m, m - 0.01) == 0.0
 
 
 @pytest.mark.parametrize(("floor", "noise"), [(0.0, 0.02), (0.005, 0.01), (0.02, 0.02),

@@ -138,9 +138,9 @@ def _noise_off_nodes(x, y, curve, noise):
 def _null_floor_squared(m2, y, top):
     """``F`` in ``[0, top]`` minimising ``sum (sqrt(m2 + F) - y)^2`` (``fit.floor``: a convex
     problem in ``F``, solved by Newton steps)."""
-    from ..fit.floor import _best_floor_squared
+    from ..fit.floor import best_floor_squared
 
-    return min(_best_floor_squared(m2, y, top), top)
+    return min(best_floor_squared(m2, y, top), top)
 
 
 def floor_test(fit, criterion_floor_A=0.0) -> dict | None:

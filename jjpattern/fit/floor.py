@@ -20,7 +20,7 @@ SKIP_FRACTION = 0.5
 SKIP_REDCHI = 2.0
 
 
-def _best_floor_squared(m2, y, top=None):
+def best_floor_squared(m2, y, top=None):
     """``F`` in ``[0, top]`` (default ``max(y)^2``) minimising ``sum (sqrt(m2 + F) - y)^2``.
 
     Its derivative ``sum (1 - y / sqrt(m2 + F))`` increases, and for ``y >= 0`` is concave:
@@ -76,7 +76,7 @@ def estimated_floor_gain(spec, x, y, local):
         return None, None
     model = y + local.residual
     m2 = model * model
-    f2 = _best_floor_squared(m2, y)
+    f2 = best_floor_squared(m2, y)
     if f2 <= 0.0:
         return 0.0, None
     params = dict(local.params, floor_A=float(np.sqrt(f2)))
